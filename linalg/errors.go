@@ -1,0 +1,42 @@
+package linalg
+
+import (
+	"errors"
+	"fmt"
+)
+
+// Sentinel errors. Every error returned by this package wraps one of these,
+// so callers can branch with errors.Is.
+var (
+	// ErrNotStochastic: a matrix is not row-stochastic (negative entry or a
+	// row that does not sum to 1 within tolerance).
+	ErrNotStochastic = errors.New("not stochastic")
+	// ErrSingular: a system matrix is singular or numerically singular.
+	ErrSingular = errors.New("singular matrix")
+	// ErrDiscount: a discount factor is outside its allowed range.
+	ErrDiscount = errors.New("bad discount")
+	// ErrDimension: shapes of arguments do not agree.
+	ErrDimension = errors.New("dimension mismatch")
+	// ErrNotConverged: an iterative method stopped before reaching its tolerance.
+	ErrNotConverged = errors.New("not converged")
+	// ErrNonFinite: an input contains NaN or an infinity.
+	ErrNonFinite = errors.New("non-finite value")
+)
+
+// RowSumError reports a row of a matrix that is not a probability
+// distribution. It wraps ErrNotStochastic.
+type RowSumError struct {
+	Row int     // index of the offending row
+	Sum float64 // its sum
+	Neg bool    // true when the row has a negative entry
+}
+
+func (e *RowSumError) Error() string {
+	if e.Neg {
+		return fmt.Sprintf("linalg: row %d has a negative entry", e.Row)
+	}
+	return fmt.Sprintf("linalg: row %d sums to %.17g, not 1", e.Row, e.Sum)
+}
+
+// Unwrap returns ErrNotStochastic.
+func (e *RowSumError) Unwrap() error { return ErrNotStochastic }

@@ -1,0 +1,146 @@
+package mdp
+
+import (
+	"errors"
+	"fmt"
+	"math"
+
+	"github.com/successor-go/successor/linalg"
+)
+
+// ErrInvalid is wrapped by errors about a malformed MDP description that has
+// no more specific linalg sentinel (a terminal state with outgoing mass, an
+// empty start distribution, an index out of range).
+var ErrInvalid = errors.New("invalid mdp")
+
+// Transition is one entry P(Next | State, Action) = Prob of a finite MDP.
+type Transition struct {
+	State, Action, Next int
+	Prob                float64
+}
+
+// Finite is a finite MDP: n states, A actions in every state, sparse
+// transition probabilities P(s' | s, a), terminal flags and a start
+// distribution. A Finite is immutable after construction and safe for
+// concurrent use.
+//
+// Transitions are stored as one CSR matrix with n*A rows, row s*A + a holding
+// P(. | s, a). A terminal state's rows are a self-loop with probability 1;
+// oracles and samplers give it zero future (it stops bootstrapping).
+type Finite struct {
+	n, a     int
+	p        *linalg.CSR
+	terminal []bool
+	start    []float64
+}
+
+// StochasticTol is the tolerance on row sums used when validating MDPs.
+const StochasticTol = 1e-9
+
+// New returns a validated finite MDP with numStates states and numActions
+// actions. Transitions may come in any order; duplicates are summed.
+// terminal may be nil (no terminal states); otherwise its length is
+// numStates. start is a distribution over states (len numStates).
+//
+// Every (s, a) of a non-terminal state must have outgoing probabilities
+// summing to 1 within StochasticTol. A terminal state's actions may be
+// omitted (a self-loop is added) or given as a self-loop with probability 1;
+// anything else is an error.
+func New(numStates, numActions int, t []Transition, terminal []bool, start []float64) (*Finite, error) {
+	if numStates <= 0 || numActions <= 0 {
+		return nil, fmt.Errorf("mdp: new: %d states, %d actions: %w", numStates, numActions, linalg.ErrDimension)
+	}
+	if terminal != nil && len(terminal) != numStates {
+		return nil, fmt.Errorf("mdp: new: %d terminal flags for %d states: %w", len(terminal), numStates, linalg.ErrDimension)
+	}
+	if len(start) != numStates {
+		return nil, fmt.Errorf("mdp: new: start has length %d, want %d: %w", len(start), numStates, linalg.ErrDimension)
+	}
+	term := make([]bool, numStates)
+	copy(term, terminal)
+	var ssum float64
+	for s, v := range start {
+		if math.IsNaN(v) || math.IsInf(v, 0) {
+			return nil, fmt.Errorf("mdp: new: start[%d]: %w", s, linalg.ErrNonFinite)
+		}
+		if v < 0 {
+			return nil, fmt.Errorf("mdp: new: start[%d] = %v negative: %w", s, v, linalg.ErrNotStochastic)
+		}
+		ssum += v
+	}
+	if ssum == 0 {
+		return nil, fmt.Errorf("mdp: new: empty start distribution: %w", ErrInvalid)
+	}
+	if math.Abs(ssum-1) > StochasticTol {
+		return nil, fmt.Errorf("mdp: new: start sums to %v: %w", ssum, linalg.ErrNotStochastic)
+	}
+	trip := make([]linalg.Triplet, 0, len(t)+numStates*numActions)
+	for _, e := range t {
+		if e.State < 0 || e.State >= numStates || e.Next < 0 || e.Next >= numStates {
+			return nil, fmt.Errorf("mdp: new: transition %d -> %d: state out of range: %w", e.State, e.Next, ErrInvalid)
+		}
+		if e.Action < 0 || e.Action >= numActions {
+			return nil, fmt.Errorf("mdp: new: transition from %d: action %d out of range: %w", e.State, e.Action, ErrInvalid)
+		}
+		if math.IsNaN(e.Prob) || math.IsInf(e.Prob, 0) {
+			return nil, fmt.Errorf("mdp: new: P(%d|%d,%d): %w", e.Next, e.State, e.Action, linalg.ErrNonFinite)
+		}
+		if e.Prob < 0 {
+			return nil, fmt.Errorf("mdp: new: P(%d|%d,%d) = %v negative: %w", e.Next, e.State, e.Action, e.Prob, linalg.ErrNotStochastic)
+		}
+		if term[e.State] {
+			if e.Next != e.State || e.Prob != 1 {
+				return nil, fmt.Errorf("mdp: new: terminal state %d has outgoing mass to %d: %w", e.State, e.Next, ErrInvalid)
+			}
+			continue // re-added below
+		}
+		if e.Prob == 0 {
+			continue
+		}
+		trip = append(trip, linalg.Triplet{Row: e.State*numActions + e.Action, Col: e.Next, Val: e.Prob})
+	}
+	for s := 0; s < numStates; s++ {
+		if term[s] {
+			for a := 0; a < numActions; a++ {
+				trip = append(trip, linalg.Triplet{Row: s*numActions + a, Col: s, Val: 1})
+			}
+		}
+	}
+	p, err := linalg.CSRFromTriplets(numStates*numActions, numStates, trip)
+	if err != nil {
+		return nil, fmt.Errorf("mdp: new: %w", err)
+	}
+	for r := 0; r < numStates*numActions; r++ {
+		_, val := p.Row(r)
+		var sum float64
+		for _, v := range val {
+			sum += v
+		}
+		if math.Abs(sum-1) > StochasticTol {
+			return nil, fmt.Errorf("mdp: new: state %d action %d: %w", r/numActions, r%numActions, &linalg.RowSumError{Row: r, Sum: sum})
+		}
+	}
+	st := make([]float64, numStates)
+	copy(st, start)
+	return &Finite{n: numStates, a: numActions, p: p, terminal: term, start: st}, nil
+}
+
+// NumStates returns the number of states.
+func (m *Finite) NumStates() int { return m.n }
+
+// NumActions returns the number of actions (the same in every state).
+func (m *Finite) NumActions() int { return m.a }
+
+// Terminal reports whether state s is terminal.
+func (m *Finite) Terminal(s int) bool { return m.terminal[s] }
+
+// Start returns the start distribution. The slice must not be modified.
+func (m *Finite) Start() []float64 { return m.start }
+
+// Next returns views of the successor states and their probabilities for
+// (s, a). They must not be modified.
+func (m *Finite) Next(s, a int) (next []int, prob []float64) { return m.p.Row(s*m.a + a) }
+
+// Transitions returns the transition matrix as a CSR with n*A rows (row
+// s*A + a is P(. | s, a)) and n columns. It must not be modified.
+func (m *Finite) Transitions() *linalg.CSR { return m.p }
