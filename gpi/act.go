@@ -3,6 +3,8 @@ package gpi
 import (
 	"fmt"
 	"math"
+
+	"github.com/successor-go/successor/sf"
 )
 
 // Selector chooses GPI actions. It holds scratch space so that, once it has
@@ -17,18 +19,23 @@ type Selector struct {
 // view returns psi(s, .) of src: in place for a Viewer, otherwise copied
 // into the selector's scratch.
 func (sel *Selector) view(src Source, s, n int) []float64 {
-	if v, ok := src.(Viewer); ok {
-		p := v.State(s)
-		if len(p) != n {
-			panic(fmt.Sprintf("gpi: source state view has length %d, want %d", len(p), n))
+	var p []float64
+	switch v := src.(type) {
+	case *sf.Table:
+		p = v.State(s)
+	case Viewer:
+		p = v.State(s)
+	default:
+		if cap(sel.buf) < n {
+			sel.buf = make([]float64, n)
 		}
+		p = sel.buf[:n]
+		src.Psi(p, s)
 		return p
 	}
-	if cap(sel.buf) < n {
-		sel.buf = make([]float64, n)
+	if len(p) != n {
+		panic(fmt.Sprintf("gpi: source state view has length %d, want %d", len(p), n))
 	}
-	p := sel.buf[:n]
-	src.Psi(p, s)
 	return p
 }
 

@@ -23,7 +23,7 @@ func (t *table) State(s int) []float64 {
 }
 
 // copyOnly hides the State method so the selector takes the copying path.
-type copyOnly struct{ t *table }
+type copyOnly struct{ t Source }
 
 func (c copyOnly) Shape() (int, int)        { return c.t.Shape() }
 func (c copyOnly) Psi(dst []float64, s int) { c.t.Psi(dst, s) }

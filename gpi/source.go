@@ -1,5 +1,13 @@
 package gpi
 
+import "github.com/successor-go/successor/sf"
+
+// An *sf.Table is a Source read in place.
+var (
+	_ Source = (*sf.Table)(nil)
+	_ Viewer = (*sf.Table)(nil)
+)
+
 // Source is anything that gives successor features psi(s, a) for every
 // action of a state: an SF table, a linear approximator, a universal SF at a
 // fixed task vector. GPI works over any mix of sources with the same shape.
