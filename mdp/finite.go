@@ -34,6 +34,10 @@ type Finite struct {
 	start    []float64
 }
 
+// MaxRows bounds NumStates*NumActions of a Finite (2^31 - 1 rows, so
+// state-action indices fit any int and sizes cannot overflow).
+const MaxRows = 1<<31 - 1
+
 // StochasticTol is the tolerance on row sums used when validating MDPs.
 const StochasticTol = 1e-9
 
@@ -44,11 +48,20 @@ const StochasticTol = 1e-9
 //
 // Every (s, a) of a non-terminal state must have outgoing probabilities
 // summing to 1 within StochasticTol. A terminal state's actions may be
-// omitted (a self-loop is added) or given as a self-loop with probability 1;
-// anything else is an error.
+// omitted (a self-loop is added) or given as a self-loop with probability 1
+// (or entries with probability 0); anything else is an error.
+//
+// Errors wrap linalg.ErrDimension (sizes, or more than MaxRows state-action
+// pairs), linalg.ErrNonFinite, linalg.ErrNotStochastic (a negative
+// probability or a row or start distribution not summing to 1; rows give a
+// *linalg.RowSumError) or ErrInvalid (an index out of range, a terminal
+// state with outgoing mass, an all-zero start distribution).
 func New(numStates, numActions int, t []Transition, terminal []bool, start []float64) (*Finite, error) {
 	if numStates <= 0 || numActions <= 0 {
 		return nil, fmt.Errorf("mdp: new: %d states, %d actions: %w", numStates, numActions, linalg.ErrDimension)
+	}
+	if numStates > MaxRows/numActions {
+		return nil, fmt.Errorf("mdp: new: %d states x %d actions exceeds %d rows: %w", numStates, numActions, MaxRows, linalg.ErrDimension)
 	}
 	if terminal != nil && len(terminal) != numStates {
 		return nil, fmt.Errorf("mdp: new: %d terminal flags for %d states: %w", len(terminal), numStates, linalg.ErrDimension)
@@ -89,6 +102,9 @@ func New(numStates, numActions int, t []Transition, terminal []bool, start []flo
 			return nil, fmt.Errorf("mdp: new: P(%d|%d,%d) = %v negative: %w", e.Next, e.State, e.Action, e.Prob, linalg.ErrNotStochastic)
 		}
 		if term[e.State] {
+			if e.Prob == 0 {
+				continue
+			}
 			if e.Next != e.State || e.Prob != 1 {
 				return nil, fmt.Errorf("mdp: new: terminal state %d has outgoing mass to %d: %w", e.State, e.Next, ErrInvalid)
 			}

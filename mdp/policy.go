@@ -1,16 +1,37 @@
 package mdp
 
+import (
+	"fmt"
+	"math"
+	"math/rand/v2"
+
+	"github.com/successor-go/successor/linalg"
+)
+
 // Policy gives the action probabilities of a (possibly stochastic) policy.
+//
+// The oracles (Evaluate, Chain, StateActionChain) never query a policy at a
+// terminal state, so a policy need not be defined there.
 type Policy interface {
 	// Probs writes pi(. | s) into dst, whose length is the number of
 	// actions. It panics if len(dst) is wrong or s is out of range.
 	Probs(dst []float64, s int)
 }
 
+var (
+	_ Policy = Deterministic(nil)
+	_ Policy = Uniform{}
+	_ Policy = (*Table)(nil)
+	_ Policy = Greedy{}
+	_ Policy = EpsilonGreedy{}
+	_ Policy = Softmax{}
+)
+
 // Deterministic is a policy that takes action d[s] in state s.
 type Deterministic []int
 
-// Probs writes the one-hot distribution of action d[s] into dst.
+// Probs writes the one-hot distribution of action d[s] into dst. It panics
+// if d[s] is not a valid index into dst.
 func (d Deterministic) Probs(dst []float64, s int) {
 	clear(dst)
 	dst[d[s]] = 1
@@ -27,4 +48,197 @@ func (u Uniform) Probs(dst []float64, s int) {
 	for i := range dst {
 		dst[i] = 1 / float64(u.N)
 	}
+}
+
+// Table is a stochastic policy given by a table of probabilities,
+// pi(a | s) = P[s*A + a]. Build it with NewTable; it is immutable.
+type Table struct {
+	a int
+	p []float64
+}
+
+// PolicyTol is the tolerance on the sum of a policy's action probabilities
+// used by NewTable and by the oracles when they validate a Policy.
+const PolicyTol = 1e-9
+
+// NewTable returns a stochastic table policy over numStates states and
+// numActions actions with pi(a | s) = probs[s*numActions + a]. probs is
+// copied. Every row must be finite, non-negative and sum to 1 within
+// PolicyTol; otherwise the error wraps linalg.ErrDimension,
+// linalg.ErrNonFinite or linalg.ErrNotStochastic.
+func NewTable(numStates, numActions int, probs []float64) (*Table, error) {
+	if numStates <= 0 || numActions <= 0 || len(probs) != numStates*numActions {
+		return nil, fmt.Errorf("mdp: table policy: %d probabilities for %d states x %d actions: %w",
+			len(probs), numStates, numActions, linalg.ErrDimension)
+	}
+	for s := 0; s < numStates; s++ {
+		if err := checkDist(probs[s*numActions : (s+1)*numActions]); err != nil {
+			return nil, fmt.Errorf("mdp: table policy: state %d: %w", s, err)
+		}
+	}
+	p := make([]float64, len(probs))
+	copy(p, probs)
+	return &Table{a: numActions, p: p}, nil
+}
+
+// NumActions returns the number of actions of t.
+func (t *Table) NumActions() int { return t.a }
+
+// Probs copies pi(. | s) into dst. It panics if len(dst) differs from the
+// number of actions or s is out of range.
+func (t *Table) Probs(dst []float64, s int) {
+	if len(dst) != t.a {
+		panic("mdp: table policy: wrong length")
+	}
+	copy(dst, t.p[s*t.a:(s+1)*t.a])
+}
+
+// Greedy is the policy greedy in a state-action table Q (indexed s*A + a,
+// as Values.Q). Ties are broken toward the lowest action index: the action
+// taken is the first a with Q[s*A+a] equal to the row maximum (exact
+// comparison).
+type Greedy struct {
+	Q []float64 // action values, Q[s*A + a]
+	A int       // number of actions
+}
+
+// Action returns the greedy action in state s (lowest index among ties).
+// It panics if A <= 0, s is out of range, or Q(s, .) holds a NaN.
+func (g Greedy) Action(s int) int { return argmax(g.Q[s*g.A : (s+1)*g.A]) }
+
+// Probs writes the one-hot distribution of the greedy action into dst.
+// It panics as Action does, or if len(dst) != A.
+func (g Greedy) Probs(dst []float64, s int) {
+	if len(dst) != g.A {
+		panic("mdp: greedy: wrong length")
+	}
+	a := g.Action(s)
+	clear(dst)
+	dst[a] = 1
+}
+
+// EpsilonGreedy takes a uniformly random action with probability Epsilon
+// and the greedy action in Q (ties to the lowest index) otherwise:
+//
+//	pi(a | s) = Epsilon/A + (1 - Epsilon) 1(a = greedy(s))
+type EpsilonGreedy struct {
+	Q       []float64 // action values, Q[s*A + a]
+	A       int       // number of actions
+	Epsilon float64   // exploration probability in [0, 1]
+}
+
+// Probs writes the epsilon-greedy distribution into dst. It panics if
+// len(dst) != A, Epsilon is outside [0, 1], s is out of range or Q(s, .)
+// holds a NaN.
+func (e EpsilonGreedy) Probs(dst []float64, s int) {
+	if len(dst) != e.A {
+		panic("mdp: epsilon-greedy: wrong length")
+	}
+	if !(e.Epsilon >= 0 && e.Epsilon <= 1) {
+		panic("mdp: epsilon-greedy: epsilon outside [0, 1]")
+	}
+	g := argmax(e.Q[s*e.A : (s+1)*e.A])
+	u := e.Epsilon / float64(e.A)
+	for i := range dst {
+		dst[i] = u
+	}
+	dst[g] += 1 - e.Epsilon
+}
+
+// Softmax is the Boltzmann policy in Q with a temperature:
+//
+//	pi(a | s) = exp(Q(s,a)/T) / sum_b exp(Q(s,b)/T)
+//
+// computed stably (the row maximum is subtracted first).
+type Softmax struct {
+	Q           []float64 // action values, Q[s*A + a]
+	A           int       // number of actions
+	Temperature float64   // T > 0; small T approaches greedy
+}
+
+// Probs writes the softmax distribution into dst. It panics if
+// len(dst) != A, Temperature is not a positive finite number, s is out of
+// range or Q(s, .) holds a NaN or an infinity.
+func (p Softmax) Probs(dst []float64, s int) {
+	if len(dst) != p.A {
+		panic("mdp: softmax: wrong length")
+	}
+	if !(p.Temperature > 0) || math.IsInf(p.Temperature, 1) {
+		panic("mdp: softmax: temperature must be positive and finite")
+	}
+	q := p.Q[s*p.A : (s+1)*p.A]
+	mx := q[argmax(q)]
+	if math.IsInf(mx, 0) {
+		panic("mdp: softmax: infinite action value")
+	}
+	var z float64
+	for i, v := range q {
+		e := math.Exp((v - mx) / p.Temperature)
+		dst[i] = e
+		z += e
+	}
+	for i := range dst {
+		dst[i] /= z
+	}
+}
+
+// argmax returns the first index of the maximum of q. It panics on an
+// empty slice or a NaN entry.
+func argmax(q []float64) int {
+	if len(q) == 0 {
+		panic("mdp: no actions")
+	}
+	best := 0
+	for i, v := range q {
+		if math.IsNaN(v) {
+			panic("mdp: NaN action value")
+		}
+		if v > q[best] {
+			best = i
+		}
+	}
+	return best
+}
+
+// SampleIndex draws an index i with probability p[i] using one rng.Float64
+// and a cumulative scan. p should sum to 1; if rounding leaves the draw
+// beyond the total, the last index with positive probability is returned.
+// It panics if p is empty or has no positive entry. It does not allocate.
+func SampleIndex(rng *rand.Rand, p []float64) int {
+	u := rng.Float64()
+	var c float64
+	last := -1
+	for i, v := range p {
+		if v <= 0 {
+			continue
+		}
+		last = i
+		c += v
+		if u < c {
+			return i
+		}
+	}
+	if last < 0 {
+		panic("mdp: sample: no positive probability")
+	}
+	return last
+}
+
+// checkDist returns an error unless p is a finite, non-negative vector
+// summing to 1 within PolicyTol.
+func checkDist(p []float64) error {
+	var sum float64
+	for i, v := range p {
+		if math.IsNaN(v) || math.IsInf(v, 0) {
+			return fmt.Errorf("entry %d: %w", i, linalg.ErrNonFinite)
+		}
+		if v < 0 {
+			return fmt.Errorf("entry %d = %v negative: %w", i, v, linalg.ErrNotStochastic)
+		}
+		sum += v
+	}
+	if math.Abs(sum-1) > PolicyTol {
+		return fmt.Errorf("probabilities sum to %v: %w", sum, linalg.ErrNotStochastic)
+	}
+	return nil
 }
