@@ -1,0 +1,426 @@
+package sf
+
+import (
+	"fmt"
+	"math"
+
+	"github.com/successor-go/successor/linalg"
+	"github.com/successor-go/successor/mdp"
+)
+
+// Target selects what a TD learner bootstraps from at a non-terminal next
+// state s'.
+type Target int
+
+const (
+	// Sampled bootstraps from psi(s', a') for the next action a' the caller
+	// passes: the on-policy (SARSA-style) target. It learns psi of the
+	// policy that generates the actions.
+	Sampled Target = iota
+	// Expected bootstraps from sum_a' pi(a'|s') psi(s', a') for the policy
+	// in the settings (expected-SARSA style). It learns psi^pi from
+	// transitions of any behaviour that visits every pair.
+	Expected
+	// Greedy bootstraps from psi(s', a*) with a* = argmax_a' psi(s', a') . w
+	// for the task vector w in the settings, ties to the lowest action: SF
+	// Q-learning (Barreto et al. 2017, Successor Features for Transfer in
+	// Reinforcement Learning, sections 4-5). psi . w then follows Q-learning
+	// for the reward phi . w, and psi converges to the SFs of a policy
+	// greedy for w.
+	Greedy
+)
+
+func (t Target) String() string {
+	switch t {
+	case Sampled:
+		return "sampled"
+	case Expected:
+		return "expected"
+	case Greedy:
+		return "greedy"
+	}
+	return fmt.Sprintf("Target(%d)", int(t))
+}
+
+// StepSize is a step-size schedule. The step of the update of pair (s, a),
+// after n earlier updates of that pair, is
+//
+//	alpha_n = Alpha / (1 + n)^Power.
+//
+// Power = 0 gives the constant step Alpha: the estimate then converges only
+// in mean, to a neighbourhood of the fixed point whose width grows with
+// Alpha. Power in (1/2, 1] satisfies the Robbins-Monro conditions
+// (sum alpha_n = inf, sum alpha_n^2 < inf), under which tabular TD(0)
+// converges with probability 1 when every pair is updated infinitely often
+// (Jaakkola, Jordan and Singh 1994; Tsitsiklis 1994). Power = 1 is the
+// running average and is slow when gamma is near 1; Power around 0.6-0.8 is
+// the common practice.
+//
+// The zero value is the constant step 0.1.
+type StepSize struct {
+	// Alpha is the initial step. 0 means 0.1 when Power = 0 and 1 when
+	// Power > 0.
+	Alpha float64
+	// Power is the decay exponent, in [0, 1]; 0 means constant.
+	Power float64
+}
+
+func (st StepSize) resolve() (StepSize, error) {
+	if !(st.Power >= 0 && st.Power <= 1) {
+		return st, fmt.Errorf("step power %v outside [0, 1]: %w", st.Power, ErrSettings)
+	}
+	if !(st.Alpha >= 0 && st.Alpha <= 1) {
+		return st, fmt.Errorf("step %v outside [0, 1]: %w", st.Alpha, ErrSettings)
+	}
+	if st.Alpha == 0 {
+		st.Alpha = 0.1
+		if st.Power > 0 {
+			st.Alpha = 1
+		}
+	}
+	return st, nil
+}
+
+// schedule holds the per-pair visit counts of a decaying step size.
+type schedule struct {
+	alpha, power float64
+	visits       []float64 // per pair; nil for a constant step
+}
+
+func newSchedule(st StepSize, pairs int) schedule {
+	sc := schedule{alpha: st.Alpha, power: st.Power}
+	if st.Power > 0 {
+		sc.visits = make([]float64, pairs)
+	}
+	return sc
+}
+
+// step returns the step for pair i and counts the visit.
+func (sc *schedule) step(i int) float64 {
+	if sc.visits == nil {
+		return sc.alpha
+	}
+	n := sc.visits[i] + 1
+	sc.visits[i] = n
+	switch sc.power {
+	case 1:
+		return sc.alpha / n
+	case 0.5:
+		return sc.alpha / math.Sqrt(n)
+	}
+	return sc.alpha * math.Exp(-sc.power*math.Log(n))
+}
+
+// TDSettings configures a TD learner. A nil *TDSettings means the zero value:
+// the Sampled target with the constant step 0.1.
+type TDSettings struct {
+	Target Target
+	// Policy is the target policy of Expected; it is read once, when the
+	// learner is made. Required for Expected, ignored otherwise.
+	Policy mdp.Policy
+	// Task is the task vector w of Greedy (copied). Required for Greedy,
+	// ignored otherwise.
+	Task []float64
+	// Step is the step-size schedule.
+	Step StepSize
+}
+
+// TD is the tabular TD(0) learner for successor features. An update for the
+// transition (s, a, s') moves psi(s, a) toward its target,
+//
+//	psi(s,a) <- psi(s,a) + alpha (phi(s,a,s') + gamma psi' - psi(s,a)),
+//
+// where psi' depends on the Target (psi(s',a'), the pi-expectation over a',
+// or the greedy action for w) and psi' = 0 when s' is terminal.
+//
+// Termination and truncation: pass terminal = true only when s' is a
+// terminal state of the task (it bootstraps nothing). When an episode is cut
+// by a time limit, pass terminal = false: s' still has a future and the
+// update bootstraps from it.
+//
+// For the built-in one-hot and label maps the learner never forms phi (it
+// adds alpha at the one or two hot entries), and for NextState and random
+// features it reads the stored row in place. A TD learner is not safe for
+// concurrent use.
+type TD struct {
+	Table *Table // the table being learned
+
+	phi    FeatureMap
+	kind   mapKind   // built-in map fast path
+	labels []int     // label of each state, for kindLabels
+	lconst int       // index of the constant label dimension, or -1
+	sparse sparseMap // other sparse maps
+	rows   rowMap
+	gamma  float64
+	target Target
+	probs  []float64 // pi(a|s) at s*A + a, for Expected
+	task   []float64 // w, for Greedy
+	sched  schedule
+
+	buf   []float64 // phi scratch for generic maps
+	mix   []float64 // expected-target scratch
+	steps int
+	err   error
+}
+
+// NewTD returns a TD(0) learner updating t in place for the features phi and
+// discount gamma in [0, 1]. It returns an error wrapping ErrDiscount,
+// ErrDimension (phi.Dim() != t.D, a task or policy of the wrong size),
+// ErrSettings (a missing policy or task, an unknown target or a bad step)
+// or linalg.ErrNotStochastic (a policy that is not a distribution).
+func NewTD(t *Table, phi FeatureMap, gamma float64, s *TDSettings) (*TD, error) {
+	if s == nil {
+		s = &TDSettings{}
+	}
+	if !(gamma >= 0 && gamma <= 1) {
+		return nil, fmt.Errorf("sf: td: gamma %v outside [0, 1]: %w", gamma, ErrDiscount)
+	}
+	if phi.Dim() != t.D {
+		return nil, fmt.Errorf("sf: td: features have dimension %d, table %d: %w", phi.Dim(), t.D, ErrDimension)
+	}
+	if len(t.Data) != t.S*t.A*t.D {
+		return nil, fmt.Errorf("sf: td: table data has length %d, want %d: %w", len(t.Data), t.S*t.A*t.D, ErrDimension)
+	}
+	st, err := s.Step.resolve()
+	if err != nil {
+		return nil, fmt.Errorf("sf: td: %w", err)
+	}
+	l := &TD{
+		Table:  t,
+		phi:    phi,
+		gamma:  gamma,
+		target: s.Target,
+		sched:  newSchedule(st, t.S*t.A),
+		buf:    make([]float64, t.D),
+		mix:    make([]float64, t.D),
+	}
+	l.lconst = -1
+	switch f := phi.(type) {
+	case OneHotState:
+		l.kind = kindState
+	case OneHotStateAction:
+		l.kind = kindStateAction
+	case *Labels:
+		if len(f.of) != t.S {
+			return nil, fmt.Errorf("sf: td: labels for %d states, table has %d: %w", len(f.of), t.S, ErrDimension)
+		}
+		l.kind, l.labels = kindLabels, f.of
+		if f.Constant {
+			l.lconst = f.n
+		}
+	default:
+		l.sparse, _ = phi.(sparseMap)
+		l.rows, _ = phi.(rowMap)
+	}
+	if l.kind == kindState && t.D != t.S || l.kind == kindStateAction && t.D != t.S*t.A {
+		return nil, fmt.Errorf("sf: td: one-hot map of dimension %d does not match a table of %d states and %d actions: %w", t.D, t.S, t.A, ErrDimension)
+	}
+	switch s.Target {
+	case Sampled:
+	case Expected:
+		if s.Policy == nil {
+			return nil, fmt.Errorf("sf: td: expected target without a policy: %w", ErrSettings)
+		}
+		p, err := policyProbs(t.S, t.A, s.Policy)
+		if err != nil {
+			return nil, fmt.Errorf("sf: td: %w", err)
+		}
+		l.probs = p
+	case Greedy:
+		if err := l.SetTask(s.Task); err != nil {
+			return nil, err
+		}
+	default:
+		return nil, fmt.Errorf("sf: td: unknown target %d: %w", int(s.Target), ErrSettings)
+	}
+	return l, nil
+}
+
+// SetTask replaces the task vector of the Greedy target (copied). It
+// returns an error wrapping ErrDimension if len(w) != D, ErrNonFinite if w
+// has a NaN or infinity.
+func (l *TD) SetTask(w []float64) error {
+	if len(w) != l.Table.D {
+		return fmt.Errorf("sf: td: task vector has length %d, want %d: %w", len(w), l.Table.D, ErrDimension)
+	}
+	for _, v := range w {
+		if math.IsNaN(v) || math.IsInf(v, 0) {
+			return fmt.Errorf("sf: td: task vector: %w", ErrNonFinite)
+		}
+	}
+	l.task = append(l.task[:0], w...)
+	return nil
+}
+
+// Steps returns the number of updates made.
+func (l *TD) Steps() int { return l.steps }
+
+// Err returns the *DivergenceError of the first update that produced a
+// non-finite value, or nil.
+func (l *TD) Err() error { return l.err }
+
+// Update makes one TD(0) update of psi(s, a) from the transition to next,
+// with phi(s, a, next) from the learner's feature map. terminal says that
+// next is a terminal state (no bootstrap); nextAction is the action taken in
+// next, read only by the Sampled target of a non-terminal next.
+//
+// It returns nil, or a *DivergenceError (wrapping ErrDiverged) if this or an
+// earlier update produced a non-finite value; after that, updates do
+// nothing. It panics if an index is out of range. It does not allocate.
+func (l *TD) Update(s, a, next int, terminal bool, nextAction int) error {
+	if l.err != nil {
+		return l.err
+	}
+	t := l.Table
+	if uint(next) >= uint(t.S) {
+		panic(fmt.Sprintf("sf: td: next state %d out of range [0, %d)", next, t.S))
+	}
+	switch l.kind {
+	case kindState:
+		return l.update(s, a, next, terminal, nextAction, nil, s, 1, -1, 0)
+	case kindStateAction:
+		return l.update(s, a, next, terminal, nextAction, nil, s*t.A+a, 1, -1, 0)
+	case kindLabels:
+		return l.update(s, a, next, terminal, nextAction, nil, l.labels[next], 1, l.lconst, 1)
+	}
+	switch {
+	case l.sparse != nil:
+		i, vi, j, vj := l.sparse.hot(s, a, next)
+		return l.update(s, a, next, terminal, nextAction, nil, i, vi, j, vj)
+	case l.rows != nil:
+		return l.update(s, a, next, terminal, nextAction, l.rows.row(s, a, next), -1, 0, -1, 0)
+	}
+	l.phi.Features(l.buf, s, a, next)
+	return l.update(s, a, next, terminal, nextAction, l.buf, -1, 0, -1, 0)
+}
+
+// UpdateFeatures is Update with phi(s, a, next) given by the caller (len D),
+// for features computed elsewhere; the learner's feature map is not called.
+// It panics if len(phi) != D or an index is out of range. It does not
+// allocate.
+func (l *TD) UpdateFeatures(s, a int, phi []float64, next int, terminal bool, nextAction int) error {
+	if l.err != nil {
+		return l.err
+	}
+	t := l.Table
+	if len(phi) != t.D {
+		panic(fmt.Sprintf("sf: td: feature slice has length %d, want %d", len(phi), t.D))
+	}
+	if uint(next) >= uint(t.S) {
+		panic(fmt.Sprintf("sf: td: next state %d out of range [0, %d)", next, t.S))
+	}
+	return l.update(s, a, next, terminal, nextAction, phi, -1, 0, -1, 0)
+}
+
+// update is the common body: phi is either the dense slice f, or (f == nil)
+// the sparse entries (i, vi) and (j, vj), index -1 for none.
+func (l *TD) update(s, a, next int, terminal bool, nextAction int, f []float64, i int, vi float64, j int, vj float64) error {
+	t := l.Table
+	d := t.D
+	if uint(s) >= uint(t.S) || uint(a) >= uint(t.A) {
+		panic(fmt.Sprintf("sf: td: pair (%d, %d) out of range", s, a))
+	}
+	pair := s*t.A + a
+	cur := t.Data[pair*d : pair*d+d : pair*d+d]
+	alpha := l.sched.step(pair)
+	var nxt []float64
+	if !terminal {
+		switch l.target {
+		case Sampled:
+			if uint(nextAction) >= uint(t.A) {
+				panic(fmt.Sprintf("sf: td: next action %d out of range [0, %d)", nextAction, t.A))
+			}
+			k := (next*t.A + nextAction) * d
+			nxt = t.Data[k : k+d : k+d]
+		case Expected:
+			nxt = l.mixture(next)
+		case Greedy:
+			k := next * t.A * d
+			a2, _ := greedy(t.Data[k:k+t.A*d], l.task, t.A, d)
+			k += a2 * d
+			nxt = t.Data[k : k+d : k+d]
+		}
+	}
+	var sum float64
+	om := 1 - alpha
+	switch {
+	case f == nil && nxt != nil:
+		sum = kernelHot(cur, nxt, om, alpha*l.gamma)
+	case f == nil:
+		sum = kernelScale(cur, om)
+	case nxt != nil:
+		sum = kernelDense(cur, nxt, f, om, alpha*l.gamma, alpha)
+	default:
+		sum = kernelTerminal(cur, f, om, alpha)
+	}
+	if i >= 0 {
+		cur[i] += alpha * vi
+		sum += cur[i]
+	}
+	if j >= 0 {
+		cur[j] += alpha * vj
+		sum += cur[j]
+	}
+	l.steps++
+	if sum-sum != 0 { // NaN or an infinity in the updated row
+		l.err = &DivergenceError{Learner: "td", Step: l.steps, State: s, Action: a}
+		return l.err
+	}
+	return nil
+}
+
+// mixture writes sum_a' pi(a'|s') psi(s', a') into the scratch and returns it.
+func (l *TD) mixture(next int) []float64 {
+	t := l.Table
+	d, na := t.D, t.A
+	m := l.mix[:d:d]
+	clear(m)
+	p := l.probs[next*na : next*na+na : next*na+na]
+	base := t.Data[next*na*d : (next+1)*na*d : (next+1)*na*d]
+	for a, q := range p {
+		if q != 0 {
+			axpy(m, base[a*d:a*d+d:a*d+d], q)
+		}
+	}
+	return m
+}
+
+// mapKind names the built-in feature maps with a fast path in Update.
+type mapKind uint8
+
+const (
+	kindOther mapKind = iota
+	kindState
+	kindStateAction
+	kindLabels
+)
+
+// policyProbs tabulates pi(a|s) for n states and na actions, checking that
+// every row is a distribution.
+func policyProbs(n, na int, pi mdp.Policy) ([]float64, error) {
+	probs := make([]float64, n*na)
+	for s := 0; s < n; s++ {
+		if err := checkDist(probs[s*na:(s+1)*na], s, pi); err != nil {
+			return nil, err
+		}
+	}
+	return probs, nil
+}
+
+func checkDist(row []float64, s int, pi mdp.Policy) error {
+	pi.Probs(row, s)
+	var sum float64
+	for a, v := range row {
+		if math.IsNaN(v) || math.IsInf(v, 0) {
+			return fmt.Errorf("policy pi(%d|%d): %w", a, s, ErrNonFinite)
+		}
+		if v < 0 {
+			return fmt.Errorf("policy pi(%d|%d) = %v: %w", a, s, v, linalg.ErrNotStochastic)
+		}
+		sum += v
+	}
+	if math.Abs(sum-1) > policyTol {
+		return fmt.Errorf("policy at state %d sums to %v: %w", s, sum, linalg.ErrNotStochastic)
+	}
+	return nil
+}
