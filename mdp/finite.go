@@ -160,3 +160,34 @@ func (m *Finite) Next(s, a int) (next []int, prob []float64) { return m.p.Row(s*
 // Transitions returns the transition matrix as a CSR with n*A rows (row
 // s*A + a is P(. | s, a)) and n columns. It must not be modified.
 func (m *Finite) Transitions() *linalg.CSR { return m.p }
+
+// newFromCSR returns a Finite that takes ownership of a CSR p with
+// numStates*numActions rows built by this package, checking row sums and
+// that terminal rows are self-loops. term and start are used, not copied.
+func newFromCSR(numStates, numActions int, p *linalg.CSR, term []bool, start []float64) (*Finite, error) {
+	for r := 0; r < numStates*numActions; r++ {
+		ind, val := p.Row(r)
+		s := r / numActions
+		if term[s] && (len(ind) != 1 || ind[0] != s || val[0] != 1) {
+			return nil, fmt.Errorf("terminal state %d is not a self-loop: %w", s, ErrInvalid)
+		}
+		var sum float64
+		for _, v := range val {
+			if v < 0 {
+				return nil, &linalg.RowSumError{Row: r, Neg: true}
+			}
+			sum += v
+		}
+		if math.Abs(sum-1) > StochasticTol {
+			return nil, &linalg.RowSumError{Row: r, Sum: sum}
+		}
+	}
+	var ssum float64
+	for _, v := range start {
+		ssum += v
+	}
+	if math.Abs(ssum-1) > StochasticTol {
+		return nil, fmt.Errorf("start sums to %v: %w", ssum, linalg.ErrNotStochastic)
+	}
+	return &Finite{n: numStates, a: numActions, p: p, terminal: term, start: start}, nil
+}
