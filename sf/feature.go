@@ -4,6 +4,8 @@ import (
 	"fmt"
 	"math"
 	"math/rand/v2"
+
+	"github.com/successor-go/successor/mdp"
 )
 
 // FeatureMap gives transition features phi(s, a, s') in R^d. Implement it to
@@ -138,6 +140,18 @@ func NewLabels(labelOf []int, numLabels int, constant bool) (*Labels, error) {
 		of[s] = l
 	}
 	return &Labels{of: of, n: numLabels, Constant: constant}, nil
+}
+
+// GridLabels returns the label features of a parsed grid: dimension l is
+// label g.LabelNames()[l] of the next state, and with constant a last
+// dimension is 1 on every transition. It returns an error wrapping
+// ErrDimension if the grid has no labels and constant is false.
+func GridLabels(g *mdp.Grid, constant bool) (*Labels, error) {
+	of := make([]int, g.NumStates())
+	for s := range of {
+		of[s] = g.LabelOf(s)
+	}
+	return NewLabels(of, len(g.LabelNames()), constant)
 }
 
 // Dim returns the number of labels, plus one with Constant.
