@@ -1,0 +1,168 @@
+package sf
+
+import (
+	"bytes"
+	"errors"
+	"math"
+	"os"
+	"path/filepath"
+	"testing"
+)
+
+func sampleTable() *Table {
+	t, _ := NewTable(2, 3, 2)
+	vals := []float64{0, math.Copysign(0, -1), 1.5, -2.25, math.Inf(1), math.Float64frombits(0x7ff8000000000123),
+		math.SmallestNonzeroFloat64, math.MaxFloat64, 1e-300, 3, 4, 5}
+	copy(t.Data, vals)
+	return t
+}
+
+func sameBits(x, y []float64) bool {
+	if len(x) != len(y) {
+		return false
+	}
+	for i := range x {
+		if math.Float64bits(x[i]) != math.Float64bits(y[i]) {
+			return false
+		}
+	}
+	return true
+}
+
+// TestSaveLoad checks bit-exact round trips through files (NaN payload and
+// signed zero included) and that no temporary file is left behind.
+func TestSaveLoad(t *testing.T) {
+	dir := t.TempDir()
+	tb := sampleTable()
+	path := filepath.Join(dir, "psi.sft")
+	if err := tb.Save(path); err != nil {
+		t.Fatal(err)
+	}
+	if err := tb.Save(path); err != nil { // overwrite
+		t.Fatal(err)
+	}
+	got, err := LoadTable(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if got.S != tb.S || got.A != tb.A || got.D != tb.D || !sameBits(got.Data, tb.Data) {
+		t.Errorf("table round trip: got %+v, want %+v", got, tb)
+	}
+
+	lin, _ := NewLinear(2, 3, 4)
+	for i := range lin.W {
+		lin.W[i] = float64(i) / 7
+	}
+	lpath := filepath.Join(dir, "w.sfl")
+	if err := lin.Save(lpath); err != nil {
+		t.Fatal(err)
+	}
+	lgot, err := LoadLinear(lpath)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if lgot.A != 2 || lgot.D != 3 || lgot.M != 4 || !sameBits(lgot.W, lin.W) {
+		t.Errorf("linear round trip: got %+v", lgot)
+	}
+	if _, err := LoadTable(lpath); !errors.Is(err, ErrCorrupt) {
+		t.Errorf("linear file loaded as a table: err = %v, want ErrCorrupt", err)
+	}
+	ents, _ := os.ReadDir(dir)
+	if len(ents) != 2 {
+		t.Errorf("directory holds %d entries, want 2 (no temporary files)", len(ents))
+	}
+	if _, err := LoadTable(filepath.Join(dir, "missing")); !errors.Is(err, os.ErrNotExist) {
+		t.Errorf("missing file: err = %v", err)
+	}
+	if err := tb.Save(filepath.Join(dir, "no", "such", "dir")); err == nil {
+		t.Error("save into a missing directory: no error")
+	}
+}
+
+// TestLoadCorrupt checks that every truncation and every single-bit flip of
+// a saved table is rejected with ErrCorrupt (CRC-32 detects all single-bit
+// errors; a flip in a size field is caught by the length check).
+func TestLoadCorrupt(t *testing.T) {
+	b, err := sampleTable().MarshalBinary()
+	if err != nil {
+		t.Fatal(err)
+	}
+	var tb Table
+	for n := 0; n < len(b); n++ {
+		if err := tb.UnmarshalBinary(b[:n]); !errors.Is(err, ErrCorrupt) {
+			t.Fatalf("truncated to %d bytes: err = %v, want ErrCorrupt", n, err)
+		}
+	}
+	if err := tb.UnmarshalBinary(append(bytes.Clone(b), 0)); !errors.Is(err, ErrCorrupt) {
+		t.Errorf("extra byte: err = %v, want ErrCorrupt", err)
+	}
+	for i := range b {
+		for bit := 0; bit < 8; bit++ {
+			c := bytes.Clone(b)
+			c[i] ^= 1 << bit
+			if err := tb.UnmarshalBinary(c); !errors.Is(err, ErrCorrupt) {
+				t.Fatalf("bit %d of byte %d flipped: err = %v, want ErrCorrupt", bit, i, err)
+			}
+		}
+	}
+	if tb.Data != nil {
+		t.Error("a failed load changed the table")
+	}
+	if _, err := (&Table{S: 2, A: 2, D: 2, Data: make([]float64, 3)}).MarshalBinary(); !errors.Is(err, ErrDimension) {
+		t.Errorf("inconsistent table: err = %v, want ErrDimension", err)
+	}
+}
+
+// FuzzLoadTable checks that the loader never panics and that anything it
+// accepts re-encodes to the same bytes (a bit-exact round trip).
+func FuzzLoadTable(f *testing.F) {
+	b, _ := sampleTable().MarshalBinary()
+	f.Add(b)
+	f.Add(b[:40])
+	small, _ := NewTable(1, 1, 1)
+	sb, _ := small.MarshalBinary()
+	f.Add(sb)
+	f.Fuzz(func(t *testing.T, data []byte) {
+		var tb Table
+		if err := tb.UnmarshalBinary(data); err != nil {
+			if !errors.Is(err, ErrCorrupt) {
+				t.Fatalf("error %v does not wrap ErrCorrupt", err)
+			}
+			return
+		}
+		out, err := tb.MarshalBinary()
+		if err != nil {
+			t.Fatal(err)
+		}
+		if !bytes.Equal(out, data) {
+			t.Fatal("accepted input does not re-encode to the same bytes")
+		}
+	})
+}
+
+// FuzzTableRoundTrip checks encode then decode of arbitrary values.
+func FuzzTableRoundTrip(f *testing.F) {
+	f.Add(uint8(2), uint8(1), uint8(3), []byte("seed values"))
+	f.Fuzz(func(t *testing.T, s, a, d uint8, raw []byte) {
+		ns, na, nd := int(s%5)+1, int(a%5)+1, int(d%5)+1
+		tb, _ := NewTable(ns, na, nd)
+		for i := range tb.Data {
+			var u uint64
+			for j := 0; j < 8 && 8*i+j < len(raw); j++ {
+				u |= uint64(raw[8*i+j]) << (8 * j)
+			}
+			tb.Data[i] = math.Float64frombits(u)
+		}
+		b, err := tb.MarshalBinary()
+		if err != nil {
+			t.Fatal(err)
+		}
+		var got Table
+		if err := got.UnmarshalBinary(b); err != nil {
+			t.Fatal(err)
+		}
+		if got.S != ns || got.A != na || got.D != nd || !sameBits(got.Data, tb.Data) {
+			t.Fatal("round trip changed the table")
+		}
+	})
+}
