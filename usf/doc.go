@@ -1,0 +1,81 @@
+// Package usf implements universal successor features psi(s, a, z): one
+// approximator that gives the successor features of the policy of every
+// task (or skill) vector z, so that GPI can be taken over any set of z at
+// no extra training cost.
+//
+// # Definitions
+//
+// Transition features phi(s, a, s') in R^d and a vector z in R^d define the
+// reward r_z(s, a, s') = phi(s, a, s') . z. The policy of z is greedy in
+// the approximator's own action values for r_z,
+//
+//	pi_z(s) = argmax_a psi(s, a, z) . z      (ties to the lowest action),
+//
+// and psi(., ., z) is trained toward the successor features of pi_z by
+// semi-gradient TD(0) on transitions (s, a, phi, s', terminal, z):
+//
+//	y     = phi + gamma (1 - terminal) psi(s', a', z),
+//	a'    = pi_z(s')  or a next action given with the transition,
+//	delta = y - psi(s, a, z),
+//	loss  = (1/(2n)) sum_i ||delta_i||^2   over a batch of n transitions.
+//
+// At the fixed point, psi(., ., z) . z is the optimal Q of r_z and psi is
+// the successor features of an optimal policy of r_z (SF Q-learning,
+// Barreto et al. 2017, sections 4-5), which is what every test here checks
+// against sf.Exact and mdp.Optimal. A terminal next state bootstraps
+// nothing; a time-limit truncation does: a Batch carries Terminal only, so
+// pass terminal = false for a truncated step.
+//
+// # Observations
+//
+// An approximator reads an observation vector x(s) in R^m. For an MDP
+// with integer states the default observation is one-hot, x(s) = e_s
+// (m = number of states); a Batch then may carry the states in S and Next
+// and leave X and NextX nil, and the approximators that can use the index
+// directly (Tabular, Linear) do so. Any other observation is given by an
+// Observer and written into X and NextX.
+//
+// # Approximators
+//
+// Tabular keeps one sf.Table per z of a finite set Z (psi(s, a, z_k) =
+// T_k[s, a]); observations must be one-hot. Updates are online TD(0) with
+// the per-pair step schedule of sf.StepSize.
+//
+// Linear is linear in the joint feature x(s) (outer) z:
+//
+//	psi_k(s, a, z) = sum_{i,j} W[i, a, k, j] x_i z_j     (+ B[i, a, k] x_i with Affine)
+//
+// For one-hot x this is psi(s, a, z) = M_{s,a} z (+ b_{s,a}) with a d x d
+// matrix M_{s,a} per state-action pair: the universal SF of the tabular
+// case, exact on any set of at most d linearly independent z (with Affine,
+// d+1 affinely independent z). Its semi-gradient TD(0) step is
+//
+//	W[i, a, k, j] += alpha delta_k x_i z_j.
+//
+// Neural is a multilayer perceptron (package internal/nn) on the
+// concatenation (x, z) with A*d outputs, output a*d + k being psi_k(s, a, z).
+// It trains on minibatches (typically from a Replay) with Adam and
+// gradient-norm clipping; the TD target uses a target network, copied from
+// the online network every TargetEvery updates (the default) or, if Tau > 0,
+// moved toward it by Polyak averaging after every update. Both the target's
+// psi(s', ., z) and the greedy a' = pi_z(s') come from the target network.
+//
+// # GPI
+//
+// Source fixes z and an Observer and is a GPI source (package gpi):
+// Psi(dst, s) writes psi(s, ., z) action-major. Candidates builds a GPI
+// candidate set around an inferred task vector w: w itself plus vectors
+// drawn from the von Mises-Fisher distribution on the unit sphere with mean
+// direction w/||w|| (Wood 1994), or by normalising w/||w|| + sigma N(0, I).
+//
+// # Saving
+//
+// Tabular, Linear, Neural and Replay implement encoding.BinaryMarshaler and
+// encoding.BinaryUnmarshaler. Each encoding starts with a four-byte magic
+// and a version and ends with a CRC-32 (IEEE) of the rest; loading checks
+// them and returns an error wrapping ErrCorrupt. A caller can embed several
+// of them, length-prefixed, in one checkpoint file (write it to a temporary
+// file in the same directory, fsync, rename). A *rand.Rand built on
+// rand.PCG is saved by marshalling the PCG. Train N updates, save, load and
+// train N more gives the same bits as 2N updates uninterrupted.
+package usf
