@@ -288,9 +288,11 @@ func Write(w io.Writer, f *File) error {
 	}
 	m := f.MDP
 	var b bytes.Buffer
+	enc := json.NewEncoder(&b)
+	enc.SetEscapeHTML(false)
 	str := func(s string) {
-		q, _ := json.Marshal(s)
-		b.Write(q)
+		enc.Encode(s)           // cannot fail for a string
+		b.Truncate(b.Len() - 1) // drop Encode's newline
 	}
 	num := func(x float64) { b.Write(strconv.AppendFloat(nil, x, 'g', -1, 64)) }
 	fmt.Fprintf(&b, "{\n  \"format\": %q,\n  \"version\": %d,\n", FileFormat, FileVersion)
@@ -398,8 +400,9 @@ func Write(w io.Writer, f *File) error {
 }
 
 // WriteFile writes f to path atomically: it writes a temporary file in the
-// same directory, syncs it, and renames it over path, so a reader never
-// sees a partial file.
+// same directory, syncs it, and renames it over path (mode 0644), so a
+// reader never sees a partial file and a failed write leaves the old file
+// intact.
 func WriteFile(path string, f *File) (err error) {
 	dir := filepath.Dir(path)
 	tmp, err := os.CreateTemp(dir, "."+filepath.Base(path)+".tmp*")
@@ -417,6 +420,9 @@ func WriteFile(path string, f *File) (err error) {
 		return err
 	}
 	if err = bw.Flush(); err != nil {
+		return fmt.Errorf("mdp: write file: %w", err)
+	}
+	if err = tmp.Chmod(0o644); err != nil {
 		return fmt.Errorf("mdp: write file: %w", err)
 	}
 	if err = tmp.Sync(); err != nil {
