@@ -1,9 +1,12 @@
 package linalg
 
 import (
+	"cmp"
 	"fmt"
 	"math"
+	"slices"
 	"sort"
+	"unsafe"
 
 	"gonum.org/v1/gonum/mat"
 )
@@ -28,9 +31,10 @@ var _ mat.Matrix = (*CSR)(nil)
 // NewCSR returns a CSR from its three arrays after validating them: len(ptr)
 // is rows+1, ptr starts at 0 and does not decrease, column indices are in
 // range and strictly increasing in each row, and every value is finite. The
-// slices are used, not copied.
+// slices are used, not copied, so the caller must not modify them
+// afterwards. Errors wrap ErrDimension or ErrNonFinite.
 func NewCSR(rows, cols int, ptr, ind []int, val []float64) (*CSR, error) {
-	if rows < 0 || cols < 0 {
+	if rows < 0 || cols < 0 || rows == math.MaxInt {
 		return nil, fmt.Errorf("linalg: csr: negative size %dx%d: %w", rows, cols, ErrDimension)
 	}
 	if len(ptr) != rows+1 || ptr[0] != 0 || len(ind) != len(val) || ptr[rows] != len(ind) {
@@ -63,10 +67,12 @@ type Triplet struct {
 }
 
 // CSRFromTriplets builds a CSR from entries in any order. Entries with the
-// same (Row, Col) are summed; explicit zeros are kept. The input is not
-// modified.
+// same (Row, Col) are summed in input order; explicit zeros are kept. The
+// input is not modified. Errors wrap ErrDimension (negative size, or an
+// entry out of range) or ErrNonFinite (a NaN or Inf value, or duplicates
+// whose sum overflows). It costs O(len(t) log len(t) + rows).
 func CSRFromTriplets(rows, cols int, t []Triplet) (*CSR, error) {
-	if rows < 0 || cols < 0 {
+	if rows < 0 || cols < 0 || rows == math.MaxInt {
 		return nil, fmt.Errorf("linalg: csr: negative size %dx%d: %w", rows, cols, ErrDimension)
 	}
 	for _, e := range t {
@@ -79,11 +85,11 @@ func CSRFromTriplets(rows, cols int, t []Triplet) (*CSR, error) {
 	}
 	s := make([]Triplet, len(t))
 	copy(s, t)
-	sort.Slice(s, func(a, b int) bool {
-		if s[a].Row != s[b].Row {
-			return s[a].Row < s[b].Row
+	slices.SortStableFunc(s, func(a, b Triplet) int {
+		if a.Row != b.Row {
+			return cmp.Compare(a.Row, b.Row)
 		}
-		return s[a].Col < s[b].Col
+		return cmp.Compare(a.Col, b.Col)
 	})
 	ptr := make([]int, rows+1)
 	ind := make([]int, 0, len(s))
@@ -154,17 +160,20 @@ func (m *CSR) At(i, j int) float64 {
 func (m *CSR) T() mat.Matrix { return mat.Transpose{Matrix: m} }
 
 // Row returns views of the column indices and values of row i. They must not
-// be modified.
+// be modified. It panics if i is out of range.
 func (m *CSR) Row(i int) (ind []int, val []float64) {
 	lo, hi := m.Ptr[i], m.Ptr[i+1]
 	return m.Ind[lo:hi], m.Val[lo:hi]
 }
 
-// MulVecTo sets dst = m x. It panics if len(x) != cols or len(dst) != rows,
-// or if dst and x share memory.
+// MulVecTo sets dst = m x. It does not allocate. It panics if
+// len(x) != cols or len(dst) != rows, or if dst and x overlap in memory.
 func (m *CSR) MulVecTo(dst, x []float64) {
 	if len(x) != m.cols || len(dst) != m.rows {
 		panic("linalg: csr: MulVecTo length mismatch")
+	}
+	if overlap(dst, x) {
+		panic("linalg: csr: MulVecTo dst and x overlap")
 	}
 	for i := 0; i < m.rows; i++ {
 		var s float64
@@ -175,16 +184,28 @@ func (m *CSR) MulVecTo(dst, x []float64) {
 	}
 }
 
-// ToDense returns m as a new dense matrix.
+// ToDense returns m as a new dense matrix (an empty mat.Dense if m has no
+// rows or no columns, since gonum has no zero-sized dense matrices).
 func (m *CSR) ToDense() *mat.Dense {
-	d := mat.NewDense(max(m.rows, 1), max(m.cols, 1), nil)
 	if m.rows == 0 || m.cols == 0 {
 		return &mat.Dense{}
 	}
+	d := mat.NewDense(m.rows, m.cols, nil)
 	for i := 0; i < m.rows; i++ {
 		for k := m.Ptr[i]; k < m.Ptr[i+1]; k++ {
 			d.Set(i, m.Ind[k], m.Val[k])
 		}
 	}
 	return d
+}
+
+// overlap reports whether a and b share memory.
+func overlap(a, b []float64) bool {
+	if len(a) == 0 || len(b) == 0 {
+		return false
+	}
+	const size = unsafe.Sizeof(float64(0))
+	a0 := uintptr(unsafe.Pointer(unsafe.SliceData(a)))
+	b0 := uintptr(unsafe.Pointer(unsafe.SliceData(b)))
+	return a0 < b0+uintptr(len(b))*size && b0 < a0+uintptr(len(a))*size
 }

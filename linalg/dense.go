@@ -262,6 +262,12 @@ func solveSuccessor(dst *mat.Dense, p mat.Matrix, gamma float64, b mat.Matrix) e
 	if !(gamma >= 0 && gamma < 1) {
 		return fmt.Errorf("gamma %v outside [0, 1): %w", gamma, ErrDiscount)
 	}
+	return solveShifted(dst, p, gamma, b)
+}
+
+// solveShifted solves (I - gamma P) X = B (identity B if b is nil) for any
+// finite gamma. Shapes have been checked.
+func solveShifted(dst *mat.Dense, p mat.Matrix, gamma float64, b mat.Matrix) error {
 	n, _ := p.Dims()
 	kl, ku, err := bandwidths(p)
 	if err != nil {
