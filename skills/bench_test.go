@@ -1,0 +1,92 @@
+package skills
+
+import (
+	"fmt"
+	"math/rand/v2"
+	"testing"
+)
+
+// depotStates is the size of the tabular depot floor of the examples
+// (about 100 cells; invented demo data).
+const depotStates = 100
+
+func benchBatch(rng *rand.Rand, n, d int, p Prior) (x, z []float64) {
+	x, z = make([]float64, n*depotStates), make([]float64, n*d)
+	for i := range n {
+		OneHot(x[i*depotStates:(i+1)*depotStates], rng.IntN(depotStates))
+		p.Sample(z[i*d:(i+1)*d], rng)
+	}
+	return x, z
+}
+
+func BenchmarkUpdate(b *testing.B) {
+	for _, d := range []int{8, 32} {
+		rng := rand.New(rand.NewPCG(1, 1))
+		v, _ := NewVMF(&VMFConfig{In: depotStates, Dim: d}, rng)
+		x, z := benchBatch(rng, 64, d, UniformSphere{D: d})
+		b.Run(fmt.Sprintf("vmf/linear/d=%d", d), func(b *testing.B) {
+			b.ReportAllocs()
+			for b.Loop() {
+				v.Update(x, z)
+			}
+		})
+		s, _ := NewSoftmax(&SoftmaxConfig{In: depotStates, K: d}, rng)
+		x, z = benchBatch(rng, 64, d, Categorical{K: d})
+		b.Run(fmt.Sprintf("softmax/linear/K=%d", d), func(b *testing.B) {
+			b.ReportAllocs()
+			for b.Loop() {
+				s.Update(x, z)
+			}
+		})
+	}
+	rng := rand.New(rand.NewPCG(1, 2))
+	v, _ := NewVMF(&VMFConfig{In: depotStates, Dim: 8, Net: Net{Hidden: []int{64, 64}}}, rng)
+	x, z := benchBatch(rng, 64, 8, UniformSphere{D: 8})
+	b.Run("vmf/mlp64x64/d=8", func(b *testing.B) {
+		b.ReportAllocs()
+		for b.Loop() {
+			v.Update(x, z)
+		}
+	})
+}
+
+func BenchmarkReward(b *testing.B) {
+	for _, d := range []int{8, 32} {
+		rng := rand.New(rand.NewPCG(1, 3))
+		v, _ := NewVMF(&VMFConfig{In: depotStates, Dim: d}, rng)
+		x, z := benchBatch(rng, 1, d, UniformSphere{D: d})
+		b.Run(fmt.Sprintf("vmf/d=%d", d), func(b *testing.B) {
+			b.ReportAllocs()
+			for b.Loop() {
+				v.Reward(x, z)
+			}
+		})
+		s, _ := NewSoftmax(&SoftmaxConfig{In: depotStates, K: d}, rng)
+		x, z = benchBatch(rng, 1, d, Categorical{K: d})
+		b.Run(fmt.Sprintf("softmax/K=%d", d), func(b *testing.B) {
+			b.ReportAllocs()
+			for b.Loop() {
+				s.Reward(x, z)
+			}
+		})
+		fm, _ := NewFeatureMap(v, &MapConfig{Frozen: true, States: depotStates})
+		phi := make([]float64, d)
+		b.Run(fmt.Sprintf("featuremap/table/d=%d", d), func(b *testing.B) {
+			b.ReportAllocs()
+			for b.Loop() {
+				fm.Features(phi, 0, 0, 42)
+			}
+		})
+	}
+}
+
+func BenchmarkVMFLogNorm(b *testing.B) {
+	for _, k := range []float64{0.5, 10, 100, 1000} {
+		b.Run(fmt.Sprintf("d=32/kappa=%g", k), func(b *testing.B) {
+			b.ReportAllocs()
+			for b.Loop() {
+				VMFLogNorm(32, k)
+			}
+		})
+	}
+}

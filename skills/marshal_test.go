@@ -1,0 +1,208 @@
+package skills
+
+import (
+	"bytes"
+	"encoding/binary"
+	"errors"
+	"hash/crc32"
+	"math"
+	"math/rand/v2"
+	"os"
+	"path/filepath"
+	"testing"
+)
+
+// trained returns a few discriminators of every kind after some updates,
+// so weights and optimiser moments are all non-trivial.
+func trained(t testing.TB) []Discriminator {
+	t.Helper()
+	rng := rand.New(rand.NewPCG(9, 9))
+	var out []Discriminator
+	for _, c := range []VMFConfig{
+		{In: 6, Dim: 3},
+		{In: 6, Dim: 4, Kappa: 3, LearnKappa: true, MaxKappa: 50, Optim: Optim{LearnRate: 0.01, ClipNorm: 5}},
+		{In: 6, Dim: 3, Net: Net{Hidden: []int{5, 4}, Tanh: true, MaxBatch: 3}},
+	} {
+		v, err := NewVMF(&c, rng)
+		if err != nil {
+			t.Fatal(err)
+		}
+		out = append(out, v)
+	}
+	for _, c := range []SoftmaxConfig{
+		{In: 6, K: 3, Optim: Optim{Beta1: 0.5}},
+		{In: 6, K: 4, Net: Net{Hidden: []int{7}}},
+	} {
+		s, err := NewSoftmax(&c, rng)
+		if err != nil {
+			t.Fatal(err)
+		}
+		out = append(out, s)
+	}
+	for _, d := range out {
+		var p Prior = Categorical{K: d.ZDim()}
+		if _, ok := d.(*VMF); ok {
+			p = UniformSphere{D: d.ZDim()}
+		}
+		x, z := randBatch(rng, 8, 6, p)
+		for range 5 {
+			if _, err := d.Update(x, z); err != nil {
+				t.Fatal(err)
+			}
+		}
+	}
+	return out
+}
+
+func TestMarshalRoundTrip(t *testing.T) {
+	// Bit-exact: the same bytes again, the same outputs, and the same
+	// next updates (weights, Adam moments and kappa all restored).
+	rng := rand.New(rand.NewPCG(10, 1))
+	for _, d := range trained(t) {
+		b, err := Marshal(d)
+		if err != nil {
+			t.Fatal(err)
+		}
+		e, err := Unmarshal(b)
+		if err != nil {
+			t.Fatalf("%T: %v", d, err)
+		}
+		b2, _ := Marshal(e)
+		if !bytes.Equal(b, b2) {
+			t.Fatalf("%T: re-marshalled bytes differ", d)
+		}
+		var p Prior = Categorical{K: d.ZDim()}
+		if _, ok := d.(*VMF); ok {
+			p = UniformSphere{D: d.ZDim()}
+		}
+		x, z := randBatch(rng, 5, 6, p)
+		for range 3 {
+			l1, err1 := d.Update(x, z)
+			l2, err2 := e.Update(x, z)
+			if err1 != nil || err2 != nil || math.Float64bits(l1) != math.Float64bits(l2) {
+				t.Fatalf("%T: losses after load %v, %v (%v, %v)", d, l1, l2, err1, err2)
+			}
+		}
+		for i := 0; i < 5; i++ {
+			xi, zi := x[i*6:(i+1)*6], z[i*d.ZDim():(i+1)*d.ZDim()]
+			if a, b := d.LogProb(xi, zi), e.LogProb(xi, zi); math.Float64bits(a) != math.Float64bits(b) {
+				t.Fatalf("%T: log q %v vs %v after identical updates", d, a, b)
+			}
+		}
+		b, _ = Marshal(d)
+		b2, _ = Marshal(e)
+		if !bytes.Equal(b, b2) {
+			t.Fatalf("%T: states differ after identical updates", d)
+		}
+	}
+}
+
+func TestSaveLoad(t *testing.T) {
+	dir := t.TempDir()
+	for i, d := range trained(t) {
+		path := filepath.Join(dir, "disc.bin")
+		if err := Save(path, d); err != nil {
+			t.Fatal(err)
+		}
+		e, err := Load(path)
+		if err != nil {
+			t.Fatal(err)
+		}
+		b1, _ := Marshal(d)
+		b2, _ := Marshal(e)
+		if !bytes.Equal(b1, b2) {
+			t.Fatalf("case %d: loaded state differs", i)
+		}
+	}
+	ents, _ := os.ReadDir(dir)
+	if len(ents) != 1 {
+		t.Errorf("%d files left in the directory, want 1 (no temporaries)", len(ents))
+	}
+	if _, err := Load(filepath.Join(dir, "missing")); err == nil {
+		t.Error("loading a missing file succeeded")
+	}
+}
+
+func TestUnmarshalErrors(t *testing.T) {
+	ds := trained(t)
+	good, _ := Marshal(ds[1])
+	reseal := func(b []byte) []byte {
+		b = append([]byte(nil), b[:len(b)-4]...)
+		return binary.LittleEndian.AppendUint32(b, crc32.ChecksumIEEE(b))
+	}
+	flip := append([]byte(nil), good...)
+	flip[40] ^= 1
+	version := append([]byte(nil), good...)
+	version[4] = 2
+	kind := append([]byte(nil), good...)
+	kind[8] = 9
+	magic := append([]byte(nil), good...)
+	magic[0] = 'X'
+	for _, tc := range []struct {
+		name string
+		b    []byte
+		want error
+	}{
+		{"empty", nil, ErrFormat},
+		{"magic", magic, ErrFormat},
+		{"flipped bit", flip, ErrChecksum},
+		{"truncated", good[:len(good)-9], ErrChecksum},
+		{"truncated, resealed", reseal(good[:len(good)-12]), ErrFormat},
+		{"version", reseal(version), ErrVersion},
+		{"kind", reseal(kind), ErrFormat},
+		{"trailing byte", reseal(append(append([]byte(nil), good[:len(good)-4]...), 0, 0, 0, 0, 0)), ErrFormat},
+	} {
+		if _, err := Unmarshal(tc.b); !errors.Is(err, tc.want) {
+			t.Errorf("%s: %v, want %v", tc.name, err, tc.want)
+		}
+	}
+	// Typed loaders reject the other kind and leave the receiver alone.
+	soft, _ := Marshal(ds[3])
+	v := ds[0].(*VMF)
+	before, _ := v.MarshalBinary()
+	if err := v.UnmarshalBinary(soft); !errors.Is(err, ErrFormat) {
+		t.Errorf("vmf from softmax bytes: %v", err)
+	}
+	after, _ := v.MarshalBinary()
+	if !bytes.Equal(before, after) {
+		t.Error("failed UnmarshalBinary changed the receiver")
+	}
+	var s Softmax
+	if err := s.UnmarshalBinary(good); !errors.Is(err, ErrFormat) {
+		t.Errorf("softmax from vmf bytes: %v", err)
+	}
+	if err := s.UnmarshalBinary(soft); err != nil {
+		t.Errorf("softmax from its bytes: %v", err)
+	}
+	// Non-finite weights are refused.
+	nan := append([]byte(nil), good...)
+	i := bytes.Index(nan, nan[len(nan)-4-8*3:len(nan)-4-8*2]) // a second-moment value
+	binary.LittleEndian.PutUint64(nan[i:], math.Float64bits(math.NaN()))
+	if _, err := Unmarshal(reseal(nan)); !errors.Is(err, ErrNonFinite) {
+		t.Errorf("NaN moment: %v, want ErrNonFinite", err)
+	}
+	if _, err := Marshal(fixedDisc{}); !errors.Is(err, ErrUnsupported) {
+		t.Errorf("Marshal of a foreign type: %v", err)
+	}
+}
+
+func FuzzUnmarshal(f *testing.F) {
+	for _, d := range trained(f) {
+		b, _ := Marshal(d)
+		f.Add(b)
+	}
+	f.Add([]byte("SKDS"))
+	f.Fuzz(func(t *testing.T, b []byte) {
+		d, err := Unmarshal(b)
+		if err != nil {
+			return
+		}
+		b2, err := Marshal(d)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if !bytes.Equal(b, b2) {
+			t.Fatalf("round trip changed %d bytes into %d", len(b), len(b2))
+		}
+	})
+}
