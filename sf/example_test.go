@@ -3,7 +3,10 @@ package sf_test
 import (
 	"fmt"
 	"log"
+	"math"
 	"math/rand/v2"
+
+	"gonum.org/v1/gonum/mat"
 
 	"github.com/successor-go/successor/mdp"
 	"github.com/successor-go/successor/sf"
@@ -161,4 +164,57 @@ func Example_customFeatureMap() {
 	// end 1.000, steps 9.000
 	// value of C: 1.000
 	// TD accepts it too
+}
+
+func ExampleInferTask() {
+	// The invented demo depot: place features of the cell entered, plus a
+	// constant per-step dimension.
+	g, err := mdp.Depot()
+	if err != nil {
+		log.Fatal(err)
+	}
+	phi, err := sf.GridLabels(g, true)
+	if err != nil {
+		log.Fatal(err)
+	}
+	names := append(g.LabelNames(), "step")
+	// A hidden job: the packing bench pays 1, the charging lane costs 0.5,
+	// every step costs 0.01. Rewards are observed on 400 random moves.
+	hidden := make([]float64, phi.Dim())
+	hidden[2], hidden[5], hidden[6] = 1, -0.5, -0.01
+	rng := rand.New(rand.NewPCG(3, 4))
+	m := g.MDP
+	const n = 400
+	phis := make([]float64, 0, n*phi.Dim())
+	rewards := make([]float64, 0, n)
+	f := make([]float64, phi.Dim())
+	for len(rewards) < n {
+		s, a := rng.IntN(m.NumStates()), rng.IntN(m.NumActions())
+		next, _ := m.Next(s, a)
+		phi.Features(f, s, a, next[0])
+		r := 0.0
+		for k := range f {
+			r += f[k] * hidden[k]
+		}
+		phis = append(phis, f...)
+		rewards = append(rewards, r)
+	}
+	w := make([]float64, phi.Dim())
+	fit, err := sf.InferTask(w, mat.NewDense(n, phi.Dim(), phis), rewards, 0, nil)
+	if err != nil {
+		log.Fatal(err)
+	}
+	for k, name := range names {
+		fmt.Printf("%-8s %6.3f\n", name, math.Round(w[k]*1000)/1000+0) // +0: no "-0.000"
+	}
+	fmt.Printf("rms residual below 1e-9: %v\n", fit.RMS < 1e-9)
+	// Output:
+	// bay1      0.000
+	// bay2      0.000
+	// bench     1.000
+	// charger   0.000
+	// dock      0.000
+	// lane     -0.500
+	// step     -0.010
+	// rms residual below 1e-9: true
 }
