@@ -16,40 +16,54 @@ type Selector struct {
 	q   []float64 // Q_i(s, .) of one source
 }
 
-// view returns psi(s, .) of src: in place for a Viewer, otherwise copied
-// into the selector's scratch.
-func (sel *Selector) view(src Source, s, n int) []float64 {
-	var p []float64
-	switch v := src.(type) {
-	case *sf.Table:
-		p = v.State(s)
-	case Viewer:
-		p = v.State(s)
-	default:
-		if cap(sel.buf) < n {
-			sel.buf = make([]float64, n)
+// view returns psi(s, .) of src, which must have the given shape: in place
+// for an *sf.Table or a Viewer, otherwise copied into the selector's
+// scratch. i is the source's index, for messages.
+func (sel *Selector) view(src Source, i, s, actions, dim int) []float64 {
+	n := actions * dim
+	if t, ok := src.(*sf.Table); ok {
+		// The common case, read without a method call.
+		if t.A != actions || t.D != dim {
+			panic(shapeMsg(i, t.A, t.D, actions, dim))
 		}
-		p = sel.buf[:n]
-		src.Psi(p, s)
+		if uint(s) >= uint(t.S) {
+			panic(fmt.Sprintf("gpi: state %d out of range of source %d (%d states)", s, i, t.S))
+		}
+		off := s * n
+		return t.Data[off : off+n : off+n]
+	}
+	if a, d := src.Shape(); a != actions || d != dim {
+		panic(shapeMsg(i, a, d, actions, dim))
+	}
+	if v, ok := src.(Viewer); ok {
+		p := v.State(s)
+		if len(p) != n {
+			panic(fmt.Sprintf("gpi: state view of source %d has length %d, want %d", i, len(p), n))
+		}
 		return p
 	}
-	if len(p) != n {
-		panic(fmt.Sprintf("gpi: source state view has length %d, want %d", len(p), n))
+	if cap(sel.buf) < n {
+		sel.buf = make([]float64, n)
 	}
+	p := sel.buf[:n]
+	src.Psi(p, s)
 	return p
 }
 
-// shape returns the common shape of sources and checks it against w.
+func shapeMsg(i, a, d, actions, dim int) string {
+	return fmt.Sprintf("gpi: source %d has shape (%d, %d), source 0 has (%d, %d)", i, a, d, actions, dim)
+}
+
+// shape returns the shape of the first source and checks it against w; the
+// other sources are checked as they are read.
 func shape(w []float64, sources []Source) (actions, dim int) {
 	if len(sources) == 0 {
 		panic("gpi: no sources")
 	}
-	actions, dim = sources[0].Shape()
-	for i, src := range sources[1:] {
-		a, d := src.Shape()
-		if a != actions || d != dim {
-			panic(fmt.Sprintf("gpi: source %d has shape (%d, %d), source 0 has (%d, %d)", i+1, a, d, actions, dim))
-		}
+	if t, ok := sources[0].(*sf.Table); ok {
+		actions, dim = t.A, t.D
+	} else {
+		actions, dim = sources[0].Shape()
 	}
 	if len(w) != dim {
 		panic(fmt.Sprintf("gpi: task vector has length %d, sources have dimension %d", len(w), dim))
@@ -77,7 +91,6 @@ func shape(w []float64, sources []Source) (actions, dim int) {
 //	all values -Inf             =>  action 0, source 0, value -Inf
 func (sel *Selector) Act(w []float64, s int, sources ...Source) (action, source int, value float64) {
 	actions, dim := shape(w, sources)
-	n := actions * dim
 	if cap(sel.q) < actions {
 		sel.q = make([]float64, actions)
 	}
@@ -85,7 +98,7 @@ func (sel *Selector) Act(w []float64, s int, sources ...Source) (action, source 
 	best, bi, ba := math.Inf(-1), 0, 0
 	nan := false
 	for i, src := range sources {
-		scores(qs, sel.view(src, s, n), w)
+		scores(qs, sel.view(src, i, s, actions, dim), w)
 		for a, q := range qs {
 			if q > best {
 				best, bi, ba = q, i, a
@@ -113,10 +126,8 @@ func (sel *Selector) Values(dst, w []float64, s int, sources ...Source) []float6
 	if len(dst) != len(sources)*actions {
 		panic(fmt.Sprintf("gpi: values: dst has length %d, want %d", len(dst), len(sources)*actions))
 	}
-	n := actions * dim
 	for i, src := range sources {
-		psi := sel.view(src, s, n)
-		scores(dst[i*actions:(i+1)*actions], psi, w)
+		scores(dst[i*actions:(i+1)*actions], sel.view(src, i, s, actions, dim), w)
 	}
 	return dst
 }

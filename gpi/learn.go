@@ -151,8 +151,11 @@ type agent interface {
 // r(s,a,s') = phi(s,a,s') . w_i. It keeps one SF table per task seen (a new
 // zero table when a task starts) and
 //
-//   - acts by GPI over all tables for the current task vector w_i
-//     (Act, ties as documented there), with an epsilon-greedy choice;
+//   - acts by GPI over all tables for the current task vector w_i, with
+//     an epsilon-greedy choice; while learning, ties between greedy
+//     actions are broken uniformly at random (common practice: a new
+//     table is all zeros, and the lowest-action rule would send the agent
+//     one way only), while the evaluated policy breaks them as Act does;
 //   - updates the current table with sf's TD learner, greedy target for
 //     w_i: psi_i(s,a) <- psi_i(s,a) + alpha (phi(s,a,s') + gamma psi_i(s',a') - psi_i(s,a)),
 //     a' = argmax_b psi_i(s',b) . w_i;
@@ -191,7 +194,9 @@ func SFQLearning(rng *rand.Rand, m *mdp.Finite, phi sf.FeatureMap, tasks [][]flo
 // QLearning runs tabular Q-learning (Watkins 1989; Sutton and Barto, 2nd
 // ed., section 6.5) over the same task sequence, with the same
 // exploration, step size, episodes and exact evaluation as SFQLearning:
-// the baseline without transfer machinery. One Q table is kept across
+// the baseline without transfer machinery (ties between greedy actions
+// broken at random while learning, to the lowest action when evaluated).
+// One Q table is kept across
 // tasks (a new task starts from the previous task's values), and the
 // reward phi(s,a,s') . w_i is computed from the features. Errors are as
 // for SFQLearning.
