@@ -244,8 +244,12 @@ func ParseGrid(layout string, opts *GridOptions) (*Grid, error) {
 func (g *Grid) transitions(na int, slip float64, term []bool) *linalg.CSR {
 	n := len(g.cell)
 	ptr := make([]int, n*na+1)
-	ind := make([]int, 0, n*na)
-	val := make([]float64, 0, n*na)
+	per := 1 // entries per row: 1 without slip, up to 4 with it
+	if slip > 0 {
+		per = 4
+	}
+	ind := make([]int, 0, n*na*per)
+	val := make([]float64, 0, n*na*per)
 	var nb [4]int
 	var buf [5]struct {
 		j int

@@ -27,7 +27,7 @@ type Values struct {
 // SolveReport says how a policy-evaluation system (I - gamma P_pi) V = r_pi
 // was solved and how well.
 type SolveReport struct {
-	Method     string  // "dense LU" or "iterative"
+	Method     string  // "dense LU", or "iterative" with the method used
 	Iterations int     // iterations of the iterative solver (0 for dense)
 	Residual   float64 // ||r_pi - (I - gamma P_pi) V||_inf / max(1, ||r_pi||_inf)
 }
@@ -270,18 +270,19 @@ func (o *Solver) solve(v []float64, p *linalg.CSR, gamma float64, b []float64) (
 	n := len(v)
 	dense := s.Method == SolveDense || (s.Method == SolveAuto && n <= s.DenseLimit)
 	if dense {
-		pd := p.ToDense()
 		bv := mat.NewVecDense(n, b)
 		var x mat.Dense
 		if gamma < 1 {
-			if err := linalg.SolveSuccessor(&x, pd, gamma, bv); err != nil {
+			// linalg reads the CSR in O(nnz) and uses a banded LU when the
+			// chain is banded (grids in row-major order).
+			if err := linalg.SolveSuccessor(&x, p, gamma, bv); err != nil {
 				return SolveReport{}, err
 			}
 		} else {
 			// gamma = 1 on an absorbing chain: I - P is non-singular
 			// because every state is transient (P_pi has zero terminal rows).
-			a := mat.NewDense(n, n, nil)
-			a.Scale(-1, pd)
+			a := p.ToDense()
+			a.Scale(-1, a)
 			for i := 0; i < n; i++ {
 				a.Set(i, i, a.At(i, i)+1)
 			}
@@ -299,9 +300,9 @@ func (o *Solver) solve(v []float64, p *linalg.CSR, gamma float64, b []float64) (
 	if gamma < 1 {
 		res, err := linalg.SolveIterative(v, p, gamma, b, &linalg.IterSettings{Tol: s.Tol, MaxIter: s.MaxIter})
 		if err != nil {
-			return SolveReport{}, fmt.Errorf("iterative solve (%d iterations, residual %g): %w", res.Iterations, res.Residual, err)
+			return SolveReport{}, fmt.Errorf("iterative solve: %w", err)
 		}
-		return SolveReport{Method: "iterative", Iterations: res.Iterations}, nil
+		return SolveReport{Method: fmt.Sprintf("iterative (%v, %v preconditioner)", res.Method, res.Precond), Iterations: res.Iterations}, nil
 	}
 	return gaussSeidel(v, p, b, s.Tol, s.MaxIter)
 }
