@@ -153,8 +153,8 @@ func (sel *Selector) ActStates(actions, winners []int, values []float64, w []flo
 	}
 }
 
-// Act is Selector.Act with a fresh selector. It allocates only when some
-// source is not a Viewer; use a Selector in loops.
+// Act is Selector.Act with a fresh selector, whose scratch it allocates on
+// every call; use a Selector in loops.
 func Act(w []float64, s int, sources ...Source) (action, source int, value float64) {
 	var sel Selector
 	return sel.Act(w, s, sources...)

@@ -4,6 +4,8 @@ import (
 	"math"
 	"math/rand/v2"
 	"testing"
+
+	"github.com/successor-go/successor/sf"
 )
 
 // bruteAct is the definition of GPI written out directly: scan every
@@ -35,10 +37,12 @@ func TestActMatchesDefinition(t *testing.T) {
 		tabs := make([]*table, c.k)
 		view := make([]Source, c.k)
 		copied := make([]Source, c.k)
+		sft := make([]Source, c.k)
 		for i := range tabs {
 			tabs[i] = randomTable(rng, states, c.actions, c.dim)
 			view[i] = tabs[i]
 			copied[i] = copyOnly{tabs[i]}
+			sft[i] = &sf.Table{S: states, A: c.actions, D: c.dim, Data: tabs[i].data}
 		}
 		w := make([]float64, c.dim)
 		for i := range w {
@@ -47,7 +51,7 @@ func TestActMatchesDefinition(t *testing.T) {
 		var sel Selector
 		for s := 0; s < states; s++ {
 			wa, wi, wv := bruteAct(w, s, tabs)
-			for name, src := range map[string][]Source{"view": view, "copy": copied} {
+			for name, src := range map[string][]Source{"view": view, "copy": copied, "sf.Table": sft} {
 				a, i, v := sel.Act(w, s, src...)
 				if a != wa || i != wi || math.Abs(v-wv) > tol {
 					t.Errorf("k=%d A=%d d=%d s=%d %s: got (%d, %d, %v), want (%d, %d, %v)",
@@ -146,10 +150,13 @@ func TestSelectorAllocs(t *testing.T) {
 		src := make([]Source, 10)
 		for i := range src {
 			tab := randomTable(rng, 3, 4, dim)
-			if i%2 == 0 {
+			switch i % 3 {
+			case 0:
 				src[i] = tab
-			} else {
+			case 1:
 				src[i] = copyOnly{tab}
+			case 2:
+				src[i] = &sf.Table{S: 3, A: 4, D: dim, Data: tab.data}
 			}
 		}
 		w := make([]float64, dim)
