@@ -10,9 +10,6 @@ func TestZeroAllocs(t *testing.T) {
 	// scratch buffers.
 	const ns, n = 100, 64
 	rng := rand.New(rand.NewPCG(1, 5))
-	type disc interface {
-		Discriminator
-	}
 	var ds []Discriminator
 	v, _ := NewVMF(&VMFConfig{In: ns, Dim: 8, LearnKappa: true}, rng)
 	vn, _ := NewVMF(&VMFConfig{In: ns, Dim: 8, Net: Net{Hidden: []int{16}, MaxBatch: 32}}, rng)
@@ -42,6 +39,7 @@ func TestZeroAllocs(t *testing.T) {
 			"Features":    func() { d.Features(phi, x1) },
 			"TaskVector":  func() { d.TaskVector(w, z1) },
 			"FeatureMap":  func() { fm.Features(phi, 0, 0, 17) },
+			"MapReward":   func() { fm.Reward(z1, 0, 0, 17) },
 			"MIMeter.Add": func() { m.Add(d, p, x1, z1) },
 			"Sample":      func() { p.Sample(z1, rng) },
 			"VMFLogNorm":  func() { VMFLogNorm(32, 123.4) },

@@ -233,3 +233,17 @@ func TestVMFLogNormSpecial(t *testing.T) {
 		}
 	}
 }
+
+func TestVMFLogNormBigSeries(t *testing.T) {
+	// log C_d(kappa) = nu log kappa - (d/2) log(2 pi) - log I_nu(kappa),
+	// nu = d/2 - 1, with log I_nu from the 256-bit series.
+	for _, d := range []int{2, 4, 8, 17, 32, 33, 64} {
+		nu := float64(d)/2 - 1
+		for _, k := range []float64{1e-3, 0.7, 12, 29.9, 30.1, 88, 333, 1000} {
+			want := nu*math.Log(k) - float64(d)/2*math.Log(2*math.Pi) - bigLogBesselI(nu, k)
+			if got := VMFLogNorm(d, k); math.Abs(got-want) > 1e-13*math.Max(1, math.Abs(want)) {
+				t.Errorf("log C_%d(%g) = %.17g, via 256-bit series %.17g", d, k, got, want)
+			}
+		}
+	}
+}

@@ -304,3 +304,19 @@ func TestUpdateLengthPanics(t *testing.T) {
 		}
 	}
 }
+
+func TestVMFZeroDirection(t *testing.T) {
+	// f(x) = 0: phi = 0 (q uniform), the loss is -log C_d(kappa), and an
+	// update moves f towards z (documented subgradient -kappa z / n).
+	v, _ := NewVMF(&VMFConfig{In: 2, Dim: 3, Kappa: 2, Optim: Optim{LearnRate: 0.01}}, rand.New(rand.NewPCG(1, 1)))
+	clear(v.enc.params())
+	x := []float64{1, 0}
+	z := []float64{0, 0, 1}
+	loss, err := v.Update(x, z)
+	if err != nil || loss != -VMFLogNorm(3, 2) {
+		t.Fatalf("loss %g, err %v; want %g", loss, err, -VMFLogNorm(3, 2))
+	}
+	if r := v.Reward(x, z); !(r > 0.99) {
+		t.Errorf("after one step from f = 0, phi . z = %g, want ~1", r)
+	}
+}

@@ -40,6 +40,7 @@ type FeatureMap struct {
 	obs   func(dst []float64, s int)
 	x     []float64
 	table []float64 // States x Dim when tabulated
+	w     []float64 // task vector scratch for Reward
 	dim   int
 }
 
@@ -65,7 +66,7 @@ func NewFeatureMap(d Discriminator, cfg *MapConfig) (*FeatureMap, error) {
 		}
 		d = cl.Clone()
 	}
-	m := &FeatureMap{d: d, obs: c.Observe, x: make([]float64, d.InDim()), dim: d.FeatureDim()}
+	m := &FeatureMap{d: d, obs: c.Observe, x: make([]float64, d.InDim()), w: make([]float64, d.FeatureDim()), dim: d.FeatureDim()}
 	if c.States > 0 {
 		m.table = make([]float64, c.States*m.dim)
 		for s := range c.States {
@@ -98,6 +99,25 @@ func (m *FeatureMap) Features(dst []float64, s, a, next int) {
 // transition under skill z. It panics if a length is wrong.
 func (m *FeatureMap) TaskVector(dst, z []float64) { m.d.TaskVector(dst, z) }
 
+// Reward returns the intrinsic reward of the transition (s, a, next) under
+// skill z, phi(s, a, next) . TaskVector(z). It panics if len(z) is wrong or
+// next is out of range.
+func (m *FeatureMap) Reward(z []float64, s, a, next int) float64 {
+	if m.table != nil {
+		m.d.TaskVector(m.w, z)
+		return dot(m.table[next*m.dim:(next+1)*m.dim], m.w)
+	}
+	m.obs(m.x, next)
+	return m.d.Reward(m.x, z)
+}
+
 // Discriminator returns the discriminator the map reads: the original when
 // live, the snapshot when frozen.
 func (m *FeatureMap) Discriminator() Discriminator { return m.d }
+
+// The method set of the sf package's FeatureMap interface, pinned here
+// without importing sf.
+var _ interface {
+	Dim() int
+	Features(dst []float64, s, a, next int)
+} = (*FeatureMap)(nil)

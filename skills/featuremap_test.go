@@ -75,6 +75,13 @@ func TestFeatureMapLiveFrozen(t *testing.T) {
 			if r, pr := d.Reward(x, z), dot(c, w); math.Abs(r-pr) > 1e-14 {
 				t.Errorf("%T: phi . w = %g, reward %g", d, pr, r)
 			}
+			if r, mr := d.Reward(x, z), live.Reward(z, 1, 0, next); r != mr {
+				t.Errorf("%T: map reward %g, discriminator reward %g", d, mr, r)
+			}
+			frozen.Features(a, 0, 0, next)
+			if fr, tr := frozen.Reward(z, 0, 0, next), table.Reward(z, 0, 0, next); math.Abs(fr-dot(a, w)) > 1e-14 || math.Abs(tr-fr) > 1e-14 {
+				t.Errorf("%T: frozen reward %g, tabulated %g, phi . w %g", d, fr, tr, dot(a, w))
+			}
 		}
 		if !changed {
 			t.Errorf("%T: live features did not follow the updates", d)

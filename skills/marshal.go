@@ -252,8 +252,7 @@ func (h *header) vmf() (*VMF, error) {
 		if !(h.kappa >= math.Log(minKappa) && h.kappa <= math.Log(h.maxKappa)) {
 			return nil, fmt.Errorf("log kappa %g: %w", h.kappa, ErrFormat)
 		}
-		c.Kappa = math.Exp(h.kappa)
-		c.Kappa = min(c.Kappa, c.MaxKappa) // exp(log m) may round above m
+		c.Kappa = min(max(math.Exp(h.kappa), minKappa), c.MaxKappa) // for the range check only
 	}
 	v, err := buildVMF(&c, loadRNG())
 	if err != nil {

@@ -51,7 +51,12 @@ func trained(t testing.TB) []Discriminator {
 			}
 		}
 	}
-	return out
+	// One never updated, with a learned kappa: log kappa alone restores it.
+	v, err := NewVMF(&VMFConfig{In: 6, Dim: 5, Kappa: 3.3, LearnKappa: true}, rng)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return append(out, v)
 }
 
 func TestMarshalRoundTrip(t *testing.T) {

@@ -19,7 +19,8 @@ type VMFConfig struct {
 	// LearnKappa is set. 0 means 1.
 	Kappa float64
 	// LearnKappa makes kappa a parameter, learned by Adam on log kappa
-	// with the rest of the loss, and kept in (0, MaxKappa].
+	// with the rest of the loss (same Optim settings, no clipping), and
+	// kept in [1e-6, MaxKappa].
 	LearnKappa bool
 	// MaxKappa caps a learned kappa. 0 means 1000.
 	MaxKappa float64
@@ -116,16 +117,21 @@ func (c *VMFConfig) check() error {
 		return fmt.Errorf("skill dimension %d not in 2..%d: %w", c.Dim, maxWidth, ErrConfig)
 	case !(c.MaxKappa >= minKappa) || math.IsInf(c.MaxKappa, 0):
 		return fmt.Errorf("max kappa %g: %w", c.MaxKappa, ErrConfig)
-	case !(c.Kappa > 0) || c.Kappa > c.MaxKappa && c.LearnKappa || math.IsInf(c.Kappa, 0):
+	case !(c.Kappa > 0) || c.LearnKappa && (c.Kappa > c.MaxKappa || c.Kappa < minKappa) || math.IsInf(c.Kappa, 0):
 		return fmt.Errorf("kappa %g: %w", c.Kappa, ErrConfig)
 	}
 	return c.Net.check()
 }
 
-// setKappa sets kappa (and log kappa) and the cached log C_d(kappa).
+// setKappa sets kappa (and log kappa) and the cached log C_d(kappa). A
+// learned kappa is always exp(log kappa), so that saving log kappa restores
+// it bit for bit.
 func (v *VMF) setKappa(k float64) {
-	v.kappa = k
 	v.rho[0] = math.Log(k)
+	if v.learn {
+		k = math.Exp(v.rho[0])
+	}
+	v.kappa = k
 	v.logNorm = VMFLogNorm(v.dim, k)
 }
 
