@@ -82,14 +82,18 @@ type Solver struct {
 //
 // gamma = 1 is allowed when every state reaches a terminal state with
 // positive probability under pi (an absorbing chain); otherwise the error
-// wraps linalg.ErrDiscount. Other errors wrap linalg.ErrDiscount (gamma
-// outside [0, 1] or NaN), linalg.ErrNonFinite (a non-finite reward),
-// linalg.ErrNotStochastic (pi is not a distribution), linalg.ErrSingular,
-// or linalg.ErrNotConverged (iterative solver).
+// wraps both linalg.ErrDiscount and linalg.ErrNotAbsorbing. Other errors
+// wrap ErrInvalid (nil mdp, policy or reward), linalg.ErrDiscount (gamma
+// outside [0, 1] or NaN), linalg.ErrNonFinite (a non-finite reward or
+// result), linalg.ErrNotStochastic (pi is not a distribution),
+// linalg.ErrSingular, or linalg.ErrNotConverged (iterative solver).
 //
-// The system is solved densely for at most DefaultDenseLimit states and
-// iteratively to relative residual DefaultIterTol above; use a Solver to
-// choose.
+// The system is solved by linalg.SolveSuccessor (a banded or dense LU)
+// for at most DefaultDenseLimit states, and above that iteratively
+// (linalg.SolveIterative for gamma < 1, Gauss-Seidel sweeps for gamma = 1)
+// to relative residual DefaultIterTol; use a Solver to choose. Values.Solve
+// reports the method and the achieved max-norm residual. The cost is
+// O(nnz(P)) to build P_pi plus the solve.
 func Evaluate(m *Finite, pi Policy, r Reward, gamma float64) (*Values, error) {
 	return (*Solver)(nil).Evaluate(m, pi, r, gamma)
 }
@@ -198,7 +202,7 @@ func (o *Solver) evaluate(m *Finite, tab, rbar []float64, gamma float64) (*Value
 	}
 	if gamma == 1 {
 		if s := notAbsorbed(m.terminal, p); s >= 0 {
-			return nil, fmt.Errorf("gamma = 1 but state %d never reaches a terminal state under the policy: %w", s, linalg.ErrDiscount)
+			return nil, fmt.Errorf("gamma = 1 but state %d never reaches a terminal state under the policy: %w (%w)", s, linalg.ErrDiscount, linalg.ErrNotAbsorbing)
 		}
 	}
 	v := make([]float64, n)
@@ -418,8 +422,9 @@ const MaxPolicyIterations = 1000
 //
 // With gamma = 1, policy iteration starts from a policy that reaches a
 // terminal state from every state (built backwards from the terminal
-// states); the error wraps linalg.ErrDiscount if some state cannot reach a
-// terminal state at all, or if an improvement step leads to a policy that
+// states); the error wraps linalg.ErrDiscount (and
+// linalg.ErrNotAbsorbing) if some state cannot reach a terminal state at
+// all, or if an improvement step leads to a policy that
 // never terminates (the optimum is unbounded, e.g. a positive-reward
 // cycle). At gamma = 1 the lowest-index tie-break is used only if that
 // policy terminates everywhere; otherwise Policy is the last policy of the
@@ -462,7 +467,7 @@ func (o *Solver) OptimalExpected(m *Finite, rbar []float64, gamma float64) (*Opt
 		var bad int
 		pol, bad = m.properPolicy()
 		if bad >= 0 {
-			return nil, fmt.Errorf("mdp: optimal: gamma = 1 but state %d cannot reach a terminal state: %w", bad, linalg.ErrDiscount)
+			return nil, fmt.Errorf("mdp: optimal: gamma = 1 but state %d cannot reach a terminal state: %w (%w)", bad, linalg.ErrDiscount, linalg.ErrNotAbsorbing)
 		}
 	}
 	tab := make([]float64, n*na)

@@ -508,6 +508,10 @@ func TestOracleErrors(t *testing.T) {
 			_, err := EvaluateExpected(loop, Uniform{1}, []float64{1, 0}, 1)
 			return err
 		}, linalg.ErrDiscount},
+		{"gamma 1 not absorbing sentinel", func() error {
+			_, err := EvaluateExpected(loop, Uniform{1}, []float64{1, 0}, 1)
+			return err
+		}, linalg.ErrNotAbsorbing},
 		{"gamma 1 not absorbing, iterative", func() error {
 			_, err := (&Solver{Method: SolveIterative}).EvaluateExpected(loop, Uniform{1}, []float64{1, 0}, 1)
 			return err
