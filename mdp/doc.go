@@ -103,6 +103,14 @@
 // value) in increasing (state, action, next) order. Write emits canonical
 // files that Load reads back bit for bit.
 //
+// # Fixtures
+//
+// Package mdptest holds the textbook cases (Sutton & Barto Examples 3.5,
+// 3.8, 4.1 and 6.2) with their published values for testing estimators;
+// the same models are in the repository's testdata folder in the file
+// format above. RandomFinite, RandomReward and RandomPolicy draw seeded
+// random problems for property tests.
+//
 // # Randomness
 //
 // Samplers and generators take a *rand.Rand from math/rand/v2; the same
