@@ -6,6 +6,8 @@ import (
 	"math/rand/v2"
 	"testing"
 
+	"gonum.org/v1/gonum/mat"
+
 	"github.com/successor-go/successor/linalg"
 )
 
@@ -572,4 +574,33 @@ func panics(f func()) (p bool) {
 	defer func() { p = recover() != nil }()
 	f()
 	return false
+}
+
+// TestStateActionChainGivesQ checks the closed form of DESIGN.md,
+// Q = (I - gamma P_pi)^-1 rbar over state-action pairs (the successor
+// features with phi = r), against Evaluate on random MDPs with terminal
+// states.
+func TestStateActionChainGivesQ(t *testing.T) {
+	for seed := uint64(1); seed <= 5; seed++ {
+		rng := rand.New(rand.NewPCG(seed, 21))
+		m, err := RandomFinite(rng, RandomConfig{States: 25, Actions: 3, Branching: 3, TerminalFraction: 0.2})
+		if err != nil {
+			t.Fatal(err)
+		}
+		rbar := RandomReward(rng, m)
+		pi := RandomPolicy(rng, m)
+		v, err := EvaluateExpected(m, pi, rbar, 0.9)
+		if err != nil {
+			t.Fatal(err)
+		}
+		var q mat.Dense
+		if err := linalg.SolveSuccessor(&q, m.StateActionChain(pi), 0.9, mat.NewVecDense(len(rbar), rbar)); err != nil {
+			t.Fatal(err)
+		}
+		for i := range rbar {
+			if d := math.Abs(q.At(i, 0) - v.Q[i]); d > tolExact {
+				t.Fatalf("seed %d: Q[%d] = %v from the state-action chain, %v from Evaluate", seed, i, q.At(i, 0), v.Q[i])
+			}
+		}
+	}
 }

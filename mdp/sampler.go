@@ -45,7 +45,8 @@ func (e *Sampler) NumActions() int { return e.m.a }
 func (e *Sampler) MDP() *Finite { return e.m }
 
 // Reset starts an episode and returns its first state, drawn from the
-// start distribution.
+// start distribution. If that state is terminal the episode is already
+// over: Done reports true and Step panics until the next Reset.
 func (e *Sampler) Reset(rng *rand.Rand) int {
 	e.state = e.startIdx[SampleIndex(rng, e.startP)]
 	e.steps = 0
