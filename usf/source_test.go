@@ -1,0 +1,172 @@
+package usf
+
+import (
+	"errors"
+	"math"
+	"math/rand/v2"
+	"testing"
+
+	"github.com/successor-go/successor/gpi"
+)
+
+// The GPI adapter is a gpi.Source.
+var _ gpi.Source = (*Source)(nil)
+
+// TestSourceFastAndGeneric checks that the one-hot fast path (PsiState)
+// and the generic path (an Observer writing e_s, then Psi) give the same
+// bits, for the linear USF, and that GPI over sources picks the best z.
+func TestSourceFastAndGeneric(t *testing.T) {
+	rng := rand.New(rand.NewPCG(8, 8))
+	l, _ := NewLinear(5, 3, 2, 0.9, nil)
+	for i := range l.W {
+		l.W[i] = rng.NormFloat64()
+	}
+	z := []float64{0.6, -0.8}
+	fast, err := NewSource(l, z, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	slow, err := NewSource(l, z, ObserverFunc{D: 5, F: func(dst []float64, s int) { OneHot{N: 5}.Observe(dst, s) }})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if fast.fast == nil || slow.fast != nil {
+		t.Fatal("fast path not chosen as documented")
+	}
+	a, c := make([]float64, 6), make([]float64, 6)
+	for s := 0; s < 5; s++ {
+		fast.Psi(a, s)
+		slow.Psi(c, s)
+		for i := range a {
+			if a[i] != c[i] {
+				t.Fatalf("state %d: fast %v, generic %v", s, a, c)
+			}
+		}
+	}
+	if n := testing.AllocsPerRun(10, func() { fast.Psi(a, 2); slow.Psi(c, 2) }); n != 0 {
+		t.Fatalf("%v allocs, want 0", n)
+	}
+	// GPI over two sources: the action and source must maximise psi . w
+	// over both (checked by brute force here).
+	z2 := []float64{1, 0}
+	src2, _ := NewSource(l, z2, nil)
+	w := []float64{0.3, 0.7}
+	act, which, val := gpi.Act(w, 3, fast, src2)
+	best, bi, ba := math.Inf(-1), -1, -1
+	for i, src := range []*Source{fast, src2} {
+		src.Psi(a, 3)
+		for k := 0; k < 3; k++ {
+			if q := dot(a[k*2:k*2+2], w); q > best {
+				best, bi, ba = q, i, k
+			}
+		}
+	}
+	if act != ba || which != bi || math.Abs(val-best) > tolExact {
+		t.Fatalf("gpi.Act = (%d, %d, %v), brute force (%d, %d, %v)", act, which, val, ba, bi, best)
+	}
+	if _, err := NewSource(l, []float64{1}, nil); !errors.Is(err, ErrDimension) {
+		t.Errorf("short z: err %v", err)
+	}
+	if _, err := NewSource(l, z, OneHot{N: 4}); !errors.Is(err, ErrDimension) {
+		t.Errorf("observer size: err %v", err)
+	}
+	if _, err := NewSource(l, []float64{math.NaN(), 0}, nil); !errors.Is(err, ErrNonFinite) {
+		t.Errorf("NaN z: err %v", err)
+	}
+	srcs, err := Sources(l, [][]float64{z, z2}, nil)
+	if err != nil || len(srcs) != 2 {
+		t.Fatalf("Sources: %v", err)
+	}
+}
+
+// TestVonMisesFisherMean checks the mean of mu . x under Wood's sampler
+// against the closed form for the sphere S^2 (d = 3):
+// E[mu . x] = coth(kappa) - 1/kappa (Mardia & Jupp 2000, Directional
+// Statistics, section 9.3.2, A_3(kappa)), and for kappa = 0 the uniform
+// mean 0; and for d = 2 against A_2(kappa) = I_1(kappa)/I_0(kappa) with
+// I_1(2)/I_0(2) = 1.590636854637329/2.279585302336067 (Abramowitz &
+// Stegun, Table 9.8, from memory). 20000 draws; tolerance 4 standard
+// errors of the sample mean (the variance of mu . x is at most 1).
+func TestVonMisesFisherMean(t *testing.T) {
+	coth := func(k float64) float64 { return math.Cosh(k) / math.Sinh(k) }
+	for _, tc := range []struct {
+		d     int
+		kappa float64
+		want  float64
+	}{
+		{3, 0, 0},
+		{3, 2, coth(2) - 0.5},
+		{3, 20, coth(20) - 1.0/20},
+		{2, 2, 1.590636854637329 / 2.279585302336067},
+		{1, 1, math.Tanh(1)}, // two points: (e - 1/e)/(e + 1/e)
+	} {
+		rng := rand.New(rand.NewPCG(uint64(tc.d), uint64(tc.kappa*10)))
+		mu := unitVectors(rng, 1, tc.d)[0]
+		x := make([]float64, tc.d)
+		const n = 20000
+		var sum, sumSq float64
+		for range n {
+			VonMisesFisher(x, mu, tc.kappa, rng)
+			if math.Abs(dot(x, x)-1) > 1e-12 {
+				t.Fatalf("d %d: draw has norm^2 %v", tc.d, dot(x, x))
+			}
+			c := dot(mu, x)
+			sum += c
+			sumSq += c * c
+		}
+		mean := sum / n
+		se := math.Sqrt((sumSq/n - mean*mean) / n)
+		if math.Abs(mean-tc.want) > 4*se+1e-12 {
+			t.Errorf("d %d kappa %v: mean %v, want %v (se %.2g)", tc.d, tc.kappa, mean, tc.want, se)
+		}
+	}
+}
+
+func TestCandidates(t *testing.T) {
+	rng := rand.New(rand.NewPCG(9, 9))
+	w := []float64{3, 0, 4}
+	for _, cfg := range []*CandidateConfig{{N: 50, Kappa: 50}, {N: 50, Sigma: 0.1}} {
+		c, err := Candidates(w, cfg, rng)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if len(c) != 51 {
+			t.Fatalf("%d candidates, want 51", len(c))
+		}
+		for i, v := range w {
+			if c[0][i] != v {
+				t.Fatal("w is not the first candidate, unchanged")
+			}
+		}
+		var mean float64
+		for _, z := range c[1:] {
+			if math.Abs(dot(z, z)-1) > 1e-12 {
+				t.Fatal("candidate not on the unit sphere")
+			}
+			mean += dot(z, []float64{0.6, 0, 0.8}) / 50
+		}
+		// kappa 50 in d 3: E[mu.x] = coth 50 - 1/50 = 0.98; sigma 0.1 is
+		// about as tight. Both well above 0.9.
+		if mean < 0.9 {
+			t.Errorf("config %+v: mean cosine to w %v, want > 0.9", cfg, mean)
+		}
+	}
+	if c, err := Candidates(w, nil, nil); err != nil || len(c) != 1 {
+		t.Errorf("nil config: %v, %d", err, len(c))
+	}
+	for _, tc := range []struct {
+		w   []float64
+		cfg *CandidateConfig
+		err error
+	}{
+		{nil, nil, ErrDimension},
+		{[]float64{0, 0}, &CandidateConfig{N: 1}, ErrZeroVector},
+		{[]float64{1, math.Inf(1)}, nil, ErrNonFinite},
+		{w, &CandidateConfig{N: -1}, ErrSettings},
+		{w, &CandidateConfig{N: 1, Kappa: -1}, ErrSettings},
+	} {
+		if _, err := Candidates(tc.w, tc.cfg, rng); !errors.Is(err, tc.err) {
+			t.Errorf("w %v cfg %+v: err %v, want %v", tc.w, tc.cfg, err, tc.err)
+		}
+	}
+}
