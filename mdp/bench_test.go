@@ -2,6 +2,7 @@ package mdp
 
 import (
 	"fmt"
+	"math"
 	"math/rand/v2"
 	"strings"
 	"testing"
@@ -61,7 +62,7 @@ func BenchmarkEvaluate(b *testing.B) {
 				}
 			}
 			b.ReportMetric(float64(v.Solve.Iterations), "iters")
-			b.ReportMetric(v.Solve.Residual, "residual")
+			b.ReportMetric(math.Log10(v.Solve.Residual+1e-300), "log10-residual")
 		})
 	}
 }

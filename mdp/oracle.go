@@ -125,7 +125,7 @@ func (o *Solver) EvaluateExpected(m *Finite, pi Policy, rbar []float64, gamma fl
 	if err != nil {
 		return nil, fmt.Errorf("mdp: evaluate: %w", err)
 	}
-	v, err := o.evaluate(m, tab, rbar, gamma)
+	v, err := o.evaluate(m, tab, rbar, gamma, nil)
 	if err != nil {
 		return nil, fmt.Errorf("mdp: evaluate: %w", err)
 	}
@@ -185,8 +185,9 @@ func checkProblem(m *Finite, rbar []float64, gamma float64) error {
 	return nil
 }
 
-// evaluate solves for V and Q given a validated policy table.
-func (o *Solver) evaluate(m *Finite, tab, rbar []float64, gamma float64) (*Values, error) {
+// evaluate solves for V and Q given a validated policy table. A non-nil
+// init is a starting guess for the iterative solvers (a warm start).
+func (o *Solver) evaluate(m *Finite, tab, rbar []float64, gamma float64, init []float64) (*Values, error) {
 	n, na := m.n, m.a
 	p := m.chainFromTable(tab)
 	b := make([]float64, n)
@@ -206,7 +207,11 @@ func (o *Solver) evaluate(m *Finite, tab, rbar []float64, gamma float64) (*Value
 		}
 	}
 	v := make([]float64, n)
-	rep, err := o.solve(v, p, gamma, b)
+	warm := init != nil
+	if warm {
+		copy(v, init)
+	}
+	rep, err := o.solve(v, p, gamma, b, warm)
 	if err != nil {
 		return nil, err
 	}
@@ -259,8 +264,9 @@ func residual(p *linalg.CSR, gamma float64, v, b []float64) float64 {
 	return res / math.Max(1, nb)
 }
 
-// solve writes the solution of (I - gamma P) v = b into v.
-func (o *Solver) solve(v []float64, p *linalg.CSR, gamma float64, b []float64) (SolveReport, error) {
+// solve writes the solution of (I - gamma P) v = b into v. If warm, the
+// iterative solvers start from the contents of v.
+func (o *Solver) solve(v []float64, p *linalg.CSR, gamma float64, b []float64, warm bool) (SolveReport, error) {
 	var s Solver
 	if o != nil {
 		s = *o
@@ -302,23 +308,26 @@ func (o *Solver) solve(v []float64, p *linalg.CSR, gamma float64, b []float64) (
 		return SolveReport{Method: "dense LU"}, nil
 	}
 	if gamma < 1 {
-		res, err := linalg.SolveIterative(v, p, gamma, b, &linalg.IterSettings{Tol: s.Tol, MaxIter: s.MaxIter})
+		res, err := linalg.SolveIterative(v, p, gamma, b, &linalg.IterSettings{Tol: s.Tol, MaxIter: s.MaxIter, UseInitial: warm})
 		if err != nil {
 			return SolveReport{}, fmt.Errorf("iterative solve: %w", err)
 		}
 		return SolveReport{Method: fmt.Sprintf("iterative (%v, %v preconditioner)", res.Method, res.Precond), Iterations: res.Iterations}, nil
+	}
+	if !warm {
+		copy(v, b)
 	}
 	return gaussSeidel(v, p, b, s.Tol, s.MaxIter)
 }
 
 // gaussSeidel solves (I - P) v = b for a sub-stochastic P whose chain is
 // absorbing (every state transient), by Gauss-Seidel sweeps, which
-// converge because the spectral radius of P is below 1.
+// converge because the spectral radius of P is below 1. v holds the
+// starting guess.
 func gaussSeidel(v []float64, p *linalg.CSR, b []float64, tol float64, maxIter int) (SolveReport, error) {
 	if maxIter <= 0 {
 		maxIter = 100000
 	}
-	copy(v, b)
 	var nb float64
 	for _, x := range b {
 		nb = math.Max(nb, math.Abs(x))
@@ -480,12 +489,13 @@ func (o *Solver) OptimalExpected(m *Finite, rbar []float64, gamma float64) (*Opt
 		}
 	}
 	var vals *Values
+	var prev []float64
 	it := 0
 	for {
 		it++
 		setTable(pol)
 		var err error
-		vals, err = o.evaluate(m, tab, rbar, gamma)
+		vals, err = o.evaluate(m, tab, rbar, gamma, prev)
 		if err != nil {
 			if gamma == 1 && errors.Is(err, linalg.ErrDiscount) {
 				return nil, fmt.Errorf("mdp: optimal: policy iteration reached a policy that never terminates, the optimum is unbounded or undefined at gamma = 1: %w", err)
@@ -508,6 +518,7 @@ func (o *Solver) OptimalExpected(m *Finite, rbar []float64, gamma float64) (*Opt
 		if !changed {
 			break
 		}
+		prev = vals.V // warm start of the next evaluation
 		if it >= MaxPolicyIterations {
 			return nil, fmt.Errorf("mdp: optimal: policy iteration did not settle in %d iterations: %w", it, linalg.ErrNotConverged)
 		}
