@@ -7,9 +7,32 @@ package sf
 // divergence detection at the cost of one addition per entry.
 
 // kernelHot sets cur = om*cur + ag*nxt and returns its sum. cur and nxt may
-// be the same slice.
+// be the same slice. For om != 0 it computes om*(cur + (ag/om)*nxt), the
+// form of TD.Update's fast path, so the two agree bit for bit.
 func kernelHot(cur, nxt []float64, om, ag float64) float64 {
 	nxt = nxt[:len(cur)]
+	if om != 0 {
+		h := ag / om
+		var s0, s1 float64
+		k := 0
+		for ; k <= len(cur)-4; k += 4 {
+			c := cur[k : k+4 : k+4]
+			x := nxt[k : k+4 : k+4]
+			v0 := om * (c[0] + h*x[0])
+			v1 := om * (c[1] + h*x[1])
+			v2 := om * (c[2] + h*x[2])
+			v3 := om * (c[3] + h*x[3])
+			c[0], c[1], c[2], c[3] = v0, v1, v2, v3
+			s0 += v0 + v1
+			s1 += v2 + v3
+		}
+		for ; k < len(cur); k++ {
+			v := om * (cur[k] + h*nxt[k])
+			cur[k] = v
+			s0 += v
+		}
+		return s0 + s1
+	}
 	var s0, s1 float64
 	k := 0
 	for ; k <= len(cur)-4; k += 4 {
@@ -43,10 +66,35 @@ func kernelScale(cur []float64, om float64) float64 {
 }
 
 // kernelDense sets cur = om*cur + ag*nxt + alpha*f and returns its sum. cur
-// and nxt may be the same slice.
+// and nxt may be the same slice. For om != 0 it computes
+// om*(cur + (ag/om)*nxt) + alpha*f, agreeing bit for bit with kernelHot
+// followed by adding alpha at the hot entries when f is one-hot.
 func kernelDense(cur, nxt, f []float64, om, ag, alpha float64) float64 {
 	nxt = nxt[:len(cur)]
 	f = f[:len(cur)]
+	if om != 0 {
+		h := ag / om
+		var s0, s1 float64
+		k := 0
+		for ; k <= len(cur)-4; k += 4 {
+			c := cur[k : k+4 : k+4]
+			x := nxt[k : k+4 : k+4]
+			p := f[k : k+4 : k+4]
+			v0 := om*(c[0]+h*x[0]) + alpha*p[0]
+			v1 := om*(c[1]+h*x[1]) + alpha*p[1]
+			v2 := om*(c[2]+h*x[2]) + alpha*p[2]
+			v3 := om*(c[3]+h*x[3]) + alpha*p[3]
+			c[0], c[1], c[2], c[3] = v0, v1, v2, v3
+			s0 += v0 + v1
+			s1 += v2 + v3
+		}
+		for ; k < len(cur); k++ {
+			v := om*(cur[k]+h*nxt[k]) + alpha*f[k]
+			cur[k] = v
+			s0 += v
+		}
+		return s0 + s1
+	}
 	var s0, s1 float64
 	k := 0
 	for ; k <= len(cur)-4; k += 4 {

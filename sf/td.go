@@ -54,7 +54,9 @@ func (t Target) String() string {
 // converges with probability 1 when every pair is updated infinitely often
 // (Jaakkola, Jordan and Singh 1994; Tsitsiklis 1994). Power = 1 is the
 // running average and is slow when gamma is near 1; Power around 0.6-0.8 is
-// the common practice.
+// the common practice. Powers 1, 0.75 and 0.5 take fast paths (a division
+// and up to two square roots); others cost an exponential and a logarithm
+// per update.
 //
 // The zero value is the constant step 0.1.
 type StepSize struct {
@@ -107,6 +109,9 @@ func (sc *schedule) step(i int) float64 {
 		return sc.alpha / n
 	case 0.5:
 		return sc.alpha / math.Sqrt(n)
+	case 0.75:
+		r := math.Sqrt(n)
+		return sc.alpha / (r * math.Sqrt(r))
 	}
 	return sc.alpha * math.Exp(-sc.power*math.Log(n))
 }
@@ -157,6 +162,9 @@ type TD struct {
 	task   []float64 // w, for Greedy
 	sched  schedule
 
+	fast  bool      // Update's fast path applies
+	alpha float64   // constant step (fast path)
+	om, h float64   // 1 - alpha and alpha*gamma/(1 - alpha) (fast path)
 	buf   []float64 // phi scratch for generic maps
 	mix   []float64 // expected-target scratch
 	steps int
@@ -212,6 +220,8 @@ func NewTD(t *Table, phi FeatureMap, gamma float64, s *TDSettings) (*TD, error) 
 		l.sparse, _ = phi.(sparseMap)
 		l.rows, _ = phi.(rowMap)
 	}
+	l.fast = l.kind != kindOther && s.Target == Sampled && l.sched.visits == nil && st.Alpha < 1
+	l.alpha, l.om, l.h = st.Alpha, 1-st.Alpha, st.Alpha*gamma/(1-st.Alpha)
 	if l.kind == kindState && t.D != t.S || l.kind == kindStateAction && t.D != t.S*t.A {
 		return nil, fmt.Errorf("sf: td: one-hot map of dimension %d does not match a table of %d states and %d actions: %w", t.D, t.S, t.A, ErrDimension)
 	}
@@ -268,6 +278,67 @@ func (l *TD) Err() error { return l.err }
 // earlier update produced a non-finite value; after that, updates do
 // nothing. It panics if an index is out of range. It does not allocate.
 func (l *TD) Update(s, a, next int, terminal bool, nextAction int) error {
+	t := l.Table
+	if l.fast && !terminal &&
+		uint(s) < uint(t.S) && uint(a) < uint(t.A) && uint(next) < uint(t.S) && uint(nextAction) < uint(t.A) {
+		// Fast path: built-in one- or two-hot features, Sampled target,
+		// constant step alpha < 1. One pass over the row:
+		// psi <- (1-alpha) (psi + h psi') (+ alpha at the hot entries), with
+		// h = alpha gamma / (1 - alpha): five operations per entry.
+		d, na := t.D, t.A
+		i, j := -1, -1
+		switch l.kind {
+		case kindState:
+			i = s
+		case kindStateAction:
+			i = s*na + a
+		default:
+			i, j = l.labels[next], l.lconst
+		}
+		p := (s*na + a) * d
+		q := (next*na + nextAction) * d
+		cur := t.Data[p : p+d : p+d]
+		nxt := t.Data[q : q+d : q+d]
+		om, h := l.om, l.h
+		var s0, s1 float64
+		k := 0
+		for ; k <= d-4; k += 4 {
+			c := cur[k : k+4 : k+4]
+			x := nxt[k : k+4 : k+4]
+			v0 := om * (c[0] + h*x[0])
+			v1 := om * (c[1] + h*x[1])
+			v2 := om * (c[2] + h*x[2])
+			v3 := om * (c[3] + h*x[3])
+			c[0], c[1], c[2], c[3] = v0, v1, v2, v3
+			s0 += v0 + v1
+			s1 += v2 + v3
+		}
+		for ; k < d; k++ {
+			v := om * (cur[k] + h*nxt[k])
+			cur[k] = v
+			s0 += v
+		}
+		if i >= 0 {
+			cur[i] += l.alpha
+			s0 += cur[i]
+		}
+		if j >= 0 {
+			cur[j] += l.alpha
+			s0 += cur[j]
+		}
+		l.steps++
+		if sum := s0 + s1; sum-sum != 0 {
+			l.err = &DivergenceError{Learner: "td", Step: l.steps, State: s, Action: a}
+			l.fast = false
+			return l.err
+		}
+		return nil
+	}
+	return l.updateMap(s, a, next, terminal, nextAction)
+}
+
+// updateMap is Update outside the fast path.
+func (l *TD) updateMap(s, a, next int, terminal bool, nextAction int) error {
 	if l.err != nil {
 		return l.err
 	}

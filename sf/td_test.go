@@ -210,8 +210,18 @@ func TestTDOneStep(t *testing.T) {
 	fn := FeatureFunc{D: 4, F: lab.Features}
 	pi := mdp.RandomPolicy(rand.New(rand.NewPCG(1, 1)), randomMDP(t, 1, mdp.RandomConfig{States: 5, Actions: 2}))
 	w := []float64{1, -2, 0.5, 0.1}
-	for _, target := range []Target{Sampled, Expected, Greedy} {
-		set := &TDSettings{Target: target, Policy: pi, Task: w, Step: StepSize{Power: 0.8}}
+	for _, tc := range []struct {
+		target Target
+		step   StepSize
+	}{
+		{Sampled, StepSize{Alpha: 0.3}}, // the fast path of Update
+		{Sampled, StepSize{Power: 0.8}},
+		{Expected, StepSize{Power: 0.8}},
+		{Greedy, StepSize{Power: 0.8}},
+		{Greedy, StepSize{Alpha: 0.3}},
+	} {
+		target := tc.target
+		set := &TDSettings{Target: target, Policy: pi, Task: w, Step: tc.step}
 		var tabs [3]*Table
 		var ls [3]*TD
 		for i, phi := range []FeatureMap{lab, fn, lab} {
@@ -350,5 +360,26 @@ func TestTDDepot(t *testing.T) {
 		if i == 1 && d > 0.02*sc {
 			t.Errorf("budget %d: max error %.4f > 0.02 * %.3f", budget, d, sc)
 		}
+	}
+}
+
+// TestSchedule checks the step sizes alpha_n = Alpha / (1 + n)^Power of
+// the fast paths against math.Pow, per pair (derived from the definition).
+func TestSchedule(t *testing.T) {
+	for _, p := range []float64{0.5, 0.6, 0.75, 1} {
+		sc := newSchedule(StepSize{Alpha: 0.8, Power: p}, 2)
+		for n := 0; n < 50; n++ {
+			want := 0.8 / math.Pow(float64(n+1), p)
+			if got := sc.step(1); math.Abs(got-want) > 1e-15 {
+				t.Errorf("power %v visit %d: step %v, want %v", p, n, got, want)
+			}
+		}
+		if got := sc.step(0); got != 0.8 {
+			t.Errorf("power %v: first step of another pair %v, want 0.8", p, got)
+		}
+	}
+	sc := newSchedule(StepSize{Alpha: 0.3}, 2)
+	if sc.step(0) != 0.3 || sc.step(0) != 0.3 {
+		t.Error("constant step changed")
 	}
 }
