@@ -10,20 +10,7 @@ import (
 	"path/filepath"
 )
 
-// The file format of a saved Table or Linear (all integers and floats
-// little-endian):
-//
-//	offset  size  content
-//	0       8     magic: "SFTABLE\x00" (Table) or "SFLINEAR" (Linear)
-//	8       4     format version, uint32 (currently 1)
-//	12      24    three sizes, uint64: S, A, D (Table) or A, D, M (Linear)
-//	36      8n    the n = product-of-sizes values, IEEE-754 float64 bits, in
-//	              the order of Table.Data or Linear.W
-//	36+8n   4     CRC-32 (IEEE polynomial) of bytes [0, 36+8n)
-//
-// Values round-trip bit for bit (NaN payloads included). A file whose
-// length does not match its sizes, whose magic or version is unknown, or
-// whose checksum fails is rejected with an error wrapping ErrCorrupt.
+// The file format is documented in the package doc (doc.go, "Files").
 const (
 	formatVersion = 1
 	headerLen     = 8 + 4 + 3*8

@@ -24,7 +24,7 @@ const (
 	// Greedy bootstraps from psi(s', a*) with a* = argmax_a' psi(s', a') . w
 	// for the task vector w in the settings, ties to the lowest action: SF
 	// Q-learning (Barreto et al. 2017, Successor Features for Transfer in
-	// Reinforcement Learning, sections 4-5). psi . w then follows Q-learning
+	// Reinforcement Learning). psi . w then follows Q-learning
 	// for the reward phi . w, and psi converges to the SFs of a policy
 	// greedy for w.
 	Greedy
