@@ -175,10 +175,13 @@ func (m *CSR) MulVecTo(dst, x []float64) {
 	if overlap(dst, x) {
 		panic("linalg: csr: MulVecTo dst and x overlap")
 	}
-	for i := 0; i < m.rows; i++ {
+	ptr, ind, val := m.Ptr, m.Ind, m.Val
+	for i := range dst {
+		ri, rv := ind[ptr[i]:ptr[i+1]], val[ptr[i]:ptr[i+1]]
+		rv = rv[:len(ri)]
 		var s float64
-		for k := m.Ptr[i]; k < m.Ptr[i+1]; k++ {
-			s += m.Val[k] * x[m.Ind[k]]
+		for k, j := range ri {
+			s += rv[k] * x[j]
 		}
 		dst[i] = s
 	}

@@ -304,7 +304,7 @@ func solveShifted(dst *mat.Dense, p mat.Matrix, gamma float64, b mat.Matrix) err
 		dst.Copy(b)
 	}
 	raw := dst.RawMatrix()
-	f.solve(raw.Data, raw.Stride, m)
+	f.solve(raw.Data, raw.Stride, m, b == nil)
 	return checkFinite(dst)
 }
 
@@ -461,31 +461,46 @@ func (f *bandLU) factor() error {
 }
 
 // solve overwrites the n x m row-major matrix x (row stride stride) with the
-// solution of A X = x. Wide right-hand sides are split over two goroutines.
-func (f *bandLU) solve(x []float64, stride, m int) {
+// solution of A X = x. If ident, x holds the identity (m = n), whose
+// column c stays zero above row c - kl during the forward pass, so that
+// pass skips those zeros. Wide right-hand sides are split over two
+// goroutines.
+func (f *bandLU) solve(x []float64, stride, m int, ident bool) {
 	const minWork = 1 << 22 // flops below which one goroutine is faster
 	work := float64(f.n) * float64(2*f.kl+f.ku+1) * float64(m) * 2
 	if m < 32 || work < minWork {
-		f.solveCols(x, stride, 0, m)
+		f.solveCols(x, stride, 0, m, ident)
 		return
 	}
 	half := m / 2
+	if ident {
+		// The left columns carry more forward work; move the split right.
+		half = m * 9 / 16
+	}
 	var wg sync.WaitGroup
-	wg.Go(func() { f.solveCols(x, stride, 0, half) })
-	f.solveCols(x, stride, half, m)
+	wg.Go(func() { f.solveCols(x, stride, 0, half, ident) })
+	f.solveCols(x, stride, half, m, ident)
 	wg.Wait()
 }
 
 // solveCols solves for columns c0..c1-1 of x.
-func (f *bandLU) solveCols(x []float64, stride, c0, c1 int) {
+func (f *bandLU) solveCols(x []float64, stride, c0, c1 int, ident bool) {
 	n, kl := f.n, f.kl
 	a := f.a
 	row := func(i int) []float64 { return x[i*stride+c0 : i*stride+c1] }
 	// Forward: apply the interchanges and L in the order of elimination.
 	for k := 0; k < n; k++ {
 		xk := row(k)
+		if ident {
+			// Rows k..k+kl are zero beyond column k+kl at this step.
+			e := min(c1, k+kl+1)
+			if e <= c0 {
+				continue
+			}
+			xk = x[k*stride+c0 : k*stride+e]
+		}
 		if p := f.piv[k]; p != k {
-			xp := row(p)
+			xp := x[p*stride+c0 : p*stride+c0+len(xk)]
 			for j := range xk {
 				xk[j], xp[j] = xp[j], xk[j]
 			}
@@ -493,7 +508,7 @@ func (f *bandLU) solveCols(x []float64, stride, c0, c1 int) {
 		last := min(n-1, k+kl)
 		for i := k + 1; i <= last; i++ {
 			if l := a[f.idx(i, k)]; l != 0 {
-				floats.AddScaled(row(i), -l, xk)
+				floats.AddScaled(x[i*stride+c0:i*stride+c0+len(xk)], -l, xk)
 			}
 		}
 	}

@@ -106,6 +106,7 @@ func TestSolveSuccessorAgainstGonum(t *testing.T) {
 		{"banded 300 kl=3 ku=6, pivoting", randBanded(300, 3, 6, rnd), 0.9},
 		{"banded 300 kl=8 ku=0", randBanded(300, 8, 0, rnd), 0.7},
 		{"banded 300 kl=0 ku=5", randBanded(300, 0, 5, rnd), 0.7},
+		{"banded 700 kl=5 ku=2, parallel identity solve", randBanded(700, 5, 2, rnd), 0.95},
 		{"dense 40", randStochastic(40, 0, rnd), 0.9},
 		{"sparse random 80", randSparseChain(80, 4, rnd), 0.99},
 	}
@@ -119,6 +120,18 @@ func TestSolveSuccessorAgainstGonum(t *testing.T) {
 		want := gonumSolve(c.p, c.gamma, b)
 		if d := maxRelDiff(&x, want); d > tolSolve {
 			t.Errorf("%s: differs from gonum LU by %.3g", c.name, d)
+		}
+		// Successor on the same path, against gonum's solve for I.
+		var m mat.Dense
+		if err := linalg.Successor(&m, c.p, c.gamma); err != nil {
+			t.Fatalf("%s: successor: %v", c.name, err)
+		}
+		eye := mat.NewDense(n, n, nil)
+		for i := 0; i < n; i++ {
+			eye.Set(i, i, 1)
+		}
+		if d := maxRelDiff(&m, gonumSolve(c.p, c.gamma, eye)); d > tolSolve {
+			t.Errorf("%s: successor differs from gonum LU by %.3g", c.name, d)
 		}
 		// b may be dst.
 		bc := mat.DenseCopyOf(b)
