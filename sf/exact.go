@@ -12,10 +12,18 @@ import (
 
 // ExactDenseMax is the largest number of state-action pairs n*A for which
 // Exact uses the direct solver linalg.SolveSuccessor (banded or dense LU, one
-// factorisation for all d feature columns). Above it Exact solves each
-// feature column with the iterative solver linalg.SolveIterative, which
-// needs only the sparse chain.
+// factorisation for all d feature columns). Above it Exact solves the
+// feature columns with the iterative solver linalg.SolveIterativeMulti
+// (Krylov, columns shared among goroutines), which needs only the sparse
+// chain.
 const ExactDenseMax = 4096
+
+// ExactBandMaxCost is the largest banded-LU cost n (kl + 1) (2 kl + ku + 1)
+// (n pairs, lower and upper bandwidths kl and ku of the state-action chain)
+// for which Exact solves directly above ExactDenseMax pairs: long chains and
+// narrow grids in reading order are banded, and a direct solve is exact
+// where the iterative one only meets a tolerance.
+const ExactBandMaxCost = 2e8
 
 // ExactIterTol is the relative residual to which Exact solves each feature
 // column iteratively above ExactDenseMax pairs.
@@ -54,10 +62,14 @@ const policyTol = 1e-9
 // gamma must be in [0, 1]; gamma = 1 is allowed when every state-action
 // pair reaches a terminal state under pi (otherwise the error wraps
 // ErrDiscount, as mdp.Evaluate's does). The policy is not queried at
-// terminal states. Up to ExactDenseMax pairs the solve is direct:
-// O((nA)^3) dense, or O(nA b^2) for a chain of bandwidth b; above it each
-// of the d columns is solved iteratively (Krylov, to relative residual
-// ExactIterTol).
+// terminal states.
+//
+// Up to ExactDenseMax pairs, and above it for a chain whose banded
+// factorisation costs at most ExactBandMaxCost, the solve is direct (one LU
+// for all d columns): O((nA)^3) dense, or O(nA b^2) for a chain of
+// bandwidth b. Otherwise the d columns are solved iteratively (Krylov, to
+// relative residual ExactIterTol; the error wraps linalg.ErrNotConverged
+// if a column fails).
 //
 // Errors wrap ErrDiscount, ErrDimension (phi or pi of the wrong size),
 // linalg.ErrNotStochastic (pi(.|s) is not a distribution), ErrNonFinite, or
@@ -98,7 +110,7 @@ func Exact(m *mdp.Finite, pi mdp.Policy, phi FeatureMap, gamma float64) (*Table,
 			p.Val[i] *= 2
 		}
 	}
-	if nsa <= ExactDenseMax {
+	if nsa <= ExactDenseMax || bandCost(p) <= ExactBandMaxCost {
 		var x mat.Dense
 		if err := linalg.SolveSuccessor(&x, p, g, mat.NewDense(nsa, d, bar)); err != nil {
 			return nil, fmt.Errorf("sf: exact: %w", err)
@@ -108,24 +120,9 @@ func Exact(m *mdp.Finite, pi mdp.Policy, phi FeatureMap, gamma float64) (*Table,
 			copy(t.Data[i*d:(i+1)*d], raw.Data[i*raw.Stride:i*raw.Stride+d])
 		}
 	} else {
-		col := make([]float64, nsa)
-		rhs := make([]float64, nsa)
-		var solver linalg.IterSolver
-		for k := 0; k < d; k++ {
-			zero := true
-			for i := range rhs {
-				rhs[i] = bar[i*d+k]
-				zero = zero && rhs[i] == 0
-			}
-			if zero {
-				continue // psi column is 0
-			}
-			if _, err := solver.Solve(col, p, g, rhs, &linalg.IterSettings{Tol: ExactIterTol}); err != nil {
-				return nil, fmt.Errorf("sf: exact: feature %d: %w", k, err)
-			}
-			for i, v := range col {
-				t.Data[i*d+k] = v
-			}
+		x := mat.NewDense(nsa, d, t.Data)
+		if _, err := linalg.SolveIterativeMulti(x, p, g, mat.NewDense(nsa, d, bar), &linalg.IterSettings{Tol: ExactIterTol}); err != nil {
+			return nil, fmt.Errorf("sf: exact: %w", err)
 		}
 	}
 	for i, v := range t.Data {
@@ -235,4 +232,20 @@ func notAbsorbing(p *linalg.CSR) int {
 		}
 	}
 	return -1
+}
+
+// bandCost returns n (kl + 1) (2 kl + ku + 1) for the lower and upper
+// bandwidths kl and ku of the square CSR p, as a float64 (no overflow).
+func bandCost(p *linalg.CSR) float64 {
+	n, _ := p.Dims()
+	var kl, ku int
+	for i := 0; i < n; i++ {
+		ind, _ := p.Row(i)
+		if len(ind) == 0 {
+			continue
+		}
+		kl = max(kl, i-ind[0])
+		ku = max(ku, ind[len(ind)-1]-i)
+	}
+	return float64(n) * float64(kl+1) * float64(2*kl+ku+1)
 }

@@ -128,7 +128,8 @@ func TestExactQ(t *testing.T) {
 		{12, 3, 0.2, 0.99, tolExact},
 		{30, 4, 0.1, 0.5, tolExact},
 		{20, 2, 0, 0, tolExact},
-		{2100, 2, 0.05, 0.9, tolIter}, // 4200 pairs: iterative
+		{2100, 2, 0.05, 0.9, tolIter}, // 4200 pairs, not banded: iterative
+		{2100, 2, 0.3, 1, tolIter},    // iterative at gamma = 1
 	} {
 		t.Run(fmt.Sprintf("n=%d,A=%d,gamma=%v", tc.states, tc.actions, tc.gamma), func(t *testing.T) {
 			for seed := uint64(1); seed <= 3; seed++ {
@@ -264,4 +265,45 @@ type badPolicy struct{}
 
 func (badPolicy) Probs(dst []float64, s int) {
 	dst[0], dst[1] = 0.7, 0.7
+}
+
+// TestExactLongWalk checks the iterative branch (more than ExactDenseMax
+// pairs) at gamma = 1 on a long symmetric random walk of n interior states
+// absorbed at both ends: the probability of ending on the right from state
+// i is i/(n+1) (gambler's ruin, derived by hand: V is linear between the
+// ends).
+func TestExactLongWalk(t *testing.T) {
+	const n = 2100 // 2 actions: 4200 pairs
+	var tr []mdp.Transition
+	for s := 1; s <= n; s++ {
+		tr = append(tr,
+			mdp.Transition{State: s, Action: 0, Next: s - 1, Prob: 1},
+			mdp.Transition{State: s, Action: 1, Next: s + 1, Prob: 1})
+	}
+	term := make([]bool, n+2)
+	term[0], term[n+1] = true, true
+	start := make([]float64, n+2)
+	start[1] = 1
+	m, err := mdp.New(n+2, 2, tr, term, start)
+	if err != nil {
+		t.Fatal(err)
+	}
+	labels := make([]int, n+2)
+	for i := range labels {
+		labels[i] = -1
+	}
+	labels[n+1] = 0
+	right, _ := NewLabels(labels, 1, false)
+	psi, err := Exact(m, mdp.Uniform{N: 2}, right, 1)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var worst float64
+	for s := 1; s <= n; s++ {
+		v := 0.5 * (psi.Row(s, 0)[0] + psi.Row(s, 1)[0])
+		worst = max(worst, math.Abs(v-float64(s)/(n+1)))
+	}
+	if worst > tolIter {
+		t.Errorf("max |V - i/(n+1)| = %g", worst)
+	}
 }

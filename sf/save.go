@@ -73,7 +73,7 @@ func decode(what string, magic [8]byte, data []byte) (sizes [3]int, vals []float
 	return sizes, vals, nil
 }
 
-// MarshalBinary encodes t in the format described at the top of save.go
+// MarshalBinary encodes t in the format of the package doc ("Files")
 // (magic, version, sizes, values, CRC-32). It returns an error wrapping
 // ErrDimension if len(t.Data) does not match the sizes.
 func (t *Table) MarshalBinary() ([]byte, error) {
@@ -123,7 +123,7 @@ func LoadTable(path string) (*Table, error) {
 	return t, nil
 }
 
-// MarshalBinary encodes l in the format described at the top of save.go.
+// MarshalBinary encodes l in the format of the package doc ("Files").
 // It returns an error wrapping ErrDimension if len(l.W) does not match the
 // sizes.
 func (l *Linear) MarshalBinary() ([]byte, error) {
