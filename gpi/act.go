@@ -102,9 +102,8 @@ func (sel *Selector) Act(w []float64, s int, sources ...Source) (action, source 
 		for a, q := range qs {
 			if q > best {
 				best, bi, ba = q, i, a
-			} else if q != q {
-				nan = true
 			}
+			nan = nan || q != q
 		}
 	}
 	if nan {
