@@ -228,3 +228,20 @@ func TestEvaluateErrors(t *testing.T) {
 		t.Errorf("NaN psi: error %v, want ErrNonFinite", err)
 	}
 }
+
+func TestExpectedRewardAndPhiMax(t *testing.T) {
+	m, phi := handMDP(t)
+	// Derived by hand from handMDP with w = (1, -0.1): every step costs
+	// 0.1, the bench step (1, 0) pays 1; the terminal state 2 pays 0.
+	want := []float64{-0.1, -0.1, 0.9, -0.1, 0, 0}
+	got := gpi.ExpectedReward(m, phi, []float64{1, -0.1})
+	for i := range want {
+		if math.Abs(got[i]-want[i]) > 1e-15 {
+			t.Errorf("rbar[%d] = %v, want %v (derived by hand)", i, got[i], want[i])
+		}
+	}
+	// The largest feature vector is (1, 1) on the bench step: sqrt 2.
+	if got := gpi.PhiMax(m, phi); got != math.Sqrt2 {
+		t.Errorf("PhiMax = %v, want sqrt(2) (derived by hand)", got)
+	}
+}
