@@ -1,0 +1,254 @@
+package transfer
+
+import (
+	"fmt"
+	"math"
+	"math/rand/v2"
+
+	"github.com/successor-go/successor/mdp"
+	"github.com/successor-go/successor/sf"
+)
+
+// BaselineConfig configures the learners that start from scratch on the
+// task, with the same labelled budget as the pretrained agents. The zero
+// value means the documented defaults.
+type BaselineConfig struct {
+	// Alpha is the step size. 0 means 0.5 (a deterministic floor).
+	Alpha float64
+	// Epsilon is the random-action rate of the epsilon-greedy behaviour.
+	// 0 means 0.1.
+	Epsilon float64
+	// EpisodeSteps is the time limit of an episode. 0 means 100.
+	EpisodeSteps int
+	// Gamma is the discount. 0 means 0.95.
+	Gamma float64
+}
+
+func (cfg BaselineConfig) withDefaults() (BaselineConfig, error) {
+	c := cfg
+	setF(&c.Alpha, 0.5)
+	setF(&c.Epsilon, 0.1)
+	setI(&c.EpisodeSteps, 100)
+	setF(&c.Gamma, 0.95)
+	if !(c.Alpha > 0 && c.Alpha <= 1) || !(c.Epsilon >= 0 && c.Epsilon <= 1) || c.EpisodeSteps < 1 || !(c.Gamma > 0 && c.Gamma < 1) {
+		return c, fmt.Errorf("transfer: baseline: invalid settings %+v: %w", c, ErrConfig)
+	}
+	return c, nil
+}
+
+// QLearning runs tabular Q-learning from scratch (Watkins 1989; Sutton &
+// Barto 2nd ed., section 6.5) on env with reward r for the largest of the
+// budgets in labelled transitions, acting epsilon-greedily on its own Q
+// (ties at random, Q starts at 0), and returns the greedy policy after each
+// budget (ascending). seed determines the run.
+func QLearning(env Env, r mdp.Reward, budgets []int, cfg BaselineConfig, seed uint64) ([]mdp.Deterministic, error) {
+	c, err := cfg.withDefaults()
+	if err != nil {
+		return nil, err
+	}
+	n, na := env.NumStates(), env.NumActions()
+	q := make([]float64, n*na)
+	rng := rand.New(rand.NewPCG(seed, streamBaseline))
+	var out []mdp.Deterministic
+	err = runEpisodes(env, budgets, c, rng, func(s int) int {
+		return argmaxRand(q[s*na:(s+1)*na], rng)
+	}, func(s, a, next int, term bool) error {
+		target := r(s, a, next)
+		if !term {
+			target += c.Gamma * maxOf(q[next*na:(next+1)*na])
+		}
+		q[s*na+a] += c.Alpha * (target - q[s*na+a])
+		if math.IsNaN(q[s*na+a]) || math.IsInf(q[s*na+a], 0) {
+			return fmt.Errorf("transfer: q-learning: %w", ErrDiverged)
+		}
+		return nil
+	}, func() {
+		pol := make(mdp.Deterministic, n)
+		for s := range pol {
+			pol[s] = argmaxRand(q[s*na:(s+1)*na], nil)
+		}
+		out = append(out, pol)
+	})
+	return out, err
+}
+
+// SFQLearning runs SF Q-learning from scratch with the given features phi
+// (Barreto et al. 2017, section 5, with a single task): the task vector w is
+// re-fitted by ridge regression (lambda 1e-6) of the rewards seen so far on
+// phi(s, a, s') after every transition, the agent acts epsilon-greedily on
+// psi(s, a) . w, and psi learns by TD towards phi + gamma psi(s', a*) with
+// a* greedy in psi(s', .) . w. It returns the greedy policy after each
+// budget (ascending).
+func SFQLearning(env Env, phi sf.FeatureMap, r mdp.Reward, budgets []int, cfg BaselineConfig, seed uint64) ([]mdp.Deterministic, error) {
+	c, err := cfg.withDefaults()
+	if err != nil {
+		return nil, err
+	}
+	n, na, d := env.NumStates(), env.NumActions(), phi.Dim()
+	psi := make([]float64, n*na*d)
+	w := make([]float64, d)
+	xtx := make([]float64, d*d)
+	xty := make([]float64, d)
+	f := make([]float64, d)
+	q := make([]float64, na)
+	rng := rand.New(rand.NewPCG(seed, streamBaseline))
+	qs := func(s int) []float64 {
+		for a := range na {
+			q[a] = dot(psi[(s*na+a)*d:(s*na+a+1)*d], w)
+		}
+		return q
+	}
+	var out []mdp.Deterministic
+	err = runEpisodes(env, budgets, c, rng, func(s int) int {
+		return argmaxRand(qs(s), rng)
+	}, func(s, a, next int, term bool) error {
+		phi.Features(f, s, a, next)
+		rew := r(s, a, next)
+		for i := range d {
+			xty[i] += f[i] * rew
+			for j := range d {
+				xtx[i*d+j] += f[i] * f[j]
+			}
+		}
+		if err := ridgeSolve(w, xtx, xty, 1e-6); err != nil {
+			return fmt.Errorf("transfer: sf q-learning: %w", err)
+		}
+		row := psi[(s*na+a)*d : (s*na+a+1)*d]
+		var nb []float64
+		if !term {
+			b := argmaxRand(qs(next), nil)
+			nb = psi[(next*na+b)*d : (next*na+b+1)*d]
+		}
+		for i := range d {
+			t := f[i]
+			if nb != nil {
+				t += c.Gamma * nb[i]
+			}
+			row[i] += c.Alpha * (t - row[i])
+			if math.IsNaN(row[i]) || math.IsInf(row[i], 0) {
+				return fmt.Errorf("transfer: sf q-learning: %w", ErrDiverged)
+			}
+		}
+		return nil
+	}, func() {
+		pol := make(mdp.Deterministic, n)
+		for s := range pol {
+			pol[s] = argmaxRand(qs(s), nil)
+		}
+		out = append(out, pol)
+	})
+	return out, err
+}
+
+// runEpisodes drives an online learner for max(budgets) steps, calling snap
+// after each budget.
+func runEpisodes(env Env, budgets []int, c BaselineConfig, rng *rand.Rand,
+	greedy func(s int) int, learn func(s, a, next int, term bool) error, snap func()) error {
+	total := 0
+	for i, b := range budgets {
+		if b < 0 || i > 0 && b < budgets[i-1] {
+			return fmt.Errorf("transfer: budgets must be non-negative and ascending: %w", ErrConfig)
+		}
+		total = b
+	}
+	na := env.NumActions()
+	bi := 0
+	for bi < len(budgets) && budgets[bi] == 0 {
+		snap()
+		bi++
+	}
+	steps := 0
+	for steps < total {
+		s := env.Reset(rng)
+		for t := 0; t < c.EpisodeSteps && steps < total; t++ {
+			var a int
+			if rng.Float64() < c.Epsilon {
+				a = rng.IntN(na)
+			} else {
+				a = greedy(s)
+			}
+			next, term, trunc := env.Step(a, rng)
+			if err := learn(s, a, next, term); err != nil {
+				return err
+			}
+			steps++
+			for bi < len(budgets) && budgets[bi] == steps {
+				snap()
+				bi++
+			}
+			if term || trunc {
+				break
+			}
+			s = next
+		}
+	}
+	return nil
+}
+
+// argmaxRand returns the index of the largest value, ties broken uniformly
+// at random with rng (the lowest index if rng is nil).
+func argmaxRand(q []float64, rng *rand.Rand) int {
+	best, arg, ties := math.Inf(-1), 0, 0
+	for i, v := range q {
+		switch {
+		case v > best:
+			best, arg, ties = v, i, 1
+		case v == best && rng != nil:
+			ties++
+			if rng.IntN(ties) == 0 {
+				arg = i
+			}
+		}
+	}
+	return arg
+}
+
+func maxOf(q []float64) float64 {
+	m := math.Inf(-1)
+	for _, v := range q {
+		m = max(m, v)
+	}
+	return m
+}
+
+// ridgeSolve solves (A + lambda I) x = b for a symmetric positive
+// semi-definite d x d matrix A (row-major) by Cholesky factorisation in
+// place of a copy.
+func ridgeSolve(x, a, b []float64, lambda float64) error {
+	d := len(b)
+	l := make([]float64, d*d)
+	for i := range d {
+		for j := 0; j <= i; j++ {
+			s := a[i*d+j]
+			if i == j {
+				s += lambda
+			}
+			for k := range j {
+				s -= l[i*d+k] * l[j*d+k]
+			}
+			if i == j {
+				if s <= 0 {
+					return fmt.Errorf("ridge system not positive definite: %w", ErrDiverged)
+				}
+				l[i*d+i] = math.Sqrt(s)
+			} else {
+				l[i*d+j] = s / l[j*d+j]
+			}
+		}
+	}
+	for i := range d {
+		s := b[i]
+		for k := range i {
+			s -= l[i*d+k] * x[k]
+		}
+		x[i] = s / l[i*d+i]
+	}
+	for i := d - 1; i >= 0; i-- {
+		s := x[i]
+		for k := i + 1; k < d; k++ {
+			s -= l[k*d+i] * x[k]
+		}
+		x[i] = s / l[i*d+i]
+	}
+	return nil
+}

@@ -1,0 +1,303 @@
+package transfer
+
+import (
+	"errors"
+	"fmt"
+	"math"
+	"strings"
+
+	"github.com/successor-go/successor/sf"
+)
+
+// Sentinel errors wrapped by this package.
+var (
+	// ErrConfig is wrapped by errors about an invalid configuration.
+	ErrConfig = errors.New("invalid configuration")
+	// ErrDiverged is wrapped when a learner produces a non-finite value.
+	ErrDiverged = errors.New("learner diverged")
+	// ErrCheckpoint is wrapped by errors about a missing, truncated,
+	// corrupted or incompatible checkpoint file.
+	ErrCheckpoint = errors.New("bad checkpoint")
+	// ErrNoData is wrapped when task inference gets no labelled transitions.
+	ErrNoData = errors.New("no labelled transitions")
+)
+
+// Method selects where the features phi come from during pretraining. The
+// zero value is VMF.
+type Method int
+
+const (
+	// VMF learns phi with a von Mises-Fisher discriminator on the unit
+	// sphere: z is uniform on S^{d-1}, phi(s) = f(s)/||f(s)||, intrinsic
+	// reward phi(s').z, task vector w = z (Hansen et al. 2020).
+	VMF Method = iota
+	// Categorical learns phi = log q(. | s) with a softmax discriminator over
+	// K one-hot skills, intrinsic reward log q(z | s') (Eysenbach et al.
+	// 2019, with the SF decomposition w = z).
+	Categorical
+	// Random uses fixed random unit vectors phi(s) drawn once from the run's
+	// seed; there is no discriminator and no mutual-information term. It is
+	// the ablation that isolates what learning phi buys.
+	Random
+	// Given uses features handed in by the caller (for example the place
+	// labels of a grid layout): the upper reference, since rewards defined
+	// on those features are exactly linear in phi.
+	Given
+)
+
+var methodNames = [...]string{"vmf", "categorical", "random", "given"}
+
+// String returns the method's short name: "vmf", "categorical", "random" or
+// "given".
+func (m Method) String() string {
+	if m < 0 || int(m) >= len(methodNames) {
+		return fmt.Sprintf("Method(%d)", int(m))
+	}
+	return methodNames[m]
+}
+
+// Sphere reports whether the method's skills live on the unit sphere (so
+// inferred task vectors are normalised to unit length).
+func (m Method) Sphere() bool { return m != Categorical }
+
+// ParseMethod returns the method with the given short name (case
+// insensitive).
+func ParseMethod(s string) (Method, error) {
+	for i, n := range methodNames {
+		if strings.EqualFold(strings.TrimSpace(s), n) {
+			return Method(i), nil
+		}
+	}
+	return 0, fmt.Errorf("transfer: unknown method %q (want one of %s): %w", s, strings.Join(methodNames[:], ", "), ErrConfig)
+}
+
+// MarshalText implements encoding.TextMarshaler (used by results.json).
+func (m Method) MarshalText() ([]byte, error) { return []byte(m.String()), nil }
+
+// UnmarshalText implements encoding.TextUnmarshaler.
+func (m *Method) UnmarshalText(b []byte) error {
+	v, err := ParseMethod(string(b))
+	if err != nil {
+		return err
+	}
+	*m = v
+	return nil
+}
+
+// PretrainConfig configures the reward-free phase. The zero value means the
+// documented defaults; negative values are errors unless stated otherwise.
+type PretrainConfig struct {
+	// Method selects the features; the zero value is VMF.
+	Method Method
+	// Dim is the feature dimension d (for Categorical, the number of skills
+	// K). 0 means 8. Ignored by Given, whose dimension is Features.Dim().
+	Dim int
+	// Kappa is the von Mises-Fisher concentration of the discriminator.
+	// 0 means 5.
+	Kappa float64
+	// Skills is the number K of skill vectors for the sphere methods
+	// (VMF, Random, Given), drawn once uniformly on the unit sphere. 0 means
+	// 32. Categorical uses its Dim one-hot skills.
+	Skills int
+	// Relabel is the number of extra skills, drawn at random, whose SFs are
+	// updated with each replayed transition (off-policy relabelling). 0
+	// means 4; negative means none.
+	Relabel int
+	// Features are the given features phi(s, a, s') for Method Given
+	// (evaluated at the next state). Required by Given, ignored otherwise.
+	Features sf.FeatureMap `json:"-"`
+
+	// Steps is the number of environment steps. Episodes always finish, so
+	// the run stops at the first episode end at or after Steps. 0 means
+	// 100000.
+	Steps int
+	// EpisodeSteps is the time limit of a pretraining episode (a
+	// truncation, not a termination). 0 means 50.
+	EpisodeSteps int
+	// Gamma is the discount of the successor features. 0 means 0.95.
+	Gamma float64
+	// Epsilon is the exploration rate of the epsilon-greedy behaviour.
+	// 0 means 0.2; a negative value means no random actions.
+	Epsilon float64
+	// Batch is the minibatch size drawn from the replay buffer at every
+	// step, for both the discriminator and the USF. 0 means 16.
+	Batch int
+	// Replay is the replay buffer capacity in transitions. 0 means 50000.
+	Replay int
+	// LearnRate is the TD step size of the successor features. 0 means 0.2.
+	LearnRate float64
+	// DiscRate is the step size of the discriminator. 0 means 0.5.
+	DiscRate float64
+	// Seed determines the run: every random choice comes from it.
+	Seed uint64
+
+	// CheckpointEvery saves a checkpoint to CheckpointPath at the first
+	// episode end after every CheckpointEvery steps, and at the end of the
+	// run. 0 means no periodic checkpoints (a final one is still written if
+	// CheckpointPath is set).
+	CheckpointEvery int
+	// CheckpointPath is the checkpoint file; empty means none.
+	CheckpointPath string
+	// ProgressEvery calls Progress after every ProgressEvery steps (at the
+	// next episode end) and at the end. 0 means Steps/100 (at least 1).
+	ProgressEvery int
+	// Progress, if not nil, receives progress reports.
+	Progress func(Progress) `json:"-"`
+}
+
+// Progress is a pretraining progress report.
+type Progress struct {
+	Steps, Episodes int
+	// DiscLoss is the mean discriminator loss -log q(z|s') over the
+	// minibatches since the last report (0 for Random and Given).
+	DiscLoss float64
+	// MI is the variational lower bound E[log q(z|s')] - E[log p(z)] over
+	// the same minibatches, with its standard error MIStdErr. HasMI is false
+	// for Random and Given, which have no discriminator.
+	MI, MIStdErr float64
+	HasMI        bool
+	// TDError is the mean squared TD error per feature since the last
+	// report.
+	TDError float64
+}
+
+// pretrainDefaults returns cfg with the zero values replaced by defaults,
+// or an error for invalid values.
+func (cfg PretrainConfig) withDefaults() (PretrainConfig, error) {
+	c := cfg
+	if c.Method < VMF || c.Method > Given {
+		return c, fmt.Errorf("transfer: method %d: %w", int(c.Method), ErrConfig)
+	}
+	if c.Method == Given {
+		if c.Features == nil {
+			return c, fmt.Errorf("transfer: method given needs Features: %w", ErrConfig)
+		}
+		c.Dim = c.Features.Dim()
+	}
+	if c.Dim == 0 {
+		c.Dim = 8
+	}
+	setF(&c.Kappa, 5)
+	setI(&c.Skills, 32)
+	setI(&c.Relabel, 4)
+	if c.Relabel < 0 {
+		c.Relabel = 0
+	}
+	setI(&c.Steps, 100000)
+	setI(&c.EpisodeSteps, 50)
+	setF(&c.Gamma, 0.95)
+	setF(&c.Epsilon, 0.2)
+	if c.Epsilon < 0 {
+		c.Epsilon = 0
+	}
+	setI(&c.Batch, 16)
+	setI(&c.Replay, 50000)
+	setF(&c.LearnRate, 0.2)
+	setF(&c.DiscRate, 0.5)
+	if c.ProgressEvery == 0 {
+		c.ProgressEvery = max(c.Steps/100, 1)
+	}
+	return c, c.validate()
+}
+
+// validate checks a configuration whose defaults have been applied.
+func (c PretrainConfig) validate() error {
+	switch {
+	case c.Method < VMF || c.Method > Given:
+		return fmt.Errorf("transfer: method %d: %w", int(c.Method), ErrConfig)
+	case c.Dim < 1 || (c.Method == VMF || c.Method == Random) && c.Dim < 2:
+		return fmt.Errorf("transfer: dimension %d: %w", c.Dim, ErrConfig)
+	case c.Skills < 1 || c.Relabel < 0:
+		return fmt.Errorf("transfer: %d skills, relabel %d: %w", c.Skills, c.Relabel, ErrConfig)
+	case !(c.Kappa > 0) || math.IsInf(c.Kappa, 0):
+		return fmt.Errorf("transfer: kappa %v: %w", c.Kappa, ErrConfig)
+	case c.Steps < 0 || c.EpisodeSteps < 0 || c.Batch < 0 || c.Replay < 0:
+		return fmt.Errorf("transfer: negative count: %w", ErrConfig)
+	case !(c.Gamma > 0 && c.Gamma < 1):
+		return fmt.Errorf("transfer: gamma %v outside (0, 1): %w", c.Gamma, ErrConfig)
+	case !(c.Epsilon >= 0 && c.Epsilon <= 1):
+		return fmt.Errorf("transfer: epsilon %v: %w", c.Epsilon, ErrConfig)
+	case !(c.LearnRate > 0 && c.LearnRate <= 1) || !(c.DiscRate > 0) || math.IsInf(c.DiscRate, 0):
+		return fmt.Errorf("transfer: step sizes %v, %v: %w", c.LearnRate, c.DiscRate, ErrConfig)
+	case c.CheckpointEvery < 0 || c.ProgressEvery < 1:
+		return fmt.Errorf("transfer: negative period: %w", ErrConfig)
+	}
+	return nil
+}
+
+// Explore is the rule by which the agent collects its labelled transitions.
+type Explore int
+
+const (
+	// ExploreSkills follows the pretrained skills: every labelled episode
+	// draws a fresh z from the prior and acts epsilon-greedily on
+	// psi(s, ., z) . z. The zero value.
+	ExploreSkills Explore = iota
+	// ExploreUniform takes uniformly random actions.
+	ExploreUniform
+)
+
+// AdaptConfig configures task inference and the acting policy. The zero
+// value means the documented defaults.
+type AdaptConfig struct {
+	// Ridge is the ridge penalty lambda of task inference. 0 means 1e-3;
+	// a negative value means plain least squares (lambda = 0).
+	Ridge float64
+	// Candidates is the number N of skills besides the nearest one in the
+	// GPI candidate set (the N + 1 skills most similar to w). 0 means 8; a
+	// negative value means 0, which switches GPI off.
+	Candidates int
+	// Explore is the rule that collects labelled transitions.
+	Explore Explore
+	// Epsilon is the random-action rate while collecting with
+	// ExploreSkills. 0 means 0.2; negative means 0.
+	Epsilon float64
+	// EpisodeSteps is the time limit of a labelled episode. 0 means 100.
+	EpisodeSteps int
+	// SwitchEvery is the number of steps after which ExploreSkills draws a
+	// fresh skill within an episode. 0 means 25.
+	SwitchEvery int
+}
+
+func (cfg AdaptConfig) withDefaults() (AdaptConfig, error) {
+	c := cfg
+	setF(&c.Ridge, 1e-3)
+	if c.Ridge < 0 {
+		c.Ridge = 0
+	}
+	setI(&c.Candidates, 8)
+	if c.Candidates < 0 {
+		c.Candidates = 0
+	}
+	setF(&c.Epsilon, 0.2)
+	if c.Epsilon < 0 {
+		c.Epsilon = 0
+	}
+	setI(&c.EpisodeSteps, 100)
+	setI(&c.SwitchEvery, 25)
+	switch {
+	case c.SwitchEvery < 1:
+		return c, fmt.Errorf("transfer: switch every %d: %w", c.SwitchEvery, ErrConfig)
+	case math.IsNaN(c.Ridge) || math.IsInf(c.Ridge, 0):
+		return c, fmt.Errorf("transfer: ridge %v: %w", c.Ridge, ErrConfig)
+	case !(c.Epsilon <= 1):
+		return c, fmt.Errorf("transfer: epsilon %v: %w", c.Epsilon, ErrConfig)
+	case c.EpisodeSteps < 0:
+		return c, fmt.Errorf("transfer: episode steps %d: %w", c.EpisodeSteps, ErrConfig)
+	case c.Explore != ExploreSkills && c.Explore != ExploreUniform:
+		return c, fmt.Errorf("transfer: explore rule %d: %w", int(c.Explore), ErrConfig)
+	}
+	return c, nil
+}
+
+func setF(p *float64, def float64) {
+	if *p == 0 {
+		*p = def
+	}
+}
+
+func setI(p *int, def int) {
+	if *p == 0 {
+		*p = def
+	}
+}

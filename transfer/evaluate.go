@@ -1,0 +1,228 @@
+package transfer
+
+import (
+	"fmt"
+	"math"
+	"math/rand/v2"
+
+	"github.com/successor-go/successor/mdp"
+)
+
+// Score is the exact value of a policy on a finite MDP from the start
+// distribution mu, J(pi) = sum_s mu(s) V^pi(s), beside the uniform random
+// policy's and the optimal one's, and the normalised return
+//
+//	(J(pi) - J(random)) / (J(optimal) - J(random)),
+//
+// which is 0 for the uniform random policy and 1 for an optimal policy.
+type Score struct {
+	Normalised, Value, Random, Optimal float64
+}
+
+// Reference holds the exact values of the uniform random and the optimal
+// policy of one task, so that many policies can be scored against them
+// without solving for the optimum again.
+type Reference struct {
+	m               *mdp.Finite
+	r               mdp.Reward
+	gamma           float64
+	Random, Optimal float64
+	// Best is an optimal policy.
+	Best mdp.Deterministic
+}
+
+// NewReference computes the exact values of the uniform random policy and
+// of the optimal policy (mdp.Optimal) for reward r and discount gamma. It
+// returns an error if the oracle fails or if the task cannot be normalised
+// (optimal and random values closer than 1e-12).
+func NewReference(m *mdp.Finite, r mdp.Reward, gamma float64) (*Reference, error) {
+	opt, err := mdp.Optimal(m, r, gamma)
+	if err != nil {
+		return nil, fmt.Errorf("transfer: reference: %w", err)
+	}
+	rnd, err := mdp.Evaluate(m, mdp.Uniform{N: m.NumActions()}, r, gamma)
+	if err != nil {
+		return nil, fmt.Errorf("transfer: reference: %w", err)
+	}
+	ref := &Reference{m: m, r: r, gamma: gamma, Random: startValue(m, rnd.V), Optimal: startValue(m, opt.V), Best: opt.Policy}
+	if !(ref.Optimal-ref.Random > 1e-12) {
+		return nil, fmt.Errorf("transfer: reference: optimal value %v not above random %v: %w", ref.Optimal, ref.Random, ErrConfig)
+	}
+	return ref, nil
+}
+
+// Score returns the exact score of pi (mdp.Evaluate).
+func (ref *Reference) Score(pi mdp.Policy) (Score, error) {
+	v, err := mdp.Evaluate(ref.m, pi, ref.r, ref.gamma)
+	if err != nil {
+		return Score{}, fmt.Errorf("transfer: score: %w", err)
+	}
+	j := startValue(ref.m, v.V)
+	return Score{
+		Normalised: (j - ref.Random) / (ref.Optimal - ref.Random),
+		Value:      j, Random: ref.Random, Optimal: ref.Optimal,
+	}, nil
+}
+
+// Evaluate returns the exact normalised score of policy pi on the finite MDP
+// m for reward r and discount gamma: 0 is the uniform random policy, 1 an
+// optimal policy, both from m's start distribution.
+func Evaluate(m *mdp.Finite, pi mdp.Policy, r mdp.Reward, gamma float64) (Score, error) {
+	ref, err := NewReference(m, r, gamma)
+	if err != nil {
+		return Score{}, err
+	}
+	return ref.Score(pi)
+}
+
+func startValue(m *mdp.Finite, v []float64) float64 {
+	var j float64
+	for s, p := range m.Start() {
+		j += p * v[s]
+	}
+	return j
+}
+
+// MonteCarlo estimates the discounted return of the policy act on env for
+// reward r: the mean over episodes of sum_t gamma^t r(S_t, A_t, S_{t+1})
+// (episodes end at a terminal state, a truncation, or after maxSteps steps),
+// with its standard error. Use it where no exact oracle exists. seed
+// determines the draws.
+func MonteCarlo(env mdp.Env, act func(s int) int, r mdp.Reward, gamma float64, episodes, maxSteps int, seed uint64) (mean, stdErr float64, err error) {
+	if episodes < 2 || maxSteps < 1 || !(gamma >= 0 && gamma <= 1) {
+		return 0, 0, fmt.Errorf("transfer: monte carlo: %d episodes, %d steps, gamma %v: %w", episodes, maxSteps, gamma, ErrConfig)
+	}
+	rng := rand.New(rand.NewPCG(seed, streamEval))
+	var sum, sum2 float64
+	for range episodes {
+		s := env.Reset(rng)
+		var g, disc float64 = 0, 1
+		for range maxSteps {
+			a := act(s)
+			next, term, trunc := env.Step(a, rng)
+			g += disc * r(s, a, next)
+			disc *= gamma
+			if term || trunc {
+				break
+			}
+			s = next
+		}
+		if math.IsNaN(g) || math.IsInf(g, 0) {
+			return 0, 0, fmt.Errorf("transfer: monte carlo: non-finite return: %w", ErrDiverged)
+		}
+		sum += g
+		sum2 += g * g
+	}
+	n := float64(episodes)
+	mean = sum / n
+	v := (sum2 - n*mean*mean) / (n - 1)
+	return mean, math.Sqrt(max(v, 0) / n), nil
+}
+
+// FiniteEnv samples a finite MDP: Reset draws from the start distribution,
+// Step from P(. | s, a); a terminal next state ends the episode; after
+// MaxSteps steps the episode is truncated (0 means no time limit).
+type FiniteEnv struct {
+	M        *mdp.Finite
+	MaxSteps int
+	s, t     int
+}
+
+// NewFiniteEnv returns an environment sampling m with a time limit.
+func NewFiniteEnv(m *mdp.Finite, maxSteps int) *FiniteEnv {
+	return &FiniteEnv{M: m, MaxSteps: maxSteps}
+}
+
+// NumStates returns the number of states of the MDP.
+func (e *FiniteEnv) NumStates() int { return e.M.NumStates() }
+
+// NumActions returns the number of actions of the MDP.
+func (e *FiniteEnv) NumActions() int { return e.M.NumActions() }
+
+// Reset draws a start state.
+func (e *FiniteEnv) Reset(rng *rand.Rand) int {
+	e.s = sampleIndex(rng, e.M.Start())
+	e.t = 0
+	return e.s
+}
+
+// Step samples the next state of (current state, a).
+func (e *FiniteEnv) Step(a int, rng *rand.Rand) (next int, terminal, truncated bool) {
+	nx, p := e.M.Next(e.s, a)
+	if len(nx) == 1 {
+		next = nx[0]
+	} else {
+		next = nx[sampleIndex(rng, p)]
+	}
+	e.s = next
+	e.t++
+	terminal = e.M.Terminal(next)
+	truncated = !terminal && e.MaxSteps > 0 && e.t >= e.MaxSteps
+	return next, terminal, truncated
+}
+
+// sampleIndex draws i with probability p[i]; a distribution with a single
+// entry draws nothing.
+func sampleIndex(rng *rand.Rand, p []float64) int {
+	if len(p) == 1 {
+		return 0
+	}
+	u := rng.Float64()
+	var c float64
+	for i, v := range p {
+		c += v
+		if u < c {
+			return i
+		}
+	}
+	for i := len(p) - 1; i >= 0; i-- {
+		if p[i] > 0 {
+			return i
+		}
+	}
+	return len(p) - 1
+}
+
+// WithStart returns a copy of m with another start distribution (for
+// example uniform over all non-terminal states, for reward-free
+// exploration that drops the agent anywhere).
+func WithStart(m *mdp.Finite, start []float64) (*mdp.Finite, error) {
+	n, na := m.NumStates(), m.NumActions()
+	var tr []mdp.Transition
+	term := make([]bool, n)
+	for s := range n {
+		term[s] = m.Terminal(s)
+		if term[s] {
+			continue
+		}
+		for a := range na {
+			nx, p := m.Next(s, a)
+			for k, j := range nx {
+				tr = append(tr, mdp.Transition{State: s, Action: a, Next: j, Prob: p[k]})
+			}
+		}
+	}
+	out, err := mdp.New(n, na, tr, term, start)
+	if err != nil {
+		return nil, fmt.Errorf("transfer: with start: %w", err)
+	}
+	return out, nil
+}
+
+// UniformStart returns the start distribution uniform over m's
+// non-terminal states.
+func UniformStart(m *mdp.Finite) []float64 {
+	st := make([]float64, m.NumStates())
+	var k int
+	for s := range st {
+		if !m.Terminal(s) {
+			k++
+		}
+	}
+	for s := range st {
+		if !m.Terminal(s) {
+			st[s] = 1 / float64(k)
+		}
+	}
+	return st
+}

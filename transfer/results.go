@@ -1,0 +1,85 @@
+package transfer
+
+import (
+	"bytes"
+	"encoding/csv"
+	"encoding/json"
+	"fmt"
+	"os"
+	"path/filepath"
+	"runtime"
+	"strconv"
+
+	"github.com/successor-go/successor"
+)
+
+// Report is the content of results.json: the library and Go versions, the
+// seeds, the full configuration and every figure.
+type Report struct {
+	Library string      `json:"library_version"`
+	Go      string      `json:"go_version"`
+	Seeds   []uint64    `json:"seeds"`
+	Config  *Experiment `json:"config"`
+	Results *Results    `json:"results"`
+	// Notes carries free-form remarks of the program that ran the
+	// experiment (for example what is invented data).
+	Notes []string `json:"notes,omitempty"`
+}
+
+// NewReport returns the report of an experiment and its results, stamped
+// with successor.Version and runtime.Version().
+func NewReport(e *Experiment, r *Results, notes ...string) *Report {
+	return &Report{Library: successor.Version, Go: runtime.Version(), Seeds: e.Seeds, Config: e, Results: r, Notes: notes}
+}
+
+// WriteJSON writes the report as indented JSON to path atomically.
+func (rep *Report) WriteJSON(path string) error {
+	b, err := json.MarshalIndent(rep, "", "  ")
+	if err != nil {
+		return fmt.Errorf("transfer: results json: %w", err)
+	}
+	return writeAtomic(path, append(b, '\n'))
+}
+
+// WriteCSV writes one line per scored policy (variant, job, budget, seed,
+// normalised return, value, R^2 and residual of the task inference) to path
+// atomically.
+func (rep *Report) WriteCSV(path string) error {
+	var buf bytes.Buffer
+	w := csv.NewWriter(&buf)
+	w.Write([]string{"variant", "job", "budget", "seed", "normalised", "value", "r_squared", "residual"})
+	f := func(v float64) string { return strconv.FormatFloat(v, 'g', -1, 64) }
+	for _, r := range rep.Results.Records {
+		w.Write([]string{r.Variant, r.Job, strconv.Itoa(r.Budget), strconv.FormatUint(r.Seed, 10),
+			f(r.Normalised), f(r.Value), f(r.RSquared), f(r.Residual)})
+	}
+	w.Flush()
+	if err := w.Error(); err != nil {
+		return fmt.Errorf("transfer: results csv: %w", err)
+	}
+	return writeAtomic(path, buf.Bytes())
+}
+
+// writeAtomic writes data to a temporary file in path's folder, syncs it
+// and renames it over path.
+func writeAtomic(path string, data []byte) error {
+	f, err := os.CreateTemp(filepath.Dir(path), filepath.Base(path)+".tmp*")
+	if err != nil {
+		return fmt.Errorf("transfer: write %s: %w", path, err)
+	}
+	tmp := f.Name()
+	if _, err = f.Write(data); err == nil {
+		err = f.Sync()
+	}
+	if cerr := f.Close(); err == nil {
+		err = cerr
+	}
+	if err == nil {
+		err = os.Rename(tmp, path)
+	}
+	if err != nil {
+		os.Remove(tmp)
+		return fmt.Errorf("transfer: write %s: %w", path, err)
+	}
+	return nil
+}
