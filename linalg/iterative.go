@@ -147,6 +147,7 @@ type IterSolver struct {
 	r, rhat, pv, q, v, phat, shat []float64
 
 	alpha, beta, omega  float64
+	fuseDir             bool // kOp1 first sets opSrc = w r + beta opSrc (CG)
 	opDst, opSrc, opDot []float64
 
 	// parallel team
@@ -447,6 +448,8 @@ func (s *IterSolver) op(dst, src, dot []float64) (float64, float64) {
 // cg runs conjugate gradients on K y = bh with weights w from the current y
 // (zero unless warm). It returns false on a breakdown or at maxIter.
 func (s *IterSolver) cg(res *IterResult, target float64, maxIter int, warm bool) bool {
+	s.fuseDir = false
+	defer func() { s.fuseDir = false }()
 	if warm {
 		s.op(s.q, s.x, s.q)
 	} else {
@@ -463,6 +466,7 @@ func (s *IterSolver) cg(res *IterResult, target float64, maxIter int, warm bool)
 	for res.Iterations < maxIter {
 		res.Iterations++
 		pq, _ := s.op(s.q, s.pv, s.pv)
+		s.fuseDir = false
 		if !(pq > 0) {
 			return false
 		}
@@ -477,7 +481,11 @@ func (s *IterSolver) cg(res *IterResult, target float64, maxIter int, warm bool)
 		}
 		s.beta = rzNew / rz
 		rz = rzNew
-		s.run(kCGDir)
+		if s.sgs {
+			s.fuseDir = true // done by the next product's first sweep
+		} else {
+			s.run(kCGDir)
+		}
 	}
 	return false
 }
@@ -570,6 +578,9 @@ func (s *IterSolver) kernel(k, w int) (o [4]float64) {
 	case kOp1:
 		// t = (D + U_b)^-1 src, backward over the block.
 		t, src, dinv := s.t[:hi], s.opSrc[:hi], s.dinv[:hi]
+		// With fuseDir, the CG direction src = w r + beta src is formed
+		// row by row on the way (the sweeps read only row i of src).
+		fuse, wt, r, beta := s.fuseDir, s.w[:hi], s.r[:hi], s.beta
 		for i := hi - 1; i >= lo; i-- {
 			a, e := ptr[i]+int(s.dpos[i]), ptr[i+1]
 			if a < e && ind[a] == i {
@@ -583,7 +594,12 @@ func (s *IterSolver) kernel(k, w int) (o [4]float64) {
 					sum += val[k] * t[j]
 				}
 			}
-			t[i] = (src[i] + g*sum) * dinv[i]
+			si := src[i]
+			if fuse {
+				si = wt[i]*r[i] + beta*si
+				src[i] = si
+			}
+			t[i] = (si + g*sum) * dinv[i]
 		}
 	case kOp2:
 		dst, src, dot := s.opDst[:hi], s.opSrc, s.opDot[:hi]
