@@ -98,8 +98,8 @@ func Fundamental(dst *mat.Dense, q mat.Matrix) error {
 // Solution of Markov Chains, §2.7), which uses no subtraction and is
 // accurate to a small multiple of machine epsilon in every component. GTH is
 // Gaussian elimination without pivoting, so it keeps the band of p: it costs
-// O(n kl ku) time for bandwidths kl, ku (O(n^3) for a dense p) and O(n^2)
-// memory.
+// O(n kl ku) time and O(n (kl + ku)) memory for bandwidths kl, ku (O(n^3)
+// and O(n^2) for a dense p).
 //
 // Errors wrap ErrDimension, ErrNonFinite, ErrNotStochastic (as a
 // *RowSumError) or ErrReducible (the error names a state that state 0 cannot
@@ -132,18 +132,38 @@ func Stationary(dst *mat.VecDense, p mat.Matrix) error {
 	if err != nil {
 		return fmt.Errorf("linalg: stationary: %w", err)
 	}
-	// Dense copy; loops below stay inside the band, which GTH preserves.
-	a := make([]float64, n*n)
+	// Band copy (entry (i, j) at i*w + j - i + kl), or a dense copy when
+	// the band is nearly full; GTH never leaves the band.
+	w, off := kl+ku+1, kl
+	if w >= n {
+		w = n
+	}
+	idx := func(i, j int) int {
+		if w == n {
+			return i*n + j
+		}
+		return i*w + j - i + off
+	}
+	a := make([]float64, n*w)
 	for i := 0; i < n; i++ {
 		lo, hi := max(0, i-kl), min(n-1, i+ku)
+		if sp, ok := p.(*CSR); ok {
+			ind, val := sp.Row(i)
+			for k, j := range ind {
+				if val[k] != 0 { // explicit zeros may lie outside the band
+					a[idx(i, j)] = val[k]
+				}
+			}
+			continue
+		}
 		for j := lo; j <= hi; j++ {
-			a[i*n+j] = p.At(i, j)
+			a[idx(i, j)] = p.At(i, j)
 		}
 	}
 	for k := n - 1; k >= 1; k-- {
 		jlo := max(0, k-kl)
 		ilo := max(0, k-ku)
-		rowk := a[k*n+jlo : k*n+k]
+		rowk := a[idx(k, jlo):idx(k, k)]
 		var s float64
 		for _, v := range rowk {
 			s += v
@@ -153,13 +173,14 @@ func Stationary(dst *mat.VecDense, p mat.Matrix) error {
 			return fmt.Errorf("linalg: stationary: state %d isolated during reduction: %w", k, ErrSingular)
 		}
 		for i := ilo; i < k; i++ {
-			aik := a[i*n+k]
+			ik := idx(i, k)
+			aik := a[ik]
 			if aik == 0 {
 				continue
 			}
 			aik /= s
-			a[i*n+k] = aik
-			rowi := a[i*n+jlo : i*n+k]
+			a[ik] = aik
+			rowi := a[idx(i, jlo) : idx(i, jlo)+len(rowk)]
 			for j, v := range rowk {
 				rowi[j] += aik * v
 			}
@@ -174,7 +195,7 @@ func Stationary(dst *mat.VecDense, p mat.Matrix) error {
 	for k := 1; k < n; k++ {
 		var s float64
 		for i := max(0, k-ku); i < k; i++ {
-			s += pi[i] * a[i*n+k]
+			s += pi[i] * a[idx(i, k)]
 		}
 		pi[k] = s
 		total += s

@@ -236,3 +236,39 @@ func TestStationaryErrors(t *testing.T) {
 		}
 	}
 }
+
+// TestExplicitZerosOutsideBand: explicit zeros stored in a CSR do not count
+// for the band; the walk on a 1 x 40 line is doubly stochastic, so its
+// stationary vector is uniform (derived by hand: 1^T P = 1^T).
+func TestExplicitZerosOutsideBand(t *testing.T) {
+	line := linalg.GridWalk(1, 40)
+	var tr []linalg.Triplet
+	for i := 0; i < 40; i++ {
+		ind, val := line.Row(i)
+		for k, j := range ind {
+			tr = append(tr, linalg.Triplet{Row: i, Col: j, Val: val[k]})
+		}
+	}
+	tr = append(tr, linalg.Triplet{Row: 0, Col: 30, Val: 0}, linalg.Triplet{Row: 35, Col: 2, Val: 0})
+	p, err := linalg.CSRFromTriplets(40, 40, tr)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var pi mat.VecDense
+	if err := linalg.Stationary(&pi, p); err != nil {
+		t.Fatal(err)
+	}
+	for i := 0; i < 40; i++ {
+		if math.Abs(pi.AtVec(i)-1.0/40) > tolExact {
+			t.Fatalf("pi[%d] = %v, want 1/40", i, pi.AtVec(i))
+		}
+	}
+	b := randDense(40, 2, rand.New(rand.NewPCG(1, 1)))
+	var x mat.Dense
+	if err := linalg.SolveSuccessor(&x, p, 0.9, b); err != nil {
+		t.Fatal(err)
+	}
+	if d := maxRelDiff(&x, gonumSolve(line, 0.9, b)); d > tolSolve {
+		t.Errorf("solve differs from gonum LU by %.3g", d)
+	}
+}

@@ -46,7 +46,7 @@
 // check, O(n + nnz), that every transient state reaches a leaking row.
 // Stationary checks irreducibility by two graph searches and uses the GTH
 // state-reduction algorithm (Grassmann, Taksar & Heyman 1985), which keeps
-// the band: O(n kl ku) time, O(n^2) memory.
+// the band: O(n kl ku) time, O(n (kl + ku)) memory.
 //
 // The iterative solver uses conjugate gradients when P is symmetric and
 // BiCGSTAB otherwise, preconditioned by symmetric Gauss-Seidel through
@@ -60,7 +60,7 @@
 // recomputed from x, within MaxIter iterations (default 10000); otherwise it
 // returns a *NotConvergedError with the residual it reached. On the random
 // walk of a 1000 x 1000 grid (10^6 states) with gamma = 0.99 and Tol = 1e-6
-// it needs about 35-40 iterations and 52 MB of workspace (7 float64 vectors
+// it needs about 35-40 iterations and 52 MB of workspace (6 float64 vectors
 // and one int32 vector of length n; BiCGSTAB needs 4 more float64 vectors).
 //
 // Ridge uses Householder QR of the augmented matrix [X; sqrt(lambda) I],
