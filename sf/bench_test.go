@@ -69,9 +69,11 @@ func BenchmarkTD(b *testing.B) {
 			})
 		}
 	}
-	b.Run("sampled/d=64/decaying", func(b *testing.B) {
-		benchTD(b, ns, na, 64, Sampled, StepSize{Power: 0.7})
-	})
+	for _, p := range []float64{0.75, 0.7} { // fast path, exp/log path
+		b.Run(fmt.Sprintf("sampled/d=64/power=%v", p), func(b *testing.B) {
+			benchTD(b, ns, na, 64, Sampled, StepSize{Power: p})
+		})
+	}
 }
 
 func benchTD(b *testing.B, ns, na, d int, target Target, step StepSize) {

@@ -37,6 +37,7 @@ type DivergenceError struct {
 	Action  int    // action of the updated pair
 }
 
+// Error returns the message, naming the learner, update and pair.
 func (e *DivergenceError) Error() string {
 	return fmt.Sprintf("sf: %s: non-finite value at update %d (state %d, action %d): %v",
 		e.Learner, e.Step, e.State, e.Action, ErrDiverged)

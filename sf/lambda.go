@@ -16,6 +16,7 @@ const (
 	Replacing
 )
 
+// String returns the name of the trace kind.
 func (t Trace) String() string {
 	switch t {
 	case Accumulating:

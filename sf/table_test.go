@@ -70,3 +70,15 @@ func TestTable(t *testing.T) {
 		tb.Psi(make([]float64, 5), 0)
 	}()
 }
+
+// source is the GPI source contract (defined by package gpi, which imports
+// sf): both the table and the linear adapter must satisfy it.
+type source interface {
+	Shape() (actions, dim int)
+	Psi(dst []float64, s int)
+}
+
+var (
+	_ source = (*Table)(nil)
+	_ source = (*LinearSource)(nil)
+)

@@ -30,6 +30,7 @@ const (
 	Greedy
 )
 
+// String returns the name of the target.
 func (t Target) String() string {
 	switch t {
 	case Sampled:
