@@ -166,3 +166,30 @@ func FuzzTableRoundTrip(f *testing.F) {
 		}
 	})
 }
+
+// FuzzLoadLinear checks the Linear loader as FuzzLoadTable does the table's.
+func FuzzLoadLinear(f *testing.F) {
+	lin, _ := NewLinear(2, 2, 3)
+	for i := range lin.W {
+		lin.W[i] = float64(i) - 5.5
+	}
+	b, _ := lin.MarshalBinary()
+	f.Add(b)
+	f.Add(b[:len(b)-1])
+	f.Fuzz(func(t *testing.T, data []byte) {
+		var l Linear
+		if err := l.UnmarshalBinary(data); err != nil {
+			if !errors.Is(err, ErrCorrupt) {
+				t.Fatalf("error %v does not wrap ErrCorrupt", err)
+			}
+			return
+		}
+		out, err := l.MarshalBinary()
+		if err != nil {
+			t.Fatal(err)
+		}
+		if !bytes.Equal(out, data) {
+			t.Fatal("accepted input does not re-encode to the same bytes")
+		}
+	})
+}

@@ -154,6 +154,28 @@ func TestTDGreedy(t *testing.T) {
 		if d > 0.02*sc {
 			t.Errorf("seed %d: max |psi.w - Q*| = %.4f > 0.02 * %.3f", seed, d, sc)
 		}
+		// Where the optimal action is unique by a clear margin (gap of
+		// Q* above 0.05 of its scale at every state), psi itself must be
+		// the exact SFs of the optimal policy.
+		gap := math.Inf(1)
+		for s := 0; s < 6; s++ {
+			if !m.Terminal(s) {
+				gap = min(gap, math.Abs(opt.Q[2*s]-opt.Q[2*s+1]))
+			}
+		}
+		if gap < 0.05*sc {
+			t.Logf("seed %d: optimal actions within %.3f; psi not compared", seed, gap)
+			continue
+		}
+		ex, err := Exact(m, opt.Policy, phi, gamma)
+		if err != nil {
+			t.Fatal(err)
+		}
+		d, sc = tableError(m, tb, ex)
+		t.Logf("seed %d: max |psi - psi*| = %.4f of largest entry %.3f", seed, d, sc)
+		if d > 0.02*sc {
+			t.Errorf("seed %d: max |psi - psi*| = %.4f > 0.02 * %.3f", seed, d, sc)
+		}
 	}
 }
 
