@@ -18,6 +18,7 @@
 package main
 
 import (
+	"errors"
 	"flag"
 	"fmt"
 	"io"
@@ -34,9 +35,10 @@ import (
 
 func main() {
 	if err := run(os.Args[1:], os.Stdout, os.Stderr); err != nil {
-		if err != flag.ErrHelp {
-			fmt.Fprintln(os.Stderr, "chain:", err)
+		if errors.Is(err, flag.ErrHelp) {
+			return // usage printed
 		}
+		fmt.Fprintln(os.Stderr, "chain:", err)
 		os.Exit(2)
 	}
 }
@@ -52,6 +54,10 @@ type config struct {
 func parse(args []string, stderr io.Writer) (*config, error) {
 	fs := flag.NewFlagSet("chain", flag.ContinueOnError)
 	fs.SetOutput(stderr)
+	fs.Usage = func() {
+		fmt.Fprintln(stderr, "usage: chain [flags]\n\nLearns the successor features of the Sutton & Barto Example 6.2 random walk by TD(0)\nand prints the largest error against the exact SFs for growing budgets.\n\nFlags:")
+		fs.PrintDefaults()
+	}
 	seed := fs.Uint64("seed", 1, "seed of the transition stream")
 	budgets := fs.String("budgets", "1000,10000,100000,1000000", "comma-separated increasing numbers of transitions at which to report")
 	target := fs.String("target", "sampled", "TD target: sampled (next action taken) or expected (average over the policy)")
