@@ -309,16 +309,21 @@ func (l *TD) Update(s, a, next int, terminal bool, nextAction int) error {
 		om, h := l.om, l.h
 		var s0, s1 float64
 		k := 0
-		for ; k <= d-4; k += 4 {
-			c := cur[k : k+4 : k+4]
-			x := nxt[k : k+4 : k+4]
+		for ; k <= d-8; k += 8 {
+			c := cur[k : k+8 : k+8]
+			x := nxt[k : k+8 : k+8]
 			v0 := om * (c[0] + h*x[0])
 			v1 := om * (c[1] + h*x[1])
 			v2 := om * (c[2] + h*x[2])
 			v3 := om * (c[3] + h*x[3])
+			v4 := om * (c[4] + h*x[4])
+			v5 := om * (c[5] + h*x[5])
+			v6 := om * (c[6] + h*x[6])
+			v7 := om * (c[7] + h*x[7])
 			c[0], c[1], c[2], c[3] = v0, v1, v2, v3
-			s0 += v0 + v1
-			s1 += v2 + v3
+			c[4], c[5], c[6], c[7] = v4, v5, v6, v7
+			s0 += (v0 + v1) + (v2 + v3)
+			s1 += (v4 + v5) + (v6 + v7)
 		}
 		for ; k < d; k++ {
 			v := om * (cur[k] + h*nxt[k])
