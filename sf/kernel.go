@@ -145,3 +145,48 @@ func axpy(y, x []float64, a float64) {
 		y[k] += a * x[k]
 	}
 }
+
+// kernelExpectedHot sets cur = om*(cur + h*t), h = ag/om, for the mixture
+// t = sum_a p[a] base[a*d : (a+1)*d] of the next state's rows (actions with
+// p[a] = 0 skipped), in one pass, and returns the sum of the new row. It
+// agrees bit for bit with TD.mixture followed by kernelHot. om must not be
+// 0. cur may be one of the rows of base.
+func kernelExpectedHot(cur, base, p []float64, om, ag float64) float64 {
+	d := len(cur)
+	h := ag / om
+	var s0, s1 float64
+	k := 0
+	for ; k <= d-4; k += 4 {
+		var t0, t1, t2, t3 float64
+		for a, q := range p {
+			if q == 0 {
+				continue
+			}
+			r := base[a*d+k : a*d+k+4 : a*d+k+4]
+			t0 += q * r[0]
+			t1 += q * r[1]
+			t2 += q * r[2]
+			t3 += q * r[3]
+		}
+		c := cur[k : k+4 : k+4]
+		v0 := om * (c[0] + h*t0)
+		v1 := om * (c[1] + h*t1)
+		v2 := om * (c[2] + h*t2)
+		v3 := om * (c[3] + h*t3)
+		c[0], c[1], c[2], c[3] = v0, v1, v2, v3
+		s0 += v0 + v1
+		s1 += v2 + v3
+	}
+	for ; k < d; k++ {
+		var t0 float64
+		for a, q := range p {
+			if q != 0 {
+				t0 += q * base[a*d+k]
+			}
+		}
+		v := om * (cur[k] + h*t0)
+		cur[k] = v
+		s0 += v
+	}
+	return s0 + s1
+}

@@ -416,6 +416,14 @@ func (l *TD) update(s, a, next int, terminal bool, nextAction int, f []float64, 
 			k := (next*t.A + nextAction) * d
 			nxt = t.Data[k : k+d : k+d]
 		case Expected:
+			if f == nil && alpha < 1 {
+				// One pass: mix the next rows and update together.
+				na := t.A
+				base := t.Data[next*na*d : (next+1)*na*d]
+				p := l.probs[next*na : (next+1)*na]
+				sum := kernelExpectedHot(cur, base, p, 1-alpha, alpha*l.gamma)
+				return l.finish(cur, sum, alpha, s, a, i, vi, j, vj)
+			}
 			nxt = l.mixture(next)
 		case Greedy:
 			k := next * t.A * d
@@ -436,6 +444,12 @@ func (l *TD) update(s, a, next int, terminal bool, nextAction int, f []float64, 
 	default:
 		sum = kernelTerminal(cur, f, om, alpha)
 	}
+	return l.finish(cur, sum, alpha, s, a, i, vi, j, vj)
+}
+
+// finish adds the sparse features to the updated row, counts the update
+// and checks the row for divergence.
+func (l *TD) finish(cur []float64, sum, alpha float64, s, a, i int, vi float64, j int, vj float64) error {
 	if i >= 0 {
 		cur[i] += alpha * vi
 		sum += cur[i]
