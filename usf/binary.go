@@ -103,11 +103,36 @@ func (d *decoder) u64() uint64 {
 }
 func (d *decoder) int() int {
 	v := int64(d.u64())
-	if v < math.MinInt32 || v > math.MaxInt32 {
+	if v < math.MinInt || v > math.MaxInt {
 		d.bad = true
 		return 0
 	}
 	return int(v)
+}
+
+// size reads a dimension in [lo, maxFloats].
+func (d *decoder) size(lo int) int {
+	v := d.int()
+	if v < lo || v > maxFloats {
+		d.bad = true
+		return lo
+	}
+	return v
+}
+
+// fits reports whether the product of dims is at most maxFloats.
+func fits(dims ...int) bool {
+	p := uint64(1)
+	for _, v := range dims {
+		if v < 0 {
+			return false
+		}
+		p *= uint64(v)
+		if p > maxFloats {
+			return false
+		}
+	}
+	return true
 }
 func (d *decoder) f64() float64 { return math.Float64frombits(d.u64()) }
 
@@ -216,10 +241,10 @@ func (t *Tabular) UnmarshalBinary(data []byte) error {
 	if err != nil {
 		return err
 	}
-	ns, na, d, nz := dec.int(), dec.int(), dec.int(), dec.int()
+	ns, na, d, nz := dec.size(1), dec.size(1), dec.size(1), dec.size(1)
 	gamma, alpha, power := dec.f64(), dec.f64(), dec.f64()
 	steps := dec.int()
-	if dec.bad || ns <= 0 || na <= 0 || d <= 0 || nz <= 0 || nz > maxFloats || steps < 0 {
+	if dec.bad || !fits(ns, na, d) || !fits(nz, d) || steps < 0 {
 		return corrupt(what, "bad sizes")
 	}
 	if !(gamma >= 0 && gamma <= 1) || !(alpha >= 0 && alpha <= 1) || !(power >= 0 && power <= 1) {
@@ -286,18 +311,18 @@ func (l *Linear) UnmarshalBinary(data []byte) error {
 	if err != nil {
 		return err
 	}
-	obs, na, d, aff := dec.int(), dec.int(), dec.int(), dec.int()
+	obs, na, d, aff := dec.size(1), dec.size(1), dec.size(1), dec.int()
 	gamma, alpha := dec.f64(), dec.f64()
 	steps := dec.int()
 	w := dec.floats()
 	if err := dec.done(what); err != nil {
 		return err
 	}
-	if aff != 0 && aff != 1 || steps < 0 || obs <= 0 || na <= 0 || d <= 0 {
+	if aff != 0 && aff != 1 || steps < 0 {
 		return corrupt(what, "bad header")
 	}
 	e := d + aff
-	if uint64(obs)*uint64(na)*uint64(d)*uint64(e) != uint64(len(w)) {
+	if !fits(obs, na, d, e) || obs*na*d*e != len(w) {
 		return corrupt(what, "weights do not match the shape")
 	}
 	n, err := NewLinear(obs, na, d, gamma, &LinearConfig{Affine: aff == 1})
@@ -345,7 +370,7 @@ func (u *Neural) UnmarshalBinary(data []byte) error {
 		return err
 	}
 	n := &Neural{}
-	n.obs, n.na, n.d = dec.int(), dec.int(), dec.int()
+	n.obs, n.na, n.d = dec.size(1), dec.size(1), dec.size(1)
 	n.gamma, n.clip = dec.f64(), dec.f64()
 	n.targetEvery = dec.int()
 	n.tau = dec.f64()
@@ -411,9 +436,10 @@ func (r *Replay) UnmarshalBinary(data []byte) error {
 	if err != nil {
 		return err
 	}
-	c, obs, d, size, head, added := dec.int(), dec.int(), dec.int(), dec.int(), dec.int(), dec.int()
-	if dec.bad || c <= 0 || obs < 0 || d <= 0 || size < 0 || size > c || head < 0 || head >= c || added < size ||
-		(size < c && head != size) || uint64(c)*uint64(max(obs, d)) > maxFloats {
+	c, obs, d := dec.size(1), dec.size(0), dec.size(1)
+	size, head, added := dec.int(), dec.int(), dec.int()
+	if dec.bad || size < 0 || size > c || head < 0 || head >= c || added < size ||
+		(size < c && head != size) || !fits(c, max(obs, d)) {
 		return corrupt(what, "bad header")
 	}
 	s, a, next, nextA := dec.ints(), dec.ints(), dec.ints(), dec.ints()

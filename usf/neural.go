@@ -143,6 +143,18 @@ func (u *Neural) Updates() int { return u.updates }
 // NumParams returns the number of network parameters.
 func (u *Neural) NumParams() int { return u.net.NumParams() }
 
+// LR returns the current Adam step size.
+func (u *Neural) LR() float64 { return u.opt.LR }
+
+// SetLR sets the Adam step size, for annealing it between updates. It
+// panics unless lr > 0 and finite.
+func (u *Neural) SetLR(lr float64) {
+	if !(lr > 0) || math.IsInf(lr, 0) {
+		panic("usf: neural: step size must be positive and finite")
+	}
+	u.opt.LR = lr
+}
+
 // Err returns the divergence error of an earlier update, or nil.
 func (u *Neural) Err() error { return u.err }
 

@@ -1,0 +1,247 @@
+package usf
+
+import (
+	"bytes"
+	"errors"
+	"math/rand/v2"
+	"testing"
+
+	"github.com/successor-go/successor/sf"
+)
+
+// run is a small training loop with everything a checkpoint must hold: a
+// neural USF, a replay, and the PCG state of the one rng that drives the
+// environment, z draws and minibatch sampling.
+type run struct {
+	p   problem
+	sp  *sampler
+	pcg *rand.PCG
+	rng *rand.Rand
+	u   *Neural
+	r   *Replay
+	tr  *Batch // one fresh transition per step
+	b   *Batch
+}
+
+func newRun(t testing.TB) *run {
+	p := randomProblem(t, 12, 8, 3, 3, 0.25)
+	pcg := rand.NewPCG(12, 34)
+	rng := rand.New(pcg)
+	u, err := NewNeural(8, 3, 3, p.gamma, &NeuralConfig{Hidden: []int{16, 16}, MaxBatch: 16, TargetEvery: 7}, rng)
+	if err != nil {
+		t.Fatal(err)
+	}
+	r, err := NewReplay(40, 8, 3) // small: the ring wraps during the test
+	if err != nil {
+		t.Fatal(err)
+	}
+	return &run{p: p, sp: newSampler(p, unitVectors(rng, 5, 3)), pcg: pcg, rng: rng, u: u, r: r,
+		tr: NewBatch(1, 8, 3), b: NewBatch(16, 8, 3)}
+}
+
+// steps adds one sampled transition and makes one update, k times.
+func (x *run) steps(t testing.TB, k int) {
+	for range k {
+		x.sp.fill(x.tr, x.rng)
+		x.r.Add(&Transition{S: x.tr.S[0], A: x.tr.A[0], Next: x.tr.Next[0], NextA: -1, Terminal: x.tr.Terminal[0],
+			X: x.tr.X, NextX: x.tr.NextX, Phi: x.tr.Phi, Z: x.tr.Z})
+		x.r.Sample(x.b, x.rng)
+		if _, err := x.u.Update(x.b); err != nil {
+			t.Fatal(err)
+		}
+	}
+}
+
+func mustMarshal(t testing.TB, m interface{ MarshalBinary() ([]byte, error) }) []byte {
+	t.Helper()
+	b, err := m.MarshalBinary()
+	if err != nil {
+		t.Fatal(err)
+	}
+	return b
+}
+
+// TestResumeBitExact trains N steps, saves the network (online, target,
+// Adam moments), the replay and the rng state, loads them into fresh
+// values, trains N more, and compares every saved byte with 2N steps
+// uninterrupted.
+func TestResumeBitExact(t *testing.T) {
+	const n = 60
+	a := newRun(t)
+	a.steps(t, 2*n)
+
+	b := newRun(t)
+	b.steps(t, n)
+	nb, rb, pb := mustMarshal(t, b.u), mustMarshal(t, b.r), mustMarshal(t, b.pcg)
+
+	c := newRun(t) // fresh values, then overwritten by the loaded state
+	if err := c.u.UnmarshalBinary(nb); err != nil {
+		t.Fatal(err)
+	}
+	if err := c.r.UnmarshalBinary(rb); err != nil {
+		t.Fatal(err)
+	}
+	if err := c.pcg.UnmarshalBinary(pb); err != nil {
+		t.Fatal(err)
+	}
+	c.steps(t, n)
+
+	if !bytes.Equal(mustMarshal(t, a.u), mustMarshal(t, c.u)) {
+		t.Error("network, target or optimiser state differs after resuming")
+	}
+	if !bytes.Equal(mustMarshal(t, a.r), mustMarshal(t, c.r)) {
+		t.Error("replay differs after resuming")
+	}
+	if !bytes.Equal(mustMarshal(t, a.pcg), mustMarshal(t, c.pcg)) {
+		t.Error("rng state differs after resuming")
+	}
+	if a.u.Updates() != 2*n || a.r.Added() != 2*n || a.r.Len() != 40 {
+		t.Errorf("counts: %d updates, %d added, %d stored", a.u.Updates(), a.r.Added(), a.r.Len())
+	}
+	// The target network is part of the state: with TargetEvery 7 and 120
+	// updates the last copy was at 119, so target and online differ now
+	// only by one Adam step; both must match the uninterrupted run.
+	x := make([]float64, 8)
+	x[2] = 1
+	z := []float64{0.6, 0, 0.8}
+	p1, p2 := make([]float64, 9), make([]float64, 9)
+	a.u.PsiTarget(p1, x, z)
+	c.u.PsiTarget(p2, x, z)
+	for i := range p1 {
+		if p1[i] != p2[i] {
+			t.Fatal("target networks differ")
+		}
+	}
+}
+
+// TestTabularLinearRoundTrip saves and loads trained tabular and linear
+// USFs and checks bytes and continued training agree bit for bit.
+func TestTabularLinearRoundTrip(t *testing.T) {
+	p := randomProblem(t, 13, 6, 2, 2, 0.2)
+	rng := rand.New(rand.NewPCG(13, 13))
+	zs := unitVectors(rng, 3, 2)
+	tab, _ := NewTabular(6, 2, zs, p.gamma, &TabularConfig{Step: sf.StepSize{Alpha: 0.5, Power: 0.6}})
+	lin, _ := NewLinear(6, 2, 2, p.gamma, &LinearConfig{Alpha: 0.3, Affine: true})
+	sp := newSampler(p, zs)
+	b := NewBatch(8, 0, 2)
+	for range 30 {
+		sp.fill(b, rng)
+		tab.Update(b)
+		lin.Update(b)
+	}
+	var tab2 Tabular
+	var lin2 Linear
+	if err := tab2.UnmarshalBinary(mustMarshal(t, tab)); err != nil {
+		t.Fatal(err)
+	}
+	if err := lin2.UnmarshalBinary(mustMarshal(t, lin)); err != nil {
+		t.Fatal(err)
+	}
+	for range 30 {
+		sp.fill(b, rng)
+		tab.Update(b)
+		lin.Update(b)
+		tab2.Update(b)
+		lin2.Update(b)
+	}
+	if !bytes.Equal(mustMarshal(t, tab), mustMarshal(t, &tab2)) {
+		t.Error("tabular differs after round trip")
+	}
+	if !bytes.Equal(mustMarshal(t, lin), mustMarshal(t, &lin2)) {
+		t.Error("linear differs after round trip")
+	}
+}
+
+func TestLoadCorrupt(t *testing.T) {
+	x := newRun(t)
+	x.steps(t, 5)
+	lin, _ := NewLinear(3, 2, 2, 0.9, nil)
+	tab, _ := NewTabular(3, 2, [][]float64{{1, 0}}, 0.9, nil)
+	type loader interface{ UnmarshalBinary([]byte) error }
+	for _, tc := range []struct {
+		name string
+		good []byte
+		fresh func() loader
+	}{
+		{"neural", mustMarshal(t, x.u), func() loader { return new(Neural) }},
+		{"replay", mustMarshal(t, x.r), func() loader { return new(Replay) }},
+		{"linear", mustMarshal(t, lin), func() loader { return new(Linear) }},
+		{"tabular", mustMarshal(t, tab), func() loader { return new(Tabular) }},
+	} {
+		if err := tc.fresh().UnmarshalBinary(tc.good); err != nil {
+			t.Errorf("%s: good data: %v", tc.name, err)
+		}
+		for _, bad := range [][]byte{nil, tc.good[:8], tc.good[:len(tc.good)-1], flipByte(tc.good, 0), flipByte(tc.good, 13), flipByte(tc.good, len(tc.good)/2), flipByte(tc.good, len(tc.good)-2)} {
+			if err := tc.fresh().UnmarshalBinary(bad); !errors.Is(err, ErrCorrupt) {
+				t.Errorf("%s: corrupt data accepted or wrong error: %v", tc.name, err)
+			}
+		}
+	}
+	// A loader leaves its receiver unchanged on error.
+	before := mustMarshal(t, x.u)
+	if err := x.u.UnmarshalBinary(flipByte(before, 40)); err == nil {
+		t.Fatal("corrupt neural accepted")
+	}
+	if !bytes.Equal(before, mustMarshal(t, x.u)) {
+		t.Error("failed load changed the receiver")
+	}
+}
+
+func flipByte(b []byte, i int) []byte {
+	c := bytes.Clone(b)
+	c[i] ^= 0x10
+	return c
+}
+
+// fuzzRoundTrip checks that a loader never panics, that every error wraps
+// ErrCorrupt, and that accepted bytes marshal back to themselves.
+func fuzzRoundTrip[T any, P interface {
+	*T
+	UnmarshalBinary([]byte) error
+	MarshalBinary() ([]byte, error)
+}](t *testing.T, data []byte) {
+	v := P(new(T))
+	if err := v.UnmarshalBinary(data); err != nil {
+		if !errors.Is(err, ErrCorrupt) {
+			t.Fatalf("error %v does not wrap ErrCorrupt", err)
+		}
+		return
+	}
+	out, err := v.MarshalBinary()
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !bytes.Equal(out, data) {
+		t.Fatal("accepted bytes do not round-trip")
+	}
+}
+
+func FuzzLoadNeural(f *testing.F) {
+	x := newRun(f)
+	x.steps(f, 3)
+	f.Add(mustMarshal(f, x.u))
+	f.Add([]byte(neuralMagic))
+	f.Fuzz(fuzzRoundTrip[Neural])
+}
+
+func FuzzLoadReplay(f *testing.F) {
+	x := newRun(f)
+	x.steps(f, 3)
+	f.Add(mustMarshal(f, x.r))
+	f.Add([]byte(replayMagic))
+	f.Fuzz(fuzzRoundTrip[Replay])
+}
+
+func FuzzLoadLinear(f *testing.F) {
+	lin, _ := NewLinear(3, 2, 2, 0.9, &LinearConfig{Affine: true})
+	lin.W[3] = 1.5
+	f.Add(mustMarshal(f, lin))
+	f.Fuzz(fuzzRoundTrip[Linear])
+}
+
+func FuzzLoadTabular(f *testing.F) {
+	tab, _ := NewTabular(3, 2, [][]float64{{1, 0}, {0, 1}}, 0.9, &TabularConfig{Step: sf.StepSize{Power: 0.5}})
+	tab.Tables[1].Data[2] = -2
+	f.Add(mustMarshal(f, tab))
+	f.Fuzz(fuzzRoundTrip[Tabular])
+}
