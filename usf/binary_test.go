@@ -159,8 +159,8 @@ func TestLoadCorrupt(t *testing.T) {
 	tab, _ := NewTabular(3, 2, [][]float64{{1, 0}}, 0.9, nil)
 	type loader interface{ UnmarshalBinary([]byte) error }
 	for _, tc := range []struct {
-		name string
-		good []byte
+		name  string
+		good  []byte
 		fresh func() loader
 	}{
 		{"neural", mustMarshal(t, x.u), func() loader { return new(Neural) }},
