@@ -150,7 +150,8 @@ type TDSettings struct {
 // adds alpha at the one or two hot entries), and for NextState and random
 // features it reads the stored row in place. With such a map, the Sampled
 // target and a constant step below 1, Update makes one pass over the row:
-// about the cost of a row of multiply-adds (see BenchmarkTDRatio).
+// about the cost of a row of multiply-adds (see BenchmarkTDRatio). The
+// Greedy and Expected targets read the A rows of the next state first.
 //
 // Every update sums the new row; a NaN or infinity there stops the learner
 // with a *DivergenceError. A TD learner is not safe for concurrent use.
@@ -227,7 +228,7 @@ func NewTD(t *Table, phi FeatureMap, gamma float64, s *TDSettings) (*TD, error) 
 		l.sparse, _ = phi.(sparseMap)
 		l.rows, _ = phi.(rowMap)
 	}
-	l.fast = l.kind != kindOther && s.Target == Sampled && l.sched.visits == nil && st.Alpha < 1
+	l.fast = l.kind != kindOther && (s.Target == Sampled || s.Target == Greedy) && l.sched.visits == nil && st.Alpha < 1
 	l.alpha, l.om, l.h = st.Alpha, 1-st.Alpha, st.Alpha*gamma/(1-st.Alpha)
 	if l.kind == kindState && t.D != t.S || l.kind == kindStateAction && t.D != t.S*t.A {
 		return nil, fmt.Errorf("sf: td: one-hot map of dimension %d does not match a table of %d states and %d actions: %w", t.D, t.S, t.A, ErrDimension)
@@ -287,12 +288,18 @@ func (l *TD) Err() error { return l.err }
 func (l *TD) Update(s, a, next int, terminal bool, nextAction int) error {
 	t := l.Table
 	if l.fast && !terminal &&
-		uint(s) < uint(t.S) && uint(a) < uint(t.A) && uint(next) < uint(t.S) && uint(nextAction) < uint(t.A) {
-		// Fast path: built-in one- or two-hot features, Sampled target,
-		// constant step alpha < 1. One pass over the row:
+		uint(s) < uint(t.S) && uint(a) < uint(t.A) && uint(next) < uint(t.S) {
+		// Fast path: built-in one- or two-hot features, Sampled or Greedy
+		// target, constant step alpha < 1. One pass over the row:
 		// psi <- (1-alpha) (psi + h psi') (+ alpha at the hot entries), with
 		// h = alpha gamma / (1 - alpha): five operations per entry.
 		d, na := t.D, t.A
+		if l.target == Greedy {
+			k := next * na * d
+			nextAction, _ = greedy(t.Data[k:k+na*d], l.task, na, d)
+		} else if uint(nextAction) >= uint(na) {
+			panic(fmt.Sprintf("sf: td: next action %d out of range [0, %d)", nextAction, na))
+		}
 		i, j := -1, -1
 		switch l.kind {
 		case kindState:
