@@ -190,3 +190,22 @@ func kernelExpectedHot(cur, base, p []float64, om, ag float64) float64 {
 	}
 	return s0 + s1
 }
+
+// dot2 returns (x . y, u . v) in one pass; all four have length len(x).
+func dot2(x, y, u, v []float64) (float64, float64) {
+	n := len(x)
+	y, u, v = y[:n], u[:n], v[:n]
+	var a0, a1, b0, b1 float64
+	k := 0
+	for ; k <= n-2; k += 2 {
+		a0 += x[k] * y[k]
+		b0 += u[k] * v[k]
+		a1 += x[k+1] * y[k+1]
+		b1 += u[k+1] * v[k+1]
+	}
+	for ; k < n; k++ {
+		a0 += x[k] * y[k]
+		b0 += u[k] * v[k]
+	}
+	return a0 + a1, b0 + b1
+}

@@ -241,13 +241,13 @@ func (lt *LinearTD) Update(x []float64, a int, phi, xNext []float64, terminal bo
 	var check float64
 	for k := 0; k < d; k++ {
 		row := wa[k*m : (k+1)*m : (k+1)*m]
-		var next float64
+		var next, now float64
 		if same >= 0 {
-			next = dot(l.W[(same*d+k)*m:(same*d+k+1)*m], xNext)
+			next, now = dot2(l.W[(same*d+k)*m:(same*d+k+1)*m], xNext, row, x)
 		} else {
-			next = tgt[k]
+			next, now = tgt[k], dot(row, x)
 		}
-		delta := phi[k] + lt.gamma*next - dot(row, x)
+		delta := phi[k] + lt.gamma*next - now
 		check += delta
 		axpy(row, x, alpha*delta)
 	}
