@@ -87,11 +87,14 @@ type Inference struct {
 	// Raw is the least-squares solution before normalisation.
 	Raw []float64
 	// Residual is the root-mean-square regression residual
-	// sqrt(mean (r_j - phi_j . Raw)^2) and RSquared the fraction of the
-	// reward variance explained (1 when the reward is exactly linear in
-	// phi; 0 when the fit is no better than a constant; NaN-free: 1 when
-	// all rewards are equal and fitted exactly, 0 otherwise).
+	// sqrt(mean (r_j - phi_j . Raw)^2) and RSquared = 1 - SSE/SST the
+	// fraction of the reward variance explained (1 when the reward is
+	// exactly linear in phi). When all labelled rewards are equal there is
+	// no variance to explain and RSquared is 0.
 	Residual, RSquared float64
+	// Rewarded is the number of labelled transitions with a non-zero
+	// reward.
+	Rewarded int
 }
 
 // InferTask returns the task vector w minimising
@@ -148,11 +151,13 @@ func InferTask(ag *Agent, labelled []Transition, lambda float64) (*Inference, er
 	n := float64(len(labelled))
 	inf := &Inference{Raw: raw, W: append([]float64(nil), raw...), Residual: math.Sqrt(sse / n)}
 	sst := y2 - ysum*ysum/n
-	switch {
-	case sst > 1e-300:
+	if sst > 1e-300 {
 		inf.RSquared = 1 - sse/sst
-	case sse <= 1e-24:
-		inf.RSquared = 1
+	}
+	for _, t := range labelled {
+		if t.Reward != 0 {
+			inf.Rewarded++
+		}
 	}
 	if ag.cfg.Method.Sphere() {
 		nrm := math.Sqrt(dot(raw, raw))
@@ -171,16 +176,18 @@ func InferTask(ag *Agent, labelled []Transition, lambda float64) (*Inference, er
 }
 
 // Policy is the acting policy after adaptation: GPI with the inferred w over
-// a candidate set C of the agent's skills,
+// a candidate set C of task vectors (w itself and skills of the agent),
 //
-//	pi(s) = argmax_a max_{k in C} psi(s, a, z_k) . w,
+//	pi(s) = argmax_a max_{z in C} psi(s, a, z) . w,
 //
 // ties to the first candidate, then the lowest action (gpi.Selector.Act).
 // It is deterministic, precomputed for every state, implements mdp.Policy
 // and is safe for concurrent use.
 type Policy struct {
 	Inference
-	// Candidates are the skill indices of C, most similar to w first.
+	// Fitted reports whether psi(., ., w) itself is the first candidate.
+	Fitted bool
+	// Candidates are the skill indices in C, most similar to w first.
 	Candidates []int
 	// Actions is the action of every state.
 	Actions mdp.Deterministic
@@ -193,14 +200,16 @@ func (p *Policy) Probs(dst []float64, s int) { p.Actions.Probs(dst, s) }
 func (p *Policy) Act(s int) int { return p.Actions[s] }
 
 // Adapt infers the task from the labelled transitions (InferTask with
-// cfg.Ridge) and returns the GPI policy over the cfg.Candidates + 1 skills
-// most similar to w (largest cosine z_k . w / ||z_k||, ties to the lower
-// index). With cfg.Candidates = 0 there is one candidate, the skill
-// nearest to w, and the policy is greedy in psi(s, ., z_k) . w: GPI off.
+// cfg.Ridge) and returns the GPI policy (Agent.Policy) over {w} and the
+// cfg.Candidates skills most similar to w.
 //
-// (The universal SFs are tabulated over the skill set, so psi is known at
-// the skills only; the candidate set "w plus N vectors drawn around w" of
-// a continuous approximator becomes the N + 1 skills nearest to w.)
+// The universal SFs are tabulated over the skill set, so psi(., ., w) is not
+// stored; Adapt fits it the way the set was trained: cfg.Fit TD updates on
+// transitions drawn from the agent's reward-free replay buffer with the
+// intrinsic reward phi(s') . w, starting from the table of the skill nearest
+// to w. This uses no environment step and no reward label. With a negative
+// cfg.Fit the candidate set is the cfg.Candidates + 1 skills nearest to w
+// (GPI over the stored library only).
 func Adapt(ag *Agent, labelled []Transition, cfg AdaptConfig) (*Policy, error) {
 	c, err := cfg.withDefaults()
 	if err != nil {
@@ -210,12 +219,20 @@ func Adapt(ag *Agent, labelled []Transition, cfg AdaptConfig) (*Policy, error) {
 	if err != nil {
 		return nil, err
 	}
-	return ag.Policy(inf, c.Candidates), nil
+	return ag.Policy(inf, cfg)
 }
 
-// Policy returns the GPI policy for an inferred task over the n + 1 skills
-// most similar to inf.W (all skills if n + 1 >= NumSkills).
-func (ag *Agent) Policy(inf *Inference, n int) *Policy {
+// Policy returns the GPI policy for an inferred task. With cfg.Fit > 0
+// (after defaults) the candidates are psi(., ., w) fitted on the replay
+// buffer plus the cfg.Candidates skills most similar to w; otherwise the
+// cfg.Candidates + 1 skills most similar to w. Candidates = 0 switches GPI
+// off. It returns an error wrapping ErrNoData if a fit is asked for and the
+// replay buffer is empty, or ErrDiverged.
+func (ag *Agent) Policy(inf *Inference, cfg AdaptConfig) (*Policy, error) {
+	c, err := cfg.withDefaults()
+	if err != nil {
+		return nil, err
+	}
 	type sim struct {
 		k int
 		c float64
@@ -226,21 +243,87 @@ func (ag *Agent) Policy(inf *Inference, n int) *Policy {
 		sims[k] = sim{k, dot(zk, inf.W) / math.Sqrt(dot(zk, zk))}
 	}
 	slices.SortStableFunc(sims, func(x, y sim) int { return cmp.Compare(y.c, x.c) })
-	m := min(n+1, ag.k)
-	cands := make([]int, m)
-	srcs := make([]gpi.Source, m)
+	var srcs []gpi.Source
+	pol := &Policy{Inference: *inf}
+	m := min(c.Candidates+1, ag.k)
+	if c.Fit > 0 {
+		tab, err := ag.fit(inf.W, sims[0].k, c.Fit)
+		if err != nil {
+			return nil, err
+		}
+		srcs = append(srcs, tableSource{tab: tab, a: ag.a, d: ag.d})
+		pol.Fitted = true
+		m = min(c.Candidates, ag.k)
+	}
 	for i := range m {
-		cands[i] = sims[i].k
-		srcs[i] = ag.Source(sims[i].k)
+		pol.Candidates = append(pol.Candidates, sims[i].k)
+		srcs = append(srcs, ag.Source(sims[i].k))
 	}
 	var sel gpi.Selector
-	acts := make(mdp.Deterministic, ag.n)
+	pol.Actions = make(mdp.Deterministic, ag.n)
 	for s := range ag.n {
 		a, _, _ := sel.Act(inf.W, s, srcs...)
 		if a < 0 {
-			a = 0 // NaN cannot occur: training and InferTask reject non-finite values.
+			a = 0 // NaN cannot occur: training, fit and InferTask reject non-finite values.
 		}
-		acts[s] = a
+		pol.Actions[s] = a
 	}
-	return &Policy{Inference: *inf, Candidates: cands, Actions: acts}
+	return pol, nil
 }
+
+// fit returns psi(., ., w) fitted by updates TD steps on replayed
+// transitions, newest first and backwards in time, starting from skill k0's
+// table.
+func (ag *Agent) fit(w []float64, k0, updates int) ([]float64, error) {
+	rb := &ag.replay
+	if rb.count == 0 {
+		return nil, fmt.Errorf("transfer: adapt: fit needs the replay buffer: %w", ErrNoData)
+	}
+	d, na := ag.d, ag.a
+	tab := make([]float64, ag.n*na*d)
+	for s := range ag.n {
+		copy(tab[s*na*d:(s+1)*na*d], ag.SkillState(k0, s))
+	}
+	g, lr := ag.cfg.Gamma, ag.cfg.LearnRate
+	for u := range updates {
+		// Newest first, backwards through time, cyclically: a backward pass
+		// over an episode carries values along it in one sweep (as in the
+		// episodic backward update of Lee et al. 2019).
+		i := ((rb.pos-1-u)%rb.count + rb.count) % rb.count
+		s, a, next := int(rb.s[i]), int(rb.a[i]), int(rb.next[i])
+		phi := ag.phi[next*d : (next+1)*d]
+		row := tab[(s*na+a)*d : (s*na+a+1)*d]
+		var nb []float64
+		if !rb.term[i] {
+			rows := tab[next*na*d : (next+1)*na*d]
+			b := argmaxRows(rows, w, na, nil)
+			nb = rows[b*d : (b+1)*d]
+		}
+		for j := range d {
+			t := phi[j]
+			if nb != nil {
+				t += g * nb[j]
+			}
+			row[j] += lr * (t - row[j])
+		}
+	}
+	for _, v := range tab {
+		if math.IsNaN(v) || math.IsInf(v, 0) {
+			return nil, fmt.Errorf("transfer: adapt: fitted successor features: %w", ErrDiverged)
+		}
+	}
+	return tab, nil
+}
+
+// tableSource is a GPI source over a flat psi table.
+type tableSource struct {
+	tab  []float64
+	a, d int
+}
+
+func (t tableSource) Shape() (int, int) { return t.a, t.d }
+func (t tableSource) State(s int) []float64 {
+	n := t.a * t.d
+	return t.tab[s*n : (s+1)*n : (s+1)*n]
+}
+func (t tableSource) Psi(dst []float64, s int) { copy(dst, t.State(s)) }

@@ -43,6 +43,10 @@ type Agent struct {
 	skills []float64
 	// usf holds psi(s, a, z_k) at [((k*n + s)*A + a)*d:][:d].
 	usf []float64
+	// q caches Q(s, a, z_k) = psi(s, a, z_k) . z_k at (k*n + s)*A + a,
+	// updated incrementally with every TD step (so the greedy action costs
+	// A, not A*d, operations; it agrees with the dot product to round-off).
+	q []float64
 	// logC is log C_d(kappa) for VMF; logArea the log area of S^{d-1}.
 	logC, logArea float64
 
@@ -178,7 +182,8 @@ func sampleSphere(dst []float64, rng *rand.Rand) {
 // actSkill returns argmax_a psi(s, a, z_k) . z_k, ties broken uniformly at
 // random with rng (nil rng: the lowest action).
 func (ag *Agent) actSkill(k, s int, rng *rand.Rand) int {
-	return argmaxRows(ag.SkillState(k, s), ag.Skill(k), ag.a, rng)
+	i := (k*ag.n + s) * ag.a
+	return argmaxRand(ag.q[i:i+ag.a], rng)
 }
 
 // argmaxRows returns argmax_a rows[a] . w, with random tie-breaking when
@@ -256,6 +261,7 @@ func newAgent(n, na int, c PretrainConfig) (*Agent, error) {
 		}
 	}
 	ag.usf = make([]float64, ag.k*n*na*d)
+	ag.q = make([]float64, ag.k*n*na)
 	ag.setConstants()
 	for s := range n {
 		ag.refreshPhi(s)

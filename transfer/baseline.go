@@ -18,7 +18,8 @@ type BaselineConfig struct {
 	// Epsilon is the random-action rate of the epsilon-greedy behaviour.
 	// 0 means 0.1.
 	Epsilon float64
-	// EpisodeSteps is the time limit of an episode. 0 means 100.
+	// EpisodeSteps is the time limit of an episode. 0 means 1000 (as
+	// AdaptConfig.EpisodeSteps).
 	EpisodeSteps int
 	// Gamma is the discount. 0 means 0.95.
 	Gamma float64
@@ -28,7 +29,7 @@ func (cfg BaselineConfig) withDefaults() (BaselineConfig, error) {
 	c := cfg
 	setF(&c.Alpha, 0.5)
 	setF(&c.Epsilon, 0.1)
-	setI(&c.EpisodeSteps, 100)
+	setI(&c.EpisodeSteps, 1000)
 	setF(&c.Gamma, 0.95)
 	if !(c.Alpha > 0 && c.Alpha <= 1) || !(c.Epsilon >= 0 && c.Epsilon <= 1) || c.EpisodeSteps < 1 || !(c.Gamma > 0 && c.Gamma < 1) {
 		return c, fmt.Errorf("transfer: baseline: invalid settings %+v: %w", c, ErrConfig)

@@ -84,6 +84,7 @@ func (ag *Agent) marshal() []byte {
 	e.fs(ag.param)
 	e.fs(ag.skills)
 	e.fs(ag.usf)
+	e.fs(ag.q)
 	st, err := ag.pcg.MarshalBinary()
 	if err != nil {
 		panic("transfer: pcg marshal: " + err.Error()) // cannot fail for *rand.PCG
@@ -191,14 +192,15 @@ func Unmarshal(data []byte) (*Agent, error) {
 	param := d.fs()
 	skills := d.fs()
 	usf := d.fs()
+	q := d.fs()
 	st := d.bs()
 	if d.err != nil {
 		return nil, d.err
 	}
-	if len(param) != ns*nd || len(skills) != nk*nd || len(usf) != nk*ns*na*nd {
+	if len(param) != ns*nd || len(skills) != nk*nd || len(usf) != nk*ns*na*nd || len(q) != nk*ns*na {
 		return nil, bad("table sizes")
 	}
-	ag := &Agent{cfg: c, n: ns, a: na, d: nd, k: nk, param: param, skills: skills, usf: usf}
+	ag := &Agent{cfg: c, n: ns, a: na, d: nd, k: nk, param: param, skills: skills, usf: usf, q: q}
 	ag.phi = make([]float64, ns*nd)
 	ag.pcg = new(rand.PCG)
 	if err := ag.pcg.UnmarshalBinary(st); err != nil {
@@ -249,6 +251,11 @@ func Unmarshal(data []byte) (*Agent, error) {
 	for _, v := range usf {
 		if math.IsNaN(v) || math.IsInf(v, 0) {
 			return nil, bad("non-finite successor feature")
+		}
+	}
+	for _, v := range q {
+		if math.IsNaN(v) || math.IsInf(v, 0) {
+			return nil, bad("non-finite value")
 		}
 	}
 	if c.Method == Given {

@@ -243,19 +243,24 @@ type AdaptConfig struct {
 	// Ridge is the ridge penalty lambda of task inference. 0 means 1e-3;
 	// a negative value means plain least squares (lambda = 0).
 	Ridge float64
-	// Candidates is the number N of skills besides the nearest one in the
-	// GPI candidate set (the N + 1 skills most similar to w). 0 means 8; a
-	// negative value means 0, which switches GPI off.
+	// Candidates is the number N of skills, the most similar to w, that
+	// join w in the GPI candidate set. 0 means 8; a negative value means 0,
+	// which switches GPI off (the policy greedy in psi(s, ., w) . w).
 	Candidates int
+	// Fit is the number of TD updates on the reward-free replay buffer that
+	// fit psi(., ., w) for the inferred w (see Adapt). 0 means 20000; a
+	// negative value means none: the candidate set is then the
+	// Candidates + 1 skills most similar to w.
+	Fit int
 	// Explore is the rule that collects labelled transitions.
 	Explore Explore
 	// Epsilon is the random-action rate while collecting with
 	// ExploreSkills. 0 means 0.2; negative means 0.
 	Epsilon float64
-	// EpisodeSteps is the time limit of a labelled episode. 0 means 100.
+	// EpisodeSteps is the time limit of a labelled episode. 0 means 1000.
 	EpisodeSteps int
-	// SwitchEvery is the number of steps after which ExploreSkills draws a
-	// fresh skill within an episode. 0 means 25.
+	// SwitchEvery is the number of steps after which ExploreSkills moves to
+	// the next skill within an episode. 0 means 40.
 	SwitchEvery int
 }
 
@@ -269,12 +274,16 @@ func (cfg AdaptConfig) withDefaults() (AdaptConfig, error) {
 	if c.Candidates < 0 {
 		c.Candidates = 0
 	}
+	setI(&c.Fit, 20000)
+	if c.Fit < 0 {
+		c.Fit = 0
+	}
 	setF(&c.Epsilon, 0.2)
 	if c.Epsilon < 0 {
 		c.Epsilon = 0
 	}
-	setI(&c.EpisodeSteps, 100)
-	setI(&c.SwitchEvery, 25)
+	setI(&c.EpisodeSteps, 1000)
+	setI(&c.SwitchEvery, 40)
 	switch {
 	case c.SwitchEvery < 1:
 		return c, fmt.Errorf("transfer: switch every %d: %w", c.SwitchEvery, ErrConfig)

@@ -47,6 +47,9 @@ type Experiment struct {
 	// Baselines adds tabular Q-learning and SF Q-learning with Places from
 	// scratch.
 	Baselines bool `json:"baselines"`
+	// Gamma is the discount of the jobs (scoring and baselines). 0 means
+	// 0.95. It may differ from Pretrain.Gamma, the horizon of the skills.
+	Gamma float64 `json:"gamma"`
 
 	Pretrain PretrainConfig `json:"pretrain"`
 	Adapt    AdaptConfig    `json:"adapt"`
@@ -82,6 +85,9 @@ type Record struct {
 	// variants only; 0 for the baselines).
 	RSquared float64 `json:"r_squared"`
 	Residual float64 `json:"residual"`
+	// Rewarded is the number of labelled transitions with a non-zero
+	// reward (pretrained variants only).
+	Rewarded int `json:"rewarded"`
 }
 
 // Summary is the mean and standard error over seeds of one (variant, job,
@@ -252,8 +258,10 @@ func (e *Experiment) Run() (*Results, error) {
 }
 
 func (e *Experiment) gamma() float64 {
-	c, _ := e.Pretrain.withDefaults()
-	return c.Gamma
+	if e.Gamma == 0 {
+		return 0.95
+	}
+	return e.Gamma
 }
 
 func (e *Experiment) check() error {
@@ -262,6 +270,8 @@ func (e *Experiment) check() error {
 		return fmt.Errorf("transfer: experiment needs Task and Places: %w", ErrConfig)
 	case len(e.Jobs) == 0 || len(e.Seeds) == 0 || len(e.Budgets) == 0:
 		return fmt.Errorf("transfer: experiment needs jobs, seeds and budgets: %w", ErrConfig)
+	case !(e.Gamma >= 0 && e.Gamma < 1):
+		return fmt.Errorf("transfer: experiment gamma %v outside [0, 1): %w", e.Gamma, ErrConfig)
 	case len(e.Methods) == 0 && !e.Baselines:
 		return fmt.Errorf("transfer: experiment has nothing to run: %w", ErrConfig)
 	}
@@ -349,14 +359,19 @@ func (e *Experiment) adaptAll(ag *Agent, seed uint64, rewards []mdp.Reward, refs
 			for _, v := range []struct {
 				name string
 				n    int
-			}{{name, ac.Candidates}, {name + noGPISuffix, 0}} {
-				pol := ag.Policy(inf, v.n)
+			}{{name, e.Adapt.Candidates}, {name + noGPISuffix, -1}} {
+				cfg := e.Adapt
+				cfg.Candidates = v.n
+				pol, err := ag.Policy(inf, cfg)
+				if err != nil {
+					return nil, fmt.Errorf("job %q: %w", job.Name, err)
+				}
 				sc, err := refs[j].Score(pol)
 				if err != nil {
 					return nil, fmt.Errorf("job %q: %w", job.Name, err)
 				}
 				recs = append(recs, Record{Variant: v.name, Job: job.Name, Budget: b, Seed: seed,
-					Normalised: sc.Normalised, Value: sc.Value, RSquared: inf.RSquared, Residual: inf.Residual})
+					Normalised: sc.Normalised, Value: sc.Value, RSquared: inf.RSquared, Residual: inf.Residual, Rewarded: inf.Rewarded})
 			}
 		}
 	}

@@ -188,26 +188,31 @@ func (ag *Agent) update() error {
 // tdStep moves psi(s, a, z_j) towards phi(s') + gamma psi(s', a*, z_j), with
 // a* = argmax_a psi(s', a, z_j) . z_j (no bootstrap from a terminal s').
 func (ag *Agent) tdStep(j, s, a, next int, term bool) error {
-	d := ag.d
+	d, na := ag.d, ag.a
 	tgt := ag.target
 	copy(tgt, ag.phi[next*d:(next+1)*d])
 	if !term {
-		rows := ag.SkillState(j, next)
-		b := argmaxRows(rows, ag.Skill(j), ag.a, nil)
+		qi := (j*ag.n + next) * na
+		b := argmaxRand(ag.q[qi:qi+na], nil)
+		off := ((j*ag.n+next)*na + b) * d
 		g := ag.cfg.Gamma
-		for i, v := range rows[b*d : (b+1)*d] {
+		for i, v := range ag.usf[off : off+d : off+d] {
 			tgt[i] += g * v
 		}
 	}
-	off := ((j*ag.n+s)*ag.a + a) * d
-	p := ag.usf[off : off+d : off+d]
+	row := (j*ag.n+s)*na + a
+	p := ag.usf[row*d : (row+1)*d : (row+1)*d]
+	z := ag.skills[j*d : (j+1)*d : (j+1)*d]
 	lr := ag.cfg.LearnRate
-	var sq float64
+	var sq, dq float64
 	for i, v := range tgt {
 		delta := v - p[i]
 		sq += delta * delta
-		p[i] += lr * delta
+		step := lr * delta
+		p[i] += step
+		dq += step * z[i]
 	}
+	ag.q[row] += dq
 	if math.IsNaN(sq) || math.IsInf(sq, 0) {
 		return fmt.Errorf("transfer: pretrain: successor features non-finite at step %d: %w", ag.steps, ErrDiverged)
 	}

@@ -42,16 +42,17 @@ func (rep *Report) WriteJSON(path string) error {
 }
 
 // WriteCSV writes one line per scored policy (variant, job, budget, seed,
-// normalised return, value, R^2 and residual of the task inference) to path
+// normalised return, value, R^2 and residual of the task inference, and
+// the number of labelled transitions with a non-zero reward) to path
 // atomically.
 func (rep *Report) WriteCSV(path string) error {
 	var buf bytes.Buffer
 	w := csv.NewWriter(&buf)
-	w.Write([]string{"variant", "job", "budget", "seed", "normalised", "value", "r_squared", "residual"})
+	w.Write([]string{"variant", "job", "budget", "seed", "normalised", "value", "r_squared", "residual", "rewarded"})
 	f := func(v float64) string { return strconv.FormatFloat(v, 'g', -1, 64) }
 	for _, r := range rep.Results.Records {
 		w.Write([]string{r.Variant, r.Job, strconv.Itoa(r.Budget), strconv.FormatUint(r.Seed, 10),
-			f(r.Normalised), f(r.Value), f(r.RSquared), f(r.Residual)})
+			f(r.Normalised), f(r.Value), f(r.RSquared), f(r.Residual), strconv.Itoa(r.Rewarded)})
 	}
 	w.Flush()
 	if err := w.Error(); err != nil {

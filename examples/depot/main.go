@@ -81,7 +81,7 @@ func parseFlags(args []string, stderr io.Writer) (*options, error) {
 	fs.StringVar(&o.out, "out", "depot-out", "output folder (created if missing)")
 	fs.BoolVar(&o.quick, "quick", false, "a few seconds: fewer steps, 2 seeds, smaller budget (for CI)")
 	fs.IntVar(&o.workers, "workers", 0, "parallel runs (0: one per CPU); the figures do not depend on it")
-	fs.IntVar(&o.steps, "steps", 0, "pretraining steps per run (0: the default, 60000; -quick 6000)")
+	fs.IntVar(&o.steps, "steps", 0, "pretraining steps per run (0: the default, 100000; -quick 8000)")
 	fs.StringVar(&o.cpuProfile, "cpuprofile", "", "write a CPU profile of the whole run to this file")
 	fs.BoolVar(&o.noPlots, "noplots", false, "skip the PNG figures")
 	fs.Usage = func() {
@@ -108,11 +108,11 @@ func parseFlags(args []string, stderr io.Writer) (*options, error) {
 			o.budget = 200
 		}
 		if !set["steps"] {
-			o.steps = 6000
+			o.steps = 8000
 		}
 	}
 	if o.steps == 0 {
-		o.steps = 60000
+		o.steps = 100000
 	}
 	for _, name := range strings.Split(methods, ",") {
 		if strings.TrimSpace(name) == "" {
@@ -171,7 +171,7 @@ func jobs(g *mdp.Grid) ([]transfer.Job, error) {
 // budgets returns the labelled budgets of the curve, ending at max.
 func budgets(max int) []int {
 	var b []int
-	for _, v := range []int{25, 50, 100, 200, 400, 700} {
+	for _, v := range []int{50, 100, 200, 500} {
 		if v < max {
 			b = append(b, v)
 		}
@@ -232,6 +232,7 @@ func run(args []string, stdout, stderr io.Writer) error {
 		Seeds:      seeds,
 		Budgets:    budgets(o.budget),
 		Baselines:  true,
+		Gamma:      0.95,
 		Pretrain:   defaultPretrain(o.steps),
 		Adapt:      transfer.AdaptConfig{},
 		Workers:    o.workers,
@@ -289,10 +290,10 @@ func run(args []string, stdout, stderr io.Writer) error {
 // defaultPretrain is the pretraining configuration of the demo.
 func defaultPretrain(steps int) transfer.PretrainConfig {
 	return transfer.PretrainConfig{
-		Dim:          32,
-		Skills:       64,
-		Kappa:        10,
-		Gamma:        0.95,
+		Dim:          64,   // phi on S^63: skills' places nearly orthogonal
+		Skills:       128,  // skill set of the tabulated universal SFs
+		Kappa:        10,   // discriminator concentration
+		Gamma:        0.99, // skill horizon: long enough to cross the floor
 		Steps:        steps,
 		EpisodeSteps: 50,
 	}
@@ -317,11 +318,11 @@ func progress(stderr io.Writer, total int) (func(done, total int), func()) {
 	start := time.Now()
 	last := time.Time{}
 	return func(done, total int) {
-			if now := time.Now(); now.Sub(last) >= 2*time.Second || done == total {
-				last = now
-				fmt.Fprintf(stderr, "pretraining: %d/%d steps (%.0f%%) after %.1fs\n", done, total, 100*float64(done)/float64(total), now.Sub(start).Seconds())
-			}
-		}, func() {}
+		if now := time.Now(); now.Sub(last) >= 2*time.Second || done == total {
+			last = now
+			fmt.Fprintf(stderr, "pretraining: %d/%d steps (%.0f%%) after %.1fs\n", done, total, 100*float64(done)/float64(total), now.Sub(start).Seconds())
+		}
+	}, func() {}
 }
 
 // printTable prints method x job -> normalised return at the largest

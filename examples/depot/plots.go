@@ -56,12 +56,17 @@ func drawReturns(path string, e *transfer.Experiment, res *transfer.Results) err
 	p.X.Label.Text = "labelled transitions (log scale)"
 	p.Y.Label.Text = "normalised return (0 random, 1 optimal)"
 	p.X.Scale = plot.LogScale{}
-	p.X.Tick.Marker = plot.LogTicks{Prec: -1}
-	p.Legend.Top = false
-	p.Legend.Left = false
-	p.Legend.XOffs = -vg.Millimeter
-	p.Legend.YOffs = vg.Millimeter
+	var ticks []plot.Tick
+	for _, b := range e.Budgets {
+		ticks = append(ticks, plot.Tick{Value: float64(b), Label: fmt.Sprint(b)})
+	}
+	p.X.Tick.Marker = plot.ConstantTicks(ticks)
 	p.Add(plotter.NewGrid())
+	leg := plot.New()
+	leg.HideAxes()
+	leg.Legend.Top = true
+	leg.Legend.Left = true
+	leg.Legend.TextStyle.Font.Size = vg.Points(10)
 	for i, v := range res.Variants {
 		pts := make(plotter.XYs, 0, len(e.Budgets))
 		errs := make(plotter.YErrors, 0, len(e.Budgets))
@@ -94,11 +99,17 @@ func drawReturns(path string, e *transfer.Experiment, res *transfer.Results) err
 		}
 		eb.Color = c
 		p.Add(line, sc, eb)
-		p.Legend.Add(v, line, sc)
+		leg.Legend.Add(v, line, sc)
 	}
 	p.Y.Min = math.Min(p.Y.Min, -0.1)
 	p.Y.Max = 1.05
-	return p.Save(18*vg.Centimeter, 13*vg.Centimeter, path)
+	img := vgimg.New(24*vg.Centimeter, 13*vg.Centimeter)
+	dc := draw.New(img)
+	left := draw.Crop(dc, 0, -6*vg.Centimeter, 0, 0)
+	right := draw.Crop(dc, 18*vg.Centimeter, 0, 0, 0)
+	p.Draw(left)
+	leg.Draw(right)
+	return writePNG(path, img)
 }
 
 // layoutGrid is a heat-map grid over the depot layout; walls are NaN.
@@ -107,9 +118,9 @@ type layoutGrid struct {
 	v []float64 // per state
 }
 
-func (l layoutGrid) Dims() (c, r int)   { return l.g.Cols, l.g.Rows }
-func (l layoutGrid) X(c int) float64   { return float64(c) }
-func (l layoutGrid) Y(r int) float64   { return float64(l.g.Rows - 1 - r) }
+func (l layoutGrid) Dims() (c, r int) { return l.g.Cols, l.g.Rows }
+func (l layoutGrid) X(c int) float64  { return float64(c) }
+func (l layoutGrid) Y(r int) float64  { return float64(r) }
 func (l layoutGrid) Z(c, r int) float64 {
 	s, ok := l.g.StateAt(l.g.Rows-1-r, c)
 	if !ok {
@@ -126,6 +137,9 @@ func heat(g *mdp.Grid, v []float64, title string) (*plot.Plot, error) {
 	p.Title.TextStyle.Font.Size = vg.Points(9)
 	lo, hi := math.Inf(1), math.Inf(-1)
 	for _, x := range v {
+		if math.IsNaN(x) {
+			return nil, fmt.Errorf("depot: %s: NaN value", title)
+		}
 		lo, hi = math.Min(lo, x), math.Max(hi, x)
 	}
 	if !(hi > lo) {
@@ -206,7 +220,7 @@ func occupancy(m *mdp.Finite, pi mdp.Policy, gamma float64, start int) ([]float6
 func drawSuccessor(path string, g *mdp.Grid, e *transfer.Experiment, kept map[transfer.Method]*transfer.Agent) error {
 	start := slices.IndexFunc(g.MDP.Start(), func(p float64) bool { return p > 0 })
 	r, c := g.Cell(start)
-	gamma := e.Pretrain.Gamma
+	gamma := e.Gamma
 	sr, err := occupancy(g.MDP, mdp.Uniform{N: g.MDP.NumActions()}, gamma, start)
 	if err != nil {
 		return err
@@ -290,7 +304,10 @@ func drawSkills(path string, g *mdp.Grid, ag *transfer.Agent, seed uint64) error
 		if err != nil {
 			return err
 		}
-		p, err := heat(g, occ, fmt.Sprintf("%s skill %d from S", ag.Method(), k))
+		for i, v := range occ {
+			occ[i] = math.Sqrt(math.Max(v, 0)) // round-off can leave -1e-17
+		}
+		p, err := heat(g, occ, fmt.Sprintf("%s skill %d from S (sqrt occupancy)", ag.Method(), k))
 		if err != nil {
 			return err
 		}
