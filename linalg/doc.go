@@ -50,7 +50,8 @@
 //
 // The iterative solver uses conjugate gradients when P is symmetric and
 // BiCGSTAB otherwise, preconditioned by symmetric Gauss-Seidel through
-// Eisenstat's trick (see IterSolver.Solve); each iteration costs O(nnz + n)
+// Eisenstat's trick (Jacobi when I - gamma P is not diagonally dominant; see
+// IterSolver.Solve); each iteration costs O(nnz + n)
 // and is split over two goroutines for n >= 1<<17. Its stopping rule is the
 // relative residual
 //

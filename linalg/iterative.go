@@ -28,9 +28,11 @@ const (
 type Precond int
 
 const (
-	// PrecondAuto uses PrecondSGS when every diagonal entry of
-	// I - gamma P is positive (always so for a sub-stochastic P) and
-	// PrecondJacobi otherwise.
+	// PrecondAuto uses PrecondSGS when I - gamma P is diagonally dominant
+	// by rows with a positive diagonal (always so for a sub-stochastic P
+	// and gamma < 1) and PrecondJacobi otherwise, since the triangular
+	// solves of Gauss-Seidel can amplify errors exponentially on a
+	// matrix far from dominance.
 	PrecondAuto Precond = iota
 	// PrecondSGS is symmetric Gauss-Seidel, M = (D + L) D^-1 (D + U) for
 	// A = L + D + U, applied by Eisenstat's trick so that one preconditioned
@@ -266,7 +268,7 @@ func (s *IterSolver) Solve(dst []float64, p *CSR, gamma float64, b []float64, se
 	defer func() { s.p, s.x, s.b, s.opDst, s.opSrc, s.opDot = nil, nil, nil, nil, nil, nil }()
 	s.d = grow(s.d, n)
 	s.dinv = grow(s.dinv, n)
-	sym, posDiag, err := s.scan(cfg.Method == IterAuto)
+	sym, posDiag, dominant, err := s.scan(cfg.Method == IterAuto)
 	if err != nil {
 		return IterResult{}, err
 	}
@@ -287,7 +289,7 @@ func (s *IterSolver) Solve(dst []float64, p *CSR, gamma float64, b []float64, se
 	pre := cfg.Precond
 	if pre == PrecondAuto {
 		pre = PrecondJacobi
-		if posDiag {
+		if posDiag && dominant {
 			pre = PrecondSGS
 		}
 	}
@@ -362,18 +364,24 @@ func (s *IterSolver) Solve(dst []float64, p *CSR, gamma float64, b []float64, se
 }
 
 // scan fills d, checks P for non-finite values, reports whether every
-// d[i] is positive and, if want, whether P is symmetric.
-func (s *IterSolver) scan(want bool) (sym, posDiag bool, err error) {
+// d[i] is positive, whether A = I - gamma P is diagonally dominant by rows
+// (|d[i]| >= gamma sum_{j != i} |P[i][j]|, up to rounding) and, if want,
+// whether P is symmetric.
+func (s *IterSolver) scan(want bool) (sym, posDiag, dominant bool, err error) {
 	p, g := s.p, s.gamma
-	sym, posDiag = want, true
+	sym, posDiag, dominant = want, true, true
 	var lower, upper int
 	for i := 0; i < s.n; i++ {
 		ind, val := p.Row(i)
 		d := 1.0
+		var off float64
 		for k, j := range ind {
 			v := val[k]
 			if math.IsNaN(v) || math.IsInf(v, 0) {
-				return false, false, fmt.Errorf("linalg: iterative: p row %d: %w", i, ErrNonFinite)
+				return false, false, false, fmt.Errorf("linalg: iterative: p row %d: %w", i, ErrNonFinite)
+			}
+			if j != i {
+				off += math.Abs(v)
 			}
 			switch {
 			case j == i:
@@ -394,10 +402,13 @@ func (s *IterSolver) scan(want bool) (sym, posDiag bool, err error) {
 		if !(d > 0) {
 			posDiag = false
 		}
+		if math.Abs(d) < g*off*(1-1e-12) {
+			dominant = false
+		}
 	}
 	// Every lower entry has an equal upper partner; the counts must agree
 	// for the upper entries to have lower partners.
-	return sym && lower == upper, posDiag, nil
+	return sym && lower == upper, posDiag, dominant, nil
 }
 
 // diagPositions fills dpos.
