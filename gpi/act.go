@@ -82,8 +82,10 @@ func shape(w []float64, sources []Source) (actions, dim int) {
 // pairs (i, a) attaining the maximum, Act returns the first in the order
 // i = 0, 1, ... with a = 0, 1, ... inside each i.
 //
-// Act panics if sources is empty, if the sources differ in shape, or if
-// len(w) is not their feature dimension.
+// Act allocates nothing once the selector's scratch has grown to the
+// sources' shape. It panics if sources is empty, if the sources differ in
+// shape, if len(w) is not their feature dimension, or if s is out of range
+// of a source.
 //
 // Special cases are:
 //
