@@ -336,3 +336,63 @@ func TestIterativeIndefinite(t *testing.T) {
 		t.Errorf("relative error %.3g above %.3g", rel, 2*kappa*tol)
 	}
 }
+
+// TestIterativeProperties: on many seeded random chains (sparse
+// non-symmetric, symmetrised, grids) and discounts, the iterative solution
+// meets its tolerance on the true residual and agrees with SolveSuccessor
+// within 2 (1+gamma)/(1-gamma) tol: for a stochastic P,
+// ||A||_inf <= 1 + gamma and ||A^-1||_inf <= 1/(1 - gamma) (derived by hand
+// from the Neumann series), so the infinity-norm condition number is at most
+// (1+gamma)/(1-gamma), and the 2-norm residual bounds the infinity-norm one
+// up to sqrt(n), which we also allow.
+func TestIterativeProperties(t *testing.T) {
+	const tol = 1e-9
+	for seed := uint64(0); seed < 40; seed++ {
+		rnd := rand.New(rand.NewPCG(seed, 41))
+		var p *linalg.CSR
+		switch seed % 3 {
+		case 0:
+			p = randSparseChain(2+rnd.IntN(200), 1+rnd.IntN(5), rnd)
+		case 1:
+			// (Pi + Pi^T)/2 for a random permutation matrix Pi: symmetric
+			// and stochastic (derived by hand: rows and columns of Pi and
+			// Pi^T each hold a single 1).
+			m := 1 + rnd.IntN(150)
+			perm := rnd.Perm(m)
+			var tr []linalg.Triplet
+			for i, j := range perm {
+				tr = append(tr, linalg.Triplet{Row: i, Col: j, Val: 0.5}, linalg.Triplet{Row: j, Col: i, Val: 0.5})
+			}
+			var err error
+			if p, err = linalg.CSRFromTriplets(m, m, tr); err != nil {
+				t.Fatal(err)
+			}
+		case 2:
+			p = linalg.GridWalk(1+rnd.IntN(20), 1+rnd.IntN(20))
+		}
+		n, _ := p.Dims()
+		gamma := rnd.Float64() * 0.999
+		b := randVec(n, rnd)
+		x := make([]float64, n)
+		res, err := linalg.SolveIterative(x, p, gamma, b, &linalg.IterSettings{Tol: tol, Workers: 1 + int(seed%2)})
+		if err != nil {
+			t.Fatalf("seed %d: %v", seed, err)
+		}
+		if r := trueResidual(p, gamma, x, b); r > tol || math.Abs(r-res.Residual) > 1e-3*r+1e-15 {
+			t.Errorf("seed %d: true residual %v, reported %v", seed, r, res.Residual)
+		}
+		var want mat.Dense
+		if err := linalg.SolveSuccessor(&want, p, gamma, mat.NewDense(n, 1, b)); err != nil {
+			t.Fatal(err)
+		}
+		var diff, ref float64
+		for i := range x {
+			diff = max(diff, math.Abs(x[i]-want.At(i, 0)))
+			ref = max(ref, math.Abs(want.At(i, 0)))
+		}
+		bound := 2 * (1 + gamma) / (1 - gamma) * tol * math.Sqrt(float64(n))
+		if diff > bound*ref {
+			t.Errorf("seed %d n=%d gamma=%.3f: max error %.3g, bound %.3g", seed, n, gamma, diff/ref, bound)
+		}
+	}
+}
