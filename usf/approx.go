@@ -206,19 +206,23 @@ func greedy(psi, z []float64, actions int) int {
 	return best
 }
 
-// dot returns x . y over len(x) entries.
+// dot returns x . y over len(x) entries, four accumulators.
 func dot(x, y []float64) float64 {
 	y = y[:len(x)]
-	var s0, s1 float64
+	var s0, s1, s2, s3 float64
 	i := 0
-	for ; i+1 < len(x); i += 2 {
-		s0 += x[i] * y[i]
-		s1 += x[i+1] * y[i+1]
+	for ; i+3 < len(x); i += 4 {
+		xx := x[i : i+4 : i+4]
+		yy := y[i : i+4 : i+4]
+		s0 += xx[0] * yy[0]
+		s1 += xx[1] * yy[1]
+		s2 += xx[2] * yy[2]
+		s3 += xx[3] * yy[3]
 	}
-	if i < len(x) {
+	for ; i < len(x); i++ {
 		s0 += x[i] * y[i]
 	}
-	return s0 + s1
+	return (s0 + s1) + (s2 + s3)
 }
 
 // hotIndex returns the index of the single 1 of a one-hot x. It panics if

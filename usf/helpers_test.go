@@ -229,3 +229,22 @@ func checkGreedy(t *testing.T, ap StatePsi, opt mdp.Deterministic, p problem, z 
 		}
 	}
 }
+
+// randomUnit writes a vector uniform on the unit sphere into dst
+// (normalised standard normal).
+func randomUnit(dst []float64, rng *rand.Rand) {
+	for {
+		var ss float64
+		for j := range dst {
+			dst[j] = rng.NormFloat64()
+			ss += dst[j] * dst[j]
+		}
+		if ss > 1e-300 {
+			r := 1 / math.Sqrt(ss)
+			for j := range dst {
+				dst[j] *= r
+			}
+			return
+		}
+	}
+}

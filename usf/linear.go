@@ -105,8 +105,15 @@ func (l *Linear) rowDot(w, z []float64) float64 {
 func (l *Linear) psiState(dst []float64, s, a0, a1 int, z []float64) {
 	d, e := l.d, l.e
 	blk := l.W[((s*l.na+a0)*d)*e : ((s*l.na+a1)*d)*e]
+	if e == d {
+		for r := range dst {
+			dst[r] = dot(z, blk[r*e:(r+1)*e])
+		}
+		return
+	}
 	for r := range dst {
-		dst[r] = l.rowDot(blk[r*e:(r+1)*e], z)
+		row := blk[r*e : (r+1)*e]
+		dst[r] = dot(z, row) + row[d]
 	}
 }
 
