@@ -206,8 +206,9 @@ func (p *Policy) Act(s int) int { return p.Actions[s] }
 // The universal SFs are tabulated over the skill set, so psi(., ., w) is not
 // stored; Adapt fits it the way the set was trained: cfg.Fit TD updates on
 // transitions drawn from the agent's reward-free replay buffer with the
-// intrinsic reward phi(s') . w, starting from the table of the skill nearest
-// to w. This uses no environment step and no reward label. With a negative
+// intrinsic reward phi(s') . w, newest transitions first and backwards in
+// time, starting from zero. This uses no environment step and no reward
+// label. With a negative
 // cfg.Fit the candidate set is the cfg.Candidates + 1 skills nearest to w
 // (GPI over the stored library only).
 func Adapt(ag *Agent, labelled []Transition, cfg AdaptConfig) (*Policy, error) {
@@ -247,7 +248,7 @@ func (ag *Agent) Policy(inf *Inference, cfg AdaptConfig) (*Policy, error) {
 	pol := &Policy{Inference: *inf}
 	m := min(c.Candidates+1, ag.k)
 	if c.Fit > 0 {
-		tab, err := ag.fit(inf.W, sims[0].k, c.Fit)
+		tab, err := ag.fit(inf.W, c.Fit)
 		if err != nil {
 			return nil, err
 		}
@@ -272,18 +273,16 @@ func (ag *Agent) Policy(inf *Inference, cfg AdaptConfig) (*Policy, error) {
 }
 
 // fit returns psi(., ., w) fitted by updates TD steps on replayed
-// transitions, newest first and backwards in time, starting from skill k0's
-// table.
-func (ag *Agent) fit(w []float64, k0, updates int) ([]float64, error) {
+// transitions, newest first and backwards in time, starting from zero.
+// (Starting from the nearest skill's table was tried: its values of
+// self-loops decay only as gamma^n and misled the greedy policy.)
+func (ag *Agent) fit(w []float64, updates int) ([]float64, error) {
 	rb := &ag.replay
 	if rb.count == 0 {
 		return nil, fmt.Errorf("transfer: adapt: fit needs the replay buffer: %w", ErrNoData)
 	}
 	d, na := ag.d, ag.a
 	tab := make([]float64, ag.n*na*d)
-	for s := range ag.n {
-		copy(tab[s*na*d:(s+1)*na*d], ag.SkillState(k0, s))
-	}
 	g, lr := ag.cfg.Gamma, ag.cfg.LearnRate
 	for u := range updates {
 		// Newest first, backwards through time, cyclically: a backward pass

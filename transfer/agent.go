@@ -7,6 +7,7 @@ import (
 
 	"github.com/successor-go/successor/gpi"
 	"github.com/successor-go/successor/mdp"
+	"github.com/successor-go/successor/skills"
 )
 
 // Env is a sampled environment with finitely many integer states; the agent
@@ -278,9 +279,9 @@ func (ag *Agent) alloc() { ag.target = make([]float64, ag.d) }
 
 func (ag *Agent) setConstants() {
 	if ag.cfg.Method == VMF {
-		ag.logC = logVMFNorm(ag.d, ag.cfg.Kappa)
+		ag.logC = skills.VMFLogNorm(ag.d, ag.cfg.Kappa)
 	}
-	ag.logArea = logSphereArea(ag.d)
+	ag.logArea = skills.LogSphereArea(ag.d)
 }
 
 // refreshPhi recomputes the cached phi(s) from the parameters.
