@@ -61,8 +61,9 @@
 // recomputed from x, within MaxIter iterations (default 10000); otherwise it
 // returns a *NotConvergedError with the residual it reached. On the random
 // walk of a 1000 x 1000 grid (10^6 states) with gamma = 0.99 and Tol = 1e-6
-// it needs about 35-40 iterations and 52 MB of workspace (6 float64 vectors
-// and one int32 vector of length n; BiCGSTAB needs 4 more float64 vectors).
+// it needs about 35-40 iterations and 76 MB of workspace (6 float64 vectors
+// and one int32 vector of length n, and an int32 copy of the CSR indices;
+// BiCGSTAB needs 4 more float64 vectors).
 //
 // Ridge uses Householder QR of the augmented matrix [X; sqrt(lambda) I],
 // O((m + d) d^2); RLS costs O(d^2) per sample.

@@ -20,7 +20,8 @@ import (
 // goroutine, since independent columns use two cores better than two
 // goroutines sharing one column. With a single column the one solve uses
 // the default parallel split of IterSolver.Solve. Workspace is about 8 n
-// float64 per worker for CG (12 n for BiCGSTAB).
+// float64 and n int32 per worker for CG (12 n float64 for BiCGSTAB), plus
+// one shared int32 copy of P's indices.
 //
 // The error, if any, is that of the lowest-numbered failing column, wrapped
 // with its index; the other columns are still solved and reported. Errors
@@ -64,9 +65,16 @@ func SolveIterativeMulti(dst *mat.Dense, p *CSR, gamma float64, b *mat.Dense, s 
 	}
 	results := make([]IterResult, m)
 	errs := make([]error, m)
+	// Build the int32 index copy once and share it (read-only) among the
+	// workers' solvers.
+	var shared IterSolver
+	shared.p, shared.n = p, n
+	if err := shared.compactIndices(); err != nil {
+		return nil, fmt.Errorf("linalg: iterative multi: %w", err)
+	}
 	var next atomic.Int64
 	work := func() {
-		var is IterSolver
+		is := IterSolver{ptr32: shared.ptr32, ind32: shared.ind32, idxFor: p}
 		xc := make([]float64, n)
 		bc := make([]float64, n)
 		for {
