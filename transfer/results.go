@@ -28,8 +28,24 @@ type Report struct {
 
 // NewReport returns the report of an experiment and its results, stamped
 // with successor.Version and runtime.Version().
+//
+// The configuration is written with every default applied, so the file
+// states the values that ran.
 func NewReport(e *Experiment, r *Results, notes ...string) *Report {
-	return &Report{Library: successor.Version, Go: runtime.Version(), Seeds: e.Seeds, Config: e, Results: r, Notes: notes}
+	c := *e
+	if p, err := c.Pretrain.withDefaults(); err == nil || c.Pretrain.Method == Given {
+		c.Pretrain = p
+	}
+	c.Pretrain.Method = 0 // set per run from Methods
+	if a, err := c.Adapt.withDefaults(); err == nil {
+		c.Adapt = a
+	}
+	if b, err := c.Baseline.withDefaults(); err == nil {
+		c.Baseline = b
+	}
+	c.Gamma = e.gamma()
+	c.Baseline.Gamma = c.Gamma
+	return &Report{Library: successor.Version, Go: runtime.Version(), Seeds: e.Seeds, Config: &c, Results: r, Notes: notes}
 }
 
 // WriteJSON writes the report as indented JSON to path atomically.

@@ -49,7 +49,7 @@ func tinyExperiment(t testing.TB, workers int) *transfer.Experiment {
 		Seeds:     []uint64{1, 2},
 		Budgets:   []int{20, 100},
 		Baselines: true,
-		Pretrain:  transfer.PretrainConfig{Dim: 8, Skills: 16, Steps: 2000, EpisodeSteps: 20},
+		Pretrain:  transfer.PretrainConfig{Dim: 8, Skills: 16, Steps: 4000, EpisodeSteps: 20},
 		Adapt:     transfer.AdaptConfig{EpisodeSteps: 20, SwitchEvery: 10},
 		Workers:   workers,
 	}
@@ -77,10 +77,10 @@ func TestExperimentDeterministic(t *testing.T) {
 	if !reflect.DeepEqual(r2.Records, r3.Records) {
 		t.Error("figures differ between two identical runs")
 	}
-	// Measured: vmf 1.00, given 1.00 (GPI on, 100 labelled steps); the
-	// uniform random policy scores 0 by construction. Threshold 0.5 leaves
-	// room for platform differences in nothing (the run is exact) and
-	// documents "well above random".
+	// Measured: vmf 0.74 (one seed 1.00, the other 0.49), given 1.00 (GPI
+	// on, 100 labelled steps); the uniform random policy scores 0 by
+	// construction. The threshold 0.5 states "well above random"; the run
+	// itself is exact and seeded.
 	for _, v := range []string{"vmf", "given"} {
 		s, ok := r1.Lookup(v, "mean", 100)
 		if !ok {

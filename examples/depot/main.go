@@ -268,7 +268,9 @@ func run(args []string, stdout, stderr io.Writer) error {
 	rep := transfer.NewReport(e, res,
 		"the depot floor and the jobs are invented demo data, not a real site",
 		"pretraining episodes start at a uniformly random free cell; labelled episodes and scores start at the depot's start cell",
-		"pretraining seconds and steps per second depend on the machine; every other figure depends only on the seeds")
+		"pretraining seconds and steps per second depend on the machine; every other figure depends only on the seeds",
+		"config.pretrain is the template of every pretraining run: its method and seed are set per run (methods; seed derived from the run's seed and the method by transfer.DeriveSeed)",
+		"labelled transitions: one run of up to adapt.EpisodeSteps steps from the start cell following the agent's skills in a random order, a new skill every adapt.SwitchEvery steps; the baselines learn online with the same budget")
 	if err := rep.WriteJSON(filepath.Join(o.out, "results.json")); err != nil {
 		return err
 	}
