@@ -17,8 +17,9 @@ import (
 //
 // Columns are shared among s.Workers goroutines (0 means
 // min(2, GOMAXPROCS, m)), each with its own IterSolver running on one
-// goroutine, since independent columns use two cores better than two
-// goroutines sharing one column. With a single column the one solve uses
+// goroutine, so that the columns need no synchronisation between kernels
+// (each column's result is then the same bits whatever the number of
+// workers). With a single column the one solve uses
 // the default parallel split of IterSolver.Solve. Workspace is about 8 n
 // float64 and n int32 per worker for CG (12 n float64 for BiCGSTAB), plus
 // one shared int32 copy of P's indices.
