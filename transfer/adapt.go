@@ -185,8 +185,10 @@ func InferTask(ag *Agent, labelled []Transition, lambda float64) (*Inference, er
 // and is safe for concurrent use.
 type Policy struct {
 	Inference
-	// Fitted reports whether psi(., ., w) itself is the first candidate.
-	Fitted bool
+	// Fitted reports whether the fitted Q(., ., w) is a candidate, and
+	// FitSweeps how many value-iteration sweeps the fit took.
+	Fitted    bool
+	FitSweeps int
 	// Candidates are the skill indices in C, most similar to w first.
 	Candidates []int
 	// Actions is the action of every state.
@@ -204,13 +206,15 @@ func (p *Policy) Act(s int) int { return p.Actions[s] }
 // cfg.Candidates skills most similar to w.
 //
 // The universal SFs are tabulated over the skill set, so psi(., ., w) is not
-// stored; Adapt fits it the way the set was trained: cfg.Fit TD updates on
-// transitions drawn from the agent's reward-free replay buffer with the
-// intrinsic reward phi(s') . w, newest transitions first and backwards in
-// time, starting from zero. This uses no environment step and no reward
-// label. With a negative
-// cfg.Fit the candidate set is the cfg.Candidates + 1 skills nearest to w
-// (GPI over the stored library only).
+// stored. Adapt computes Q(s, a, w) = psi(s, a, w) . w for the policy greedy
+// in it from the agent's reward-free replay buffer: value iteration on the
+// empirical transition model of the buffer with the intrinsic reward
+// phi(s') . w and the skills' discount (a certainty-equivalent fit of
+// psi(., ., w) . w; by linearity the SF vector itself is not needed to act).
+// This uses no environment step and no reward label. State-action pairs
+// absent from the buffer have no fitted value and are left to the skills.
+// With a negative cfg.Fit the candidate set is the cfg.Candidates + 1
+// skills nearest to w (GPI over the stored library only).
 func Adapt(ag *Agent, labelled []Transition, cfg AdaptConfig) (*Policy, error) {
 	c, err := cfg.withDefaults()
 	if err != nil {
@@ -223,12 +227,16 @@ func Adapt(ag *Agent, labelled []Transition, cfg AdaptConfig) (*Policy, error) {
 	return ag.Policy(inf, cfg)
 }
 
-// Policy returns the GPI policy for an inferred task. With cfg.Fit > 0
-// (after defaults) the candidates are psi(., ., w) fitted on the replay
-// buffer plus the cfg.Candidates skills most similar to w; otherwise the
-// cfg.Candidates + 1 skills most similar to w. Candidates = 0 switches GPI
-// off. It returns an error wrapping ErrNoData if a fit is asked for and the
-// replay buffer is empty, or ErrDiverged.
+// Policy returns the GPI policy for an inferred task,
+//
+//	pi(s) = argmax_a max( Q_w(s, a), max_{k in C} psi(s, a, z_k) . w ),
+//
+// with Q_w fitted on the replay buffer (see Adapt; cfg.Fit > 0 after
+// defaults) and C the cfg.Candidates skills most similar to w; without a
+// fit, C is the cfg.Candidates + 1 most similar skills. Ties go to Q_w, then
+// to the most similar skill, then to the lowest action. Candidates = 0
+// switches GPI off. It returns an error wrapping ErrNoData if a fit is asked
+// for and the replay buffer is empty, ErrDiverged, or ErrConfig.
 func (ag *Agent) Policy(inf *Inference, cfg AdaptConfig) (*Policy, error) {
 	c, err := cfg.withDefaults()
 	if err != nil {
@@ -244,85 +252,172 @@ func (ag *Agent) Policy(inf *Inference, cfg AdaptConfig) (*Policy, error) {
 		sims[k] = sim{k, dot(zk, inf.W) / math.Sqrt(dot(zk, zk))}
 	}
 	slices.SortStableFunc(sims, func(x, y sim) int { return cmp.Compare(y.c, x.c) })
-	var srcs []gpi.Source
 	pol := &Policy{Inference: *inf}
 	m := min(c.Candidates+1, ag.k)
+	var qw []float64
 	if c.Fit > 0 {
-		tab, err := ag.fit(inf.W, c.Fit)
+		qw, pol.FitSweeps, err = ag.fitQ(inf.W, c.Fit)
 		if err != nil {
 			return nil, err
 		}
-		srcs = append(srcs, tableSource{tab: tab, a: ag.a, d: ag.d})
 		pol.Fitted = true
 		m = min(c.Candidates, ag.k)
 	}
+	srcs := make([]gpi.Source, m)
 	for i := range m {
 		pol.Candidates = append(pol.Candidates, sims[i].k)
-		srcs = append(srcs, ag.Source(sims[i].k))
+		srcs[i] = ag.Source(sims[i].k)
 	}
 	var sel gpi.Selector
 	pol.Actions = make(mdp.Deterministic, ag.n)
+	na := ag.a
 	for s := range ag.n {
-		a, _, _ := sel.Act(inf.W, s, srcs...)
-		if a < 0 {
-			a = 0 // NaN cannot occur: training, fit and InferTask reject non-finite values.
+		best, act := math.Inf(-1), -1
+		if qw != nil {
+			for a, v := range qw[s*na : (s+1)*na] {
+				if v > best {
+					best, act = v, a
+				}
+			}
 		}
-		pol.Actions[s] = a
+		if len(srcs) > 0 {
+			a, _, v := sel.Act(inf.W, s, srcs...)
+			if v > best || act < 0 {
+				best, act = v, a
+			}
+		}
+		if act < 0 {
+			act = 0 // no candidate knows s (no fitted value, GPI off)
+		}
+		pol.Actions[s] = act
 	}
 	return pol, nil
 }
 
-// fit returns psi(., ., w) fitted by updates TD steps on replayed
-// transitions, newest first and backwards in time, starting from zero.
-// (Starting from the nearest skill's table was tried: its values of
-// self-loops decay only as gamma^n and misled the greedy policy.)
-func (ag *Agent) fit(w []float64, updates int) ([]float64, error) {
-	rb := &ag.replay
-	if rb.count == 0 {
-		return nil, fmt.Errorf("transfer: adapt: fit needs the replay buffer: %w", ErrNoData)
+// fitQ returns Q_w(s, a) = psi(s, a, w) . w of the policy greedy in it, by
+// Gauss-Seidel value iteration on the empirical model of the replay buffer
+// with reward phi(s') . w and discount gamma of the skills, for at most
+// sweeps sweeps or until the largest change is below 1e-9 (1 + max |Q|).
+// Pairs absent from the buffer get -Inf; states with no known action count
+// as value 0 when bootstrapped from.
+func (ag *Agent) fitQ(w []float64, sweeps int) ([]float64, int, error) {
+	mod := ag.model()
+	if mod == nil {
+		return nil, 0, fmt.Errorf("transfer: adapt: fit needs the replay buffer: %w", ErrNoData)
 	}
-	d, na := ag.d, ag.a
-	tab := make([]float64, ag.n*na*d)
-	g, lr := ag.cfg.Gamma, ag.cfg.LearnRate
-	for u := range updates {
-		// Newest first, backwards through time, cyclically: a backward pass
-		// over an episode carries values along it in one sweep (as in the
-		// episodic backward update of Lee et al. 2019).
-		i := ((rb.pos-1-u)%rb.count + rb.count) % rb.count
-		s, a, next := int(rb.s[i]), int(rb.a[i]), int(rb.next[i])
-		phi := ag.phi[next*d : (next+1)*d]
-		row := tab[(s*na+a)*d : (s*na+a+1)*d]
-		var nb []float64
-		if !rb.term[i] {
-			rows := tab[next*na*d : (next+1)*na*d]
-			b := argmaxRows(rows, w, na, nil)
-			nb = rows[b*d : (b+1)*d]
+	n, na, d := ag.n, ag.a, ag.d
+	r := make([]float64, n)
+	for s := range n {
+		r[s] = dot(ag.phi[s*d:(s+1)*d], w)
+	}
+	q := make([]float64, n*na)
+	v := make([]float64, n)
+	for i := range q {
+		if mod.ptr[i] == mod.ptr[i+1] {
+			q[i] = math.Inf(-1)
 		}
-		for j := range d {
-			t := phi[j]
-			if nb != nil {
-				t += g * nb[j]
+	}
+	g := ag.cfg.Gamma
+	done := 0
+	for done < sweeps {
+		done++
+		var change, scale float64
+		// Backwards over states: values flow against the direction most
+		// episodes of a grid are stored in; any order converges.
+		for s := n - 1; s >= 0; s-- {
+			best := math.Inf(-1)
+			for a := range na {
+				i := s*na + a
+				lo, hi := mod.ptr[i], mod.ptr[i+1]
+				if lo == hi {
+					continue
+				}
+				var x float64
+				for k := lo; k < hi; k++ {
+					nx := mod.next[k]
+					t := r[nx]
+					if !mod.term[k] {
+						t += g * v[nx]
+					}
+					x += mod.prob[k] * t
+				}
+				change = max(change, math.Abs(x-q[i]))
+				scale = max(scale, math.Abs(x))
+				q[i] = x
+				best = max(best, x)
 			}
-			row[j] += lr * (t - row[j])
+			if best > math.Inf(-1) {
+				v[s] = best
+			}
+		}
+		if math.IsNaN(change) || math.IsInf(scale, 0) {
+			return nil, done, fmt.Errorf("transfer: adapt: fitted values: %w", ErrDiverged)
+		}
+		if change <= 1e-9*(1+scale) {
+			break
 		}
 	}
-	for _, v := range tab {
-		if math.IsNaN(v) || math.IsInf(v, 0) {
-			return nil, fmt.Errorf("transfer: adapt: fitted successor features: %w", ErrDiverged)
-		}
+	return q, done, nil
+}
+
+// empirical is the empirical transition model of the replay buffer: for
+// pair i = s*A + a the entries ptr[i]:ptr[i+1] of next, prob and term.
+type empirical struct {
+	ptr  []int
+	next []int
+	prob []float64
+	term []bool
+}
+
+// model returns the empirical model of the replay buffer (nil if it is
+// empty), built once after training and cached.
+func (ag *Agent) model() *empirical {
+	ag.modelMu.Lock()
+	defer ag.modelMu.Unlock()
+	if ag.emp != nil || ag.replay.count == 0 {
+		return ag.emp
 	}
-	return tab, nil
+	rb := &ag.replay
+	na := ag.a
+	type key struct {
+		next int32
+		term bool
+	}
+	counts := make([]map[key]int, ag.n*na)
+	for i := range rb.count {
+		p := int(rb.s[i])*na + int(rb.a[i])
+		if counts[p] == nil {
+			counts[p] = map[key]int{}
+		}
+		counts[p][key{rb.next[i], rb.term[i]}]++
+	}
+	e := &empirical{ptr: make([]int, len(counts)+1)}
+	for p, c := range counts {
+		keys := make([]key, 0, len(c))
+		tot := 0
+		for k, v := range c {
+			keys = append(keys, k)
+			tot += v
+		}
+		slices.SortFunc(keys, func(x, y key) int {
+			if x.next != y.next {
+				return cmp.Compare(x.next, y.next)
+			}
+			if x.term == y.term {
+				return 0
+			}
+			if !x.term {
+				return -1
+			}
+			return 1
+		})
+		for _, k := range keys {
+			e.next = append(e.next, int(k.next))
+			e.prob = append(e.prob, float64(c[k])/float64(tot))
+			e.term = append(e.term, k.term)
+		}
+		e.ptr[p+1] = len(e.next)
+	}
+	ag.emp = e
+	return e
 }
-
-// tableSource is a GPI source over a flat psi table.
-type tableSource struct {
-	tab  []float64
-	a, d int
-}
-
-func (t tableSource) Shape() (int, int) { return t.a, t.d }
-func (t tableSource) State(s int) []float64 {
-	n := t.a * t.d
-	return t.tab[s*n : (s+1)*n : (s+1)*n]
-}
-func (t tableSource) Psi(dst []float64, s int) { copy(dst, t.State(s)) }

@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"math"
 	"math/rand/v2"
+	"sync"
 
 	"github.com/successor-go/successor/gpi"
 	"github.com/successor-go/successor/mdp"
@@ -63,6 +64,11 @@ type Agent struct {
 
 	// Scratch.
 	target []float64
+
+	// The empirical model of the replay buffer, built on first use by
+	// Policy and dropped when training continues.
+	modelMu sync.Mutex
+	emp     *empirical
 }
 
 // NumStates returns the number of states the agent was trained on.

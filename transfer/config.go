@@ -247,10 +247,10 @@ type AdaptConfig struct {
 	// join w in the GPI candidate set. 0 means 8; a negative value means 0,
 	// which switches GPI off (the policy greedy in psi(s, ., w) . w).
 	Candidates int
-	// Fit is the number of TD updates on the reward-free replay buffer that
-	// fit psi(., ., w) for the inferred w (see Adapt). 0 means 20000; a
-	// negative value means none: the candidate set is then the
-	// Candidates + 1 skills most similar to w.
+	// Fit is the largest number of value-iteration sweeps that fit
+	// Q(., ., w) on the replay buffer (see Adapt). 0 means 2000; a negative
+	// value means no fit: the candidate set is then the Candidates + 1
+	// skills most similar to w.
 	Fit int
 	// Explore is the rule that collects labelled transitions.
 	Explore Explore
@@ -274,7 +274,7 @@ func (cfg AdaptConfig) withDefaults() (AdaptConfig, error) {
 	if c.Candidates < 0 {
 		c.Candidates = 0
 	}
-	setI(&c.Fit, 20000)
+	setI(&c.Fit, 2000)
 	if c.Fit < 0 {
 		c.Fit = 0
 	}

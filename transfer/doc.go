@@ -59,8 +59,13 @@
 //	pi(s) = argmax_a max_{z in C} psi(s, a, z) . w,
 //
 // with C = {w} plus the N skills most similar to w; N = 0 switches GPI off.
-// psi(., ., w) is fitted by TD on the agent's reward-free replay buffer with
-// the intrinsic reward phi(s') . w (no environment step, no reward label).
+// The tables hold psi only at the skills, so psi(., ., w) . w is fitted
+// from the agent's reward-free replay buffer: value iteration on the
+// empirical transition model of the buffer with the intrinsic reward
+// phi(s') . w (no environment step, no reward label; O(sweeps x stored
+// pairs x A)). We first fitted psi(., ., w) by TD on the buffer; at the
+// skills' horizon (gamma = 0.99) tens of thousands of updates left it far
+// from converged, so value iteration replaced it.
 //
 // The labelled transitions are collected by Collect with a stated rule: the
 // agent follows its own skills from the task's start state, moving to the

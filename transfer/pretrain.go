@@ -80,6 +80,9 @@ func Resume(env Env, path string, cfg PretrainConfig) (*Agent, error) {
 
 // train runs episodes until ag.cfg.Steps.
 func (ag *Agent) train(env Env) error {
+	ag.modelMu.Lock()
+	ag.emp = nil
+	ag.modelMu.Unlock()
 	c := &ag.cfg
 	eps := c.Epsilon
 	for ag.steps < c.Steps {
