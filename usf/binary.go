@@ -337,7 +337,7 @@ func (l *Linear) UnmarshalBinary(data []byte) error {
 }
 
 // MarshalBinary encodes u exactly: magic "USNN", version, obs, actions, d,
-// gamma, clip, target period, tau, updates, then length-prefixed the
+// gamma, clip, target period, tau, online selection (0/1), updates, then length-prefixed the
 // online network, the target network and the Adam state (their own
 // checksummed formats, package internal/nn), CRC-32.
 func (u *Neural) MarshalBinary() ([]byte, error) {
@@ -349,6 +349,11 @@ func (u *Neural) MarshalBinary() ([]byte, error) {
 	e.f64(u.clip)
 	e.int(u.targetEvery)
 	e.f64(u.tau)
+	onl := 0
+	if u.online {
+		onl = 1
+	}
+	e.int(onl)
 	e.int(u.updates)
 	for _, m := range []interface{ MarshalBinary() ([]byte, error) }{u.net, u.target, u.opt} {
 		b, err := m.MarshalBinary()
@@ -374,12 +379,14 @@ func (u *Neural) UnmarshalBinary(data []byte) error {
 	n.gamma, n.clip = dec.f64(), dec.f64()
 	n.targetEvery = dec.int()
 	n.tau = dec.f64()
+	onl := dec.int()
+	n.online = onl == 1
 	n.updates = dec.int()
 	bnet, btgt, bopt := dec.bytes(), dec.bytes(), dec.bytes()
 	if err := dec.done(what); err != nil {
 		return err
 	}
-	if n.obs <= 0 || n.na <= 0 || n.d <= 0 || n.updates < 0 || n.targetEvery <= 0 ||
+	if n.obs <= 0 || n.na <= 0 || n.d <= 0 || n.updates < 0 || n.targetEvery <= 0 || (onl != 0 && onl != 1) ||
 		!(n.gamma >= 0 && n.gamma <= 1) || !(n.tau >= 0 && n.tau <= 1) || math.IsNaN(n.clip) {
 		return corrupt(what, "bad settings")
 	}

@@ -27,7 +27,7 @@ func newRun(t testing.TB) *run {
 	p := randomProblem(t, 12, 8, 3, 3, 0.25)
 	pcg := rand.NewPCG(12, 34)
 	rng := rand.New(pcg)
-	u, err := NewNeural(8, 3, 3, p.gamma, &NeuralConfig{Hidden: []int{16, 16}, MaxBatch: 16, TargetEvery: 7}, rng)
+	u, err := NewNeural(8, 3, 3, p.gamma, &NeuralConfig{Hidden: []int{16, 16}, MaxBatch: 16, TargetEvery: 7, OnlineSelect: true}, rng)
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -31,6 +31,13 @@ type NeuralConfig struct {
 	// Tau > 0 selects Polyak averaging instead: after every update,
 	// target = (1 - Tau) target + Tau online. Tau must be at most 1.
 	Tau float64
+	// OnlineSelect chooses the greedy next action a' with the online
+	// network and evaluates psi(s', a', z) with the target network (the
+	// double estimator of van Hasselt, Guez and Silver 2016, "Deep
+	// reinforcement learning with double Q-learning", eq. 4), which
+	// reduces the upward bias of the max. It costs one more forward pass.
+	// False selects a' with the target network.
+	OnlineSelect bool
 }
 
 // Neural is a universal SF given by a multilayer perceptron on the
@@ -47,12 +54,14 @@ type Neural struct {
 	clip        float64
 	targetEvery int
 	tau         float64
+	online      bool // OnlineSelect
 	updates     int
 	err         error
 
 	in, inNext []float64 // MaxBatch*(obs+d)
 	tgt        []float64 // MaxBatch*d
 	dy         []float64 // MaxBatch*A*d
+	choice     []int     // MaxBatch next actions chosen by the online network
 }
 
 // NewNeural returns a neural USF for observations of dimension obs, the
@@ -117,6 +126,7 @@ func NewNeural(obs, actions, dim int, gamma float64, cfg *NeuralConfig, rng *ran
 		clip:        c.Clip,
 		targetEvery: c.TargetEvery,
 		tau:         c.Tau,
+		online:      c.OnlineSelect,
 	}
 	u.alloc()
 	return u, nil
@@ -129,6 +139,7 @@ func (u *Neural) alloc() {
 	u.inNext = make([]float64, mb*(u.obs+u.d))
 	u.tgt = make([]float64, mb*u.d)
 	u.dy = make([]float64, mb*u.na*u.d)
+	u.choice = make([]int, mb)
 }
 
 // Shape returns the observation dimension, actions and features.
@@ -212,8 +223,9 @@ func (u *Neural) inputs(dst []float64, b *Batch, next bool) {
 
 // Update makes one minibatch semi-gradient TD(0) step on b (1 <= n <=
 // MaxBatch transitions): targets phi + gamma (1-terminal) psi_target(s',
-// a', z), with a' the given next action or greedy in psi_target(s', ., z) . z;
-// the loss (1/(2n)) sum_i ||psi(s_i, a_i, z_i) - y_i||^2; backpropagation,
+// a', z), with a' the given next action or greedy in psi_target(s', ., z) . z
+// (in the online psi(s', ., z) . z with OnlineSelect); the loss
+// (1/(2n)) sum_i ||psi(s_i, a_i, z_i) - y_i||^2; backpropagation,
 // gradient-norm clipping and one Adam step; then the target update (a hard
 // copy every TargetEvery updates, or Polyak with Tau). It reads X and NextX
 // if set, else one-hot observations of S and Next. It returns the loss
@@ -232,6 +244,12 @@ func (u *Neural) Update(b *Batch) (float64, error) {
 	w, d, ad := u.obs+u.d, u.d, u.na*u.d
 
 	u.inputs(u.inNext[:n*w], b, true)
+	if u.online {
+		yo := u.net.Forward(u.inNext[:n*w], n)
+		for i := 0; i < n; i++ {
+			u.choice[i] = greedy(yo[i*ad:(i+1)*ad], b.Z[i*d:(i+1)*d], u.na)
+		}
+	}
 	yn := u.target.Forward(u.inNext[:n*w], n)
 	for i := 0; i < n; i++ {
 		t := u.tgt[i*d : (i+1)*d]
@@ -241,7 +259,9 @@ func (u *Neural) Update(b *Batch) (float64, error) {
 		}
 		psi := yn[i*ad : (i+1)*ad]
 		an := b.nextAction(i)
-		if an < 0 {
+		if an < 0 && u.online {
+			an = u.choice[i]
+		} else if an < 0 {
 			an = greedy(psi, b.Z[i*d:(i+1)*d], u.na)
 		}
 		for k, v := range psi[an*d : (an+1)*d] {

@@ -13,16 +13,24 @@ import (
 // loss must equal (1/(2n)) sum ||psi(s,a,z) - y||^2 computed from Psi and
 // PsiTarget, with y = phi + gamma psi_target(s', a', z), a' the given next
 // action or greedy in psi_target(s', ., z) . z, and no bootstrap at a
-// terminal s'. Observations both as X rows and as one-hot states.
+// terminal s'; with OnlineSelect, a' is greedy in the online Psi instead.
+// Observations both as X rows and as one-hot states.
 func TestNeuralLossMatchesPsi(t *testing.T) {
+	for _, online := range []bool{false, true} {
+		testNeuralLoss(t, online)
+	}
+}
+
+func testNeuralLoss(t *testing.T, online bool) {
 	p := randomProblem(t, 21, 7, 3, 4, 0.3)
 	rng := rand.New(rand.NewPCG(21, 21))
-	u, err := NewNeural(7, 3, 4, p.gamma, &NeuralConfig{Hidden: []int{12}, MaxBatch: 20, Tanh: true}, rng)
+	u, err := NewNeural(7, 3, 4, p.gamma, &NeuralConfig{Hidden: []int{12}, MaxBatch: 20, Tanh: true, OnlineSelect: online, TargetEvery: 3}, rng)
 	if err != nil {
 		t.Fatal(err)
 	}
 	sp := newSampler(p, unitVectors(rng, 6, 4))
 	b := NewBatch(20, 7, 4)
+	psiO := make([]float64, 12)
 	for _, oneHot := range []bool{false, true} {
 		for range 5 {
 			sp.fill(b, rng)
@@ -41,7 +49,10 @@ func TestNeuralLossMatchesPsi(t *testing.T) {
 				u.Psi(psi, x, z)
 				u.PsiTarget(psiN, xn, z)
 				an := b.NextA[i]
-				if an < 0 {
+				if an < 0 && online {
+					u.Psi(psiO, xn, z)
+					an = greedy(psiO, z, 3)
+				} else if an < 0 {
 					an = greedy(psiN, z, 3)
 				}
 				for k := 0; k < 4; k++ {
@@ -59,7 +70,7 @@ func TestNeuralLossMatchesPsi(t *testing.T) {
 				t.Fatal(err)
 			}
 			if math.Abs(got-want) > tolExact*(1+want) {
-				t.Fatalf("one-hot %v: loss %.15g, from Psi %.15g", oneHot, got, want)
+				t.Fatalf("online %v one-hot %v: loss %.15g, from Psi %.15g", online, oneHot, got, want)
 			}
 		}
 	}
