@@ -39,7 +39,13 @@
 //
 // Tabular keeps one sf.Table per z of a finite set Z (psi(s, a, z_k) =
 // T_k[s, a]); observations must be one-hot. Updates are online TD(0) with
-// the per-pair step schedule of sf.StepSize.
+// the per-(z, s, a) step schedule of sf.StepSize.
+//
+// Cost per transition: Tabular O(K d + A d) (the z lookup and the greedy
+// next action), Linear with one-hot x O(A d e) with e = d (+1 with Affine),
+// and O(nnz(x) A d e) with a dense x; Neural one forward pass of the target
+// network and one forward and backward pass of the online network per
+// minibatch (about 2 n sum_l in_l out_l flops each).
 //
 // Linear is linear in the joint feature x(s) (outer) z:
 //
@@ -57,8 +63,10 @@
 // It trains on minibatches (typically from a Replay) with Adam and
 // gradient-norm clipping; the TD target uses a target network, copied from
 // the online network every TargetEvery updates (the default) or, if Tau > 0,
-// moved toward it by Polyak averaging after every update. Both the target's
-// psi(s', ., z) and the greedy a' = pi_z(s') come from the target network.
+// moved toward it by Polyak averaging after every update. The target's
+// psi(s', ., z) comes from the target network, and so does the greedy
+// a' = pi_z(s') unless OnlineSelect picks it with the online network (the
+// double estimator of van Hasselt et al. 2016).
 //
 // # GPI
 //
