@@ -180,7 +180,7 @@ func Unmarshal(data []byte) (*Agent, error) {
 	if err := c.validate(); err != nil || c.Steps < 0 || c.EpisodeSteps < 1 || c.Batch < 1 || c.Replay < 1 {
 		return nil, bad("invalid configuration")
 	}
-	if ns <= 0 || na <= 0 || nd != c.Dim || ns > len(data) || na > len(data) || c.Replay > len(data) {
+	if ns <= 0 || na <= 0 || nd != c.Dim || ns > len(data) || na > len(data) {
 		return nil, bad("invalid sizes")
 	}
 	if c.Method == Categorical {

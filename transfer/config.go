@@ -84,6 +84,9 @@ func (m *Method) UnmarshalText(b []byte) error {
 	return nil
 }
 
+// MaxReplay is the largest replay capacity (about 300 MB of transitions).
+const MaxReplay = 1 << 24
+
 // PretrainConfig configures the reward-free phase. The zero value means the
 // documented defaults; negative values are errors unless stated otherwise.
 type PretrainConfig struct {
@@ -122,7 +125,8 @@ type PretrainConfig struct {
 	// Batch is the minibatch size drawn from the replay buffer at every
 	// step, for both the discriminator and the USF. 0 means 16.
 	Batch int
-	// Replay is the replay buffer capacity in transitions. 0 means 50000.
+	// Replay is the replay buffer capacity in transitions. 0 means 50000;
+	// at most MaxReplay.
 	Replay int
 	// LearnRate is the TD step size of the successor features. 0 means 0.2.
 	LearnRate float64
@@ -211,6 +215,8 @@ func (c PretrainConfig) validate() error {
 		return fmt.Errorf("transfer: %d skills, relabel %d: %w", c.Skills, c.Relabel, ErrConfig)
 	case !(c.Kappa > 0) || math.IsInf(c.Kappa, 0):
 		return fmt.Errorf("transfer: kappa %v: %w", c.Kappa, ErrConfig)
+	case c.Replay > MaxReplay:
+		return fmt.Errorf("transfer: replay capacity %d above %d: %w", c.Replay, MaxReplay, ErrConfig)
 	case c.Steps < 0 || c.EpisodeSteps < 0 || c.Batch < 0 || c.Replay < 0:
 		return fmt.Errorf("transfer: negative count: %w", ErrConfig)
 	case !(c.Gamma > 0 && c.Gamma < 1):

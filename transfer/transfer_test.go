@@ -237,3 +237,49 @@ func TestConfigErrors(t *testing.T) {
 		t.Errorf("Adapt without data: got %v, want ErrNoData", err)
 	}
 }
+
+// TestCollect checks the labelled budget is exact under both rules and that
+// uniform exploration needs no agent.
+func TestCollect(t *testing.T) {
+	g, _ := tinyGrid(t)
+	w, _ := g.Weights(map[string]float64{"apple": 1})
+	r, _ := g.PlaceReward(w)
+	env := transfer.NewFiniteEnv(g.MDP, 0)
+	for _, k := range []int{0, 1, 37, 200} {
+		lab, err := transfer.Collect(env, nil, r, k, transfer.AdaptConfig{Explore: transfer.ExploreUniform, EpisodeSteps: 15}, 1)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if len(lab) != k {
+			t.Errorf("uniform: %d transitions, want %d", len(lab), k)
+		}
+		for _, l := range lab {
+			if l.Reward != r(l.S, l.A, l.Next) {
+				t.Fatalf("transition %+v mislabelled", l)
+			}
+		}
+	}
+	if _, err := transfer.Collect(env, nil, r, 5, transfer.AdaptConfig{}, 1); !errors.Is(err, transfer.ErrConfig) {
+		t.Errorf("skills without an agent: got %v, want ErrConfig", err)
+	}
+	if _, err := transfer.Collect(env, nil, r, -1, transfer.AdaptConfig{Explore: transfer.ExploreUniform}, 1); !errors.Is(err, transfer.ErrConfig) {
+		t.Errorf("negative budget: got %v, want ErrConfig", err)
+	}
+}
+
+// TestResumeMismatch checks that a checkpoint cannot be resumed on an
+// environment of another size.
+func TestResumeMismatch(t *testing.T) {
+	g, _ := tinyGrid(t)
+	path := filepath.Join(t.TempDir(), "ck")
+	if _, err := transfer.Pretrain(transfer.NewFiniteEnv(g.MDP, 0), transfer.PretrainConfig{Dim: 3, Skills: 4, Steps: 50, EpisodeSteps: 10, CheckpointPath: path}); err != nil {
+		t.Fatal(err)
+	}
+	d, err := mdp.Depot()
+	if err != nil {
+		t.Fatal(err)
+	}
+	if _, err := transfer.Resume(transfer.NewFiniteEnv(d.MDP, 0), path, transfer.PretrainConfig{Steps: 100}); !errors.Is(err, transfer.ErrConfig) {
+		t.Errorf("got %v, want ErrConfig", err)
+	}
+}

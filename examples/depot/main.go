@@ -56,7 +56,7 @@ type options struct {
 }
 
 // errUsage marks a bad command line (exit status 2).
-var errUsage = errors.New("usage")
+var errUsage = errors.New("bad command line")
 
 func main() {
 	if err := run(os.Args[1:], os.Stdout, os.Stderr); err != nil {
