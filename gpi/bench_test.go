@@ -15,13 +15,14 @@ import (
 // BenchmarkAct times one GPI choice over k sources with 4 actions and d = 64
 // (k*4 dot products of length 64). "table" sources are *sf.Table, read in
 // place; "copy" sources only implement Psi, so each is copied into the
-// selector's scratch first. The state is fixed, as in a matmul-and-argmax
-// over one stacked matrix; "states" cycles through 64 states so the psi rows
-// come from the caches below L1.
+// selector's scratch first; "stack" is Selector.ActStack over the same
+// tables stacked state-major (one matrix-vector product). The state is
+// fixed, as in a matmul-and-argmax over one stacked matrix; "states" cycles
+// through 64 states so the psi rows come from the caches below L1.
 func BenchmarkAct(b *testing.B) {
 	const states, actions, dim = 64, 4, 64
 	for _, k := range []int{10, 100} {
-		for _, kind := range []string{"table", "copy", "states"} {
+		for _, kind := range []string{"table", "copy", "states", "stack"} {
 			b.Run(fmt.Sprintf("sources=%d/%s", k, kind), func(b *testing.B) {
 				rng := rand.New(rand.NewPCG(1, 2))
 				src := make([]Source, k)
@@ -41,6 +42,17 @@ func BenchmarkAct(b *testing.B) {
 					w[i] = rng.NormFloat64()
 				}
 				var sel Selector
+				if kind == "stack" {
+					st, err := NewStack(states, src...)
+					if err != nil {
+						b.Fatal(err)
+					}
+					b.ReportAllocs()
+					for b.Loop() {
+						sel.ActStack(w, 3, st)
+					}
+					return
+				}
 				s, step := 3, 0
 				if kind == "states" {
 					step = 1
