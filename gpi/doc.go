@@ -21,8 +21,11 @@
 // lowest action. A Selector keeps scratch space, so that choosing an action
 // allocates nothing; *sf.Table and any Viewer are read in place, other
 // sources are copied into the scratch with their Psi method. The cost of a
-// choice is k*A dot products of length d (matrix-vector products, assembly
-// on amd64 through gonum for A*d >= 64).
+// choice is k*A dot products of length d (one matrix-vector product per
+// source, assembly on amd64 through gonum for A*d >= 64). For a fixed
+// library of policies, a Stack stores the sources state-major so that
+// Selector.ActStack makes the same choice with a single matrix-vector
+// product over k*A rows.
 //
 // # Exact evaluation and the theorems
 //
