@@ -2,7 +2,9 @@ package usf
 
 import (
 	"bytes"
+	"encoding/binary"
 	"errors"
+	"hash/crc32"
 	"math/rand/v2"
 	"testing"
 
@@ -196,6 +198,20 @@ func flipByte(b []byte, i int) []byte {
 // fuzzRoundTrip checks that a loader never panics, that every error wraps
 // ErrCorrupt, and that accepted bytes marshal back to themselves.
 func fuzzRoundTrip[T any, P interface {
+	*T
+	UnmarshalBinary([]byte) error
+	MarshalBinary() ([]byte, error)
+}](t *testing.T, data []byte) {
+	roundTrip[T, P](t, data)
+	// Re-seal the mutated bytes with a valid checksum so that mutations
+	// reach the field checks, not only the CRC.
+	if len(data) >= 4 {
+		body := bytes.Clone(data[:len(data)-4])
+		roundTrip[T, P](t, binary.LittleEndian.AppendUint32(body, crc32.ChecksumIEEE(body)))
+	}
+}
+
+func roundTrip[T any, P interface {
 	*T
 	UnmarshalBinary([]byte) error
 	MarshalBinary() ([]byte, error)
