@@ -22,14 +22,25 @@ type Transition struct {
 // Collect gathers k reward-labelled transitions by acting in env with the
 // rule cfg.Explore, labelling each with reward(s, a, s'). Episodes start with
 // env.Reset and end at a terminal state, a truncation or after
-// cfg.EpisodeSteps steps. With ExploreSkills the agent follows its skills,
-// acting epsilon-greedily (cfg.Epsilon) on psi(s, ., z_k) . z_k and
-// switching to the next skill every cfg.SwitchEvery steps and at every
-// episode start; the skills are taken in a random order without repetition
-// (a fresh random permutation each time all have been used), so the
-// labelled steps spread over the places the skills reach; with ExploreUniform every action is uniformly random
-// (ag may then be nil). The labelled transitions are the whole budget:
-// nothing else about the task is revealed. seed determines the draws.
+// cfg.EpisodeSteps steps. The rules:
+//
+//   - ExploreSkills: the agent follows its skills, acting epsilon-greedily
+//     (cfg.Epsilon) on psi(s, ., z_k) . z_k and moving to the next skill
+//     every cfg.SwitchEvery steps and at every episode start; the skills are
+//     taken in a random order without repetition (a fresh random
+//     permutation each time all have been used), so the labelled steps
+//     spread over the places the skills reach.
+//   - ExploreGreedy: the first cfg.Warmup steps as ExploreSkills; then the
+//     agent acts epsilon-greedily with the policy Adapt would return from
+//     the transitions labelled so far (same cfg), re-inferred every
+//     cfg.SwitchEvery steps. Going where it believes the reward is, it
+//     labels exactly those places and corrects its belief.
+//   - ExploreUniform: every action is uniformly random (ag may be nil).
+//
+// The labelled transitions are the whole budget: nothing else about the
+// task is revealed. The rules never look ahead at k, so the first j
+// transitions of a collection of k are a collection of j. seed determines
+// the draws.
 func Collect(env mdp.Env, ag *Agent, reward mdp.Reward, k int, cfg AdaptConfig, seed uint64) ([]Transition, error) {
 	c, err := cfg.withDefaults()
 	if err != nil {
@@ -38,7 +49,7 @@ func Collect(env mdp.Env, ag *Agent, reward mdp.Reward, k int, cfg AdaptConfig, 
 	if k < 0 {
 		return nil, fmt.Errorf("transfer: collect: budget %d: %w", k, ErrConfig)
 	}
-	if c.Explore == ExploreSkills && ag == nil {
+	if c.Explore != ExploreUniform && ag == nil {
 		return nil, fmt.Errorf("transfer: collect: skill exploration needs an agent: %w", ErrConfig)
 	}
 	rng := rand.New(rand.NewPCG(seed, streamCollect))
@@ -53,20 +64,34 @@ func Collect(env mdp.Env, ag *Agent, reward mdp.Reward, k int, cfg AdaptConfig, 
 		order = order[1:]
 		return k
 	}
+	var pol *Policy
 	for len(out) < k {
 		var skill int
-		if c.Explore == ExploreSkills {
+		if c.Explore != ExploreUniform {
 			skill = nextSkill()
 		}
 		s := env.Reset(rng)
 		for t := 0; t < c.EpisodeSteps && len(out) < k; t++ {
-			if c.Explore == ExploreSkills && t > 0 && t%c.SwitchEvery == 0 {
+			greedy := c.Explore == ExploreGreedy && len(out) >= c.Warmup
+			if greedy && (len(out)-c.Warmup)%c.SwitchEvery == 0 {
+				inf, err := InferTask(ag, out, c.Ridge)
+				if err == nil {
+					pol, err = ag.Policy(inf, cfg)
+				}
+				if err != nil {
+					return nil, fmt.Errorf("transfer: collect: %w", err)
+				}
+			}
+			if !greedy && c.Explore != ExploreUniform && t > 0 && t%c.SwitchEvery == 0 {
 				skill = nextSkill()
 			}
 			var a int
-			if c.Explore == ExploreUniform || rng.Float64() < c.Epsilon {
+			switch {
+			case c.Explore == ExploreUniform || rng.Float64() < c.Epsilon:
 				a = rng.IntN(na)
-			} else {
+			case greedy:
+				a = pol.Act(s)
+			default:
 				a = ag.actSkill(skill, s, rng)
 			}
 			next, term, trunc := env.Step(a, rng)

@@ -241,6 +241,9 @@ const (
 	ExploreSkills Explore = iota
 	// ExploreUniform takes uniformly random actions.
 	ExploreUniform
+	// ExploreGreedy follows the skills for a warm-up, then acts
+	// epsilon-greedily with the policy adapted to the labels so far.
+	ExploreGreedy
 )
 
 // AdaptConfig configures task inference and the acting policy. The zero
@@ -266,8 +269,12 @@ type AdaptConfig struct {
 	// EpisodeSteps is the time limit of a labelled episode. 0 means 1000.
 	EpisodeSteps int
 	// SwitchEvery is the number of steps after which ExploreSkills moves to
-	// the next skill within an episode. 0 means 40.
+	// the next skill within an episode, and after which ExploreGreedy
+	// re-infers the task. 0 means 40.
 	SwitchEvery int
+	// Warmup is the number of skill-following steps before ExploreGreedy
+	// starts acting on its inferred task. 0 means 200.
+	Warmup int
 }
 
 func (cfg AdaptConfig) withDefaults() (AdaptConfig, error) {
@@ -290,7 +297,10 @@ func (cfg AdaptConfig) withDefaults() (AdaptConfig, error) {
 	}
 	setI(&c.EpisodeSteps, 1000)
 	setI(&c.SwitchEvery, 40)
+	setI(&c.Warmup, 200)
 	switch {
+	case c.Warmup < 0:
+		return c, fmt.Errorf("transfer: warm-up %d: %w", c.Warmup, ErrConfig)
 	case c.SwitchEvery < 1:
 		return c, fmt.Errorf("transfer: switch every %d: %w", c.SwitchEvery, ErrConfig)
 	case math.IsNaN(c.Ridge) || math.IsInf(c.Ridge, 0):
@@ -299,7 +309,7 @@ func (cfg AdaptConfig) withDefaults() (AdaptConfig, error) {
 		return c, fmt.Errorf("transfer: epsilon %v: %w", c.Epsilon, ErrConfig)
 	case c.EpisodeSteps < 0:
 		return c, fmt.Errorf("transfer: episode steps %d: %w", c.EpisodeSteps, ErrConfig)
-	case c.Explore != ExploreSkills && c.Explore != ExploreUniform:
+	case c.Explore < ExploreSkills || c.Explore > ExploreGreedy:
 		return c, fmt.Errorf("transfer: explore rule %d: %w", int(c.Explore), ErrConfig)
 	}
 	return c, nil

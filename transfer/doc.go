@@ -70,7 +70,9 @@
 // The labelled transitions are collected by Collect with a stated rule: the
 // agent follows its own skills from the task's start state, moving to the
 // next skill of a random permutation every AdaptConfig.SwitchEvery steps
-// (ExploreSkills), or takes uniformly random actions (ExploreUniform). Their
+// (ExploreSkills), follows them for a warm-up and then acts on the task
+// inferred so far (ExploreGreedy), or takes uniformly random actions
+// (ExploreUniform). Their
 // count is the labelled budget; baselines get the same budget.
 //
 // # Evaluation

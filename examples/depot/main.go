@@ -53,6 +53,7 @@ type options struct {
 	steps      int
 	cpuProfile string
 	noPlots    bool
+	explore    transfer.Explore
 }
 
 // errUsage marks a bad command line (exit status 2).
@@ -84,6 +85,8 @@ func parseFlags(args []string, stderr io.Writer) (*options, error) {
 	fs.IntVar(&o.steps, "steps", 0, "pretraining steps per run (0: the default, 100000; -quick 8000)")
 	fs.StringVar(&o.cpuProfile, "cpuprofile", "", "write a CPU profile of the whole run to this file")
 	fs.BoolVar(&o.noPlots, "noplots", false, "skip the PNG figures")
+	var explore string
+	fs.StringVar(&explore, "explore", "skills", "how the agent collects its labelled steps: skills (follow its skills), greedy (skills, then act on the task inferred so far), uniform (random actions)")
 	fs.Usage = func() {
 		fmt.Fprintf(fs.Output(), "usage: depot [flags]\n\nPretrain on the invented depot floor without reward, then adapt to held-out jobs.\n\n")
 		fs.PrintDefaults()
@@ -113,6 +116,16 @@ func parseFlags(args []string, stderr io.Writer) (*options, error) {
 	}
 	if o.steps == 0 {
 		o.steps = 100000
+	}
+	switch explore {
+	case "skills":
+		o.explore = transfer.ExploreSkills
+	case "greedy":
+		o.explore = transfer.ExploreGreedy
+	case "uniform":
+		o.explore = transfer.ExploreUniform
+	default:
+		return nil, fmt.Errorf("%w: -explore %q: want skills, greedy or uniform", errUsage, explore)
 	}
 	for _, name := range strings.Split(methods, ",") {
 		if strings.TrimSpace(name) == "" {
@@ -234,7 +247,7 @@ func run(args []string, stdout, stderr io.Writer) error {
 		Baselines:  true,
 		Gamma:      0.95,
 		Pretrain:   defaultPretrain(o.steps),
-		Adapt:      transfer.AdaptConfig{},
+		Adapt:      transfer.AdaptConfig{Explore: o.explore},
 		Workers:    o.workers,
 	}
 
@@ -270,7 +283,7 @@ func run(args []string, stdout, stderr io.Writer) error {
 		"pretraining episodes start at a uniformly random free cell; labelled episodes and scores start at the depot's start cell",
 		"pretraining seconds and steps per second depend on the machine; every other figure depends only on the seeds",
 		"config.pretrain is the template of every pretraining run: its method and seed are set per run (methods; seed derived from the run's seed and the method by transfer.DeriveSeed)",
-		"labelled transitions: one run of up to adapt.EpisodeSteps steps from the start cell following the agent's skills in a random order, a new skill every adapt.SwitchEvery steps; the baselines learn online with the same budget")
+		"labelled transitions: one run of up to adapt.EpisodeSteps steps from the start cell by the rule adapt.Explore (0 follow the skills in a random order, a new one every adapt.SwitchEvery steps; 1 uniform random; 2 skills for adapt.Warmup steps, then the policy adapted to the labels so far); the baselines learn online with the same budget")
 	if err := rep.WriteJSON(filepath.Join(o.out, "results.json")); err != nil {
 		return err
 	}
