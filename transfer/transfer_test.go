@@ -283,3 +283,31 @@ func TestResumeMismatch(t *testing.T) {
 		t.Errorf("got %v, want ErrConfig", err)
 	}
 }
+
+// TestCollectPrefix checks the documented prefix property: the first j
+// transitions of a collection of k equal a collection of j, for every rule
+// (so the budget curve can use prefixes of one collection).
+func TestCollectPrefix(t *testing.T) {
+	g, _ := tinyGrid(t)
+	w, _ := g.Weights(map[string]float64{"berry": 1})
+	r, _ := g.PlaceReward(w)
+	env := transfer.NewFiniteEnv(g.MDP, 0)
+	ag, err := transfer.Pretrain(transfer.NewFiniteEnv(g.MDP, 0), transfer.PretrainConfig{Dim: 4, Skills: 8, Steps: 500, EpisodeSteps: 15, Seed: 2})
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, ex := range []transfer.Explore{transfer.ExploreSkills, transfer.ExploreUniform, transfer.ExploreGreedy} {
+		cfg := transfer.AdaptConfig{Explore: ex, EpisodeSteps: 30, SwitchEvery: 10, Warmup: 40}
+		long, err := transfer.Collect(env, ag, r, 150, cfg, 3)
+		if err != nil {
+			t.Fatal(err)
+		}
+		short, err := transfer.Collect(env, ag, r, 77, cfg, 3)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if !reflect.DeepEqual(long[:77], short) {
+			t.Errorf("rule %d: prefix of a longer collection differs", ex)
+		}
+	}
+}
