@@ -1,12 +1,17 @@
 package transfer_test
 
 import (
+	"bytes"
+	"encoding/csv"
+	"encoding/json"
 	"errors"
 	"os"
 	"path/filepath"
 	"reflect"
+	"runtime"
 	"testing"
 
+	"github.com/successor-go/successor"
 	"github.com/successor-go/successor/mdp"
 	"github.com/successor-go/successor/sf"
 	"github.com/successor-go/successor/transfer"
@@ -309,5 +314,59 @@ func TestCollectPrefix(t *testing.T) {
 		if !reflect.DeepEqual(long[:77], short) {
 			t.Errorf("rule %d: prefix of a longer collection differs", ex)
 		}
+	}
+}
+
+// TestReportFiles writes results.json and results.csv and reads them back.
+func TestReportFiles(t *testing.T) {
+	e := tinyExperiment(t, 2)
+	e.Methods = []transfer.Method{transfer.Given}
+	res, err := e.Run()
+	if err != nil {
+		t.Fatal(err)
+	}
+	dir := t.TempDir()
+	rep := transfer.NewReport(e, res, "invented data")
+	if err := rep.WriteJSON(filepath.Join(dir, "results.json")); err != nil {
+		t.Fatal(err)
+	}
+	if err := rep.WriteCSV(filepath.Join(dir, "results.csv")); err != nil {
+		t.Fatal(err)
+	}
+	b, err := os.ReadFile(filepath.Join(dir, "results.json"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	var back struct {
+		Library string   `json:"library_version"`
+		Go      string   `json:"go_version"`
+		Seeds   []uint64 `json:"seeds"`
+		Config  struct {
+			Pretrain struct{ Steps, Skills int }
+		} `json:"config"`
+		Results transfer.Results `json:"results"`
+	}
+	if err := json.Unmarshal(b, &back); err != nil {
+		t.Fatal(err)
+	}
+	if back.Library != successor.Version || back.Go != runtime.Version() || !reflect.DeepEqual(back.Seeds, e.Seeds) {
+		t.Errorf("header %q %q %v", back.Library, back.Go, back.Seeds)
+	}
+	if back.Config.Pretrain.Steps != 4000 || back.Config.Pretrain.Skills != 16 {
+		t.Errorf("config not written with its values: %+v", back.Config.Pretrain)
+	}
+	if !reflect.DeepEqual(back.Results.Records, res.Records) {
+		t.Error("records do not round-trip through JSON")
+	}
+	c, err := os.ReadFile(filepath.Join(dir, "results.csv"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	rows, err := csv.NewReader(bytes.NewReader(c)).ReadAll()
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(rows) != len(res.Records)+1 {
+		t.Errorf("%d csv rows, want %d", len(rows), len(res.Records)+1)
 	}
 }
