@@ -48,6 +48,14 @@ func drawFigures(dir string, g *mdp.Grid, e *transfer.Experiment, res *transfer.
 	return files, nil
 }
 
+// lineColors are ten distinguishable colours (Tableau 10), one per variant.
+var lineColors = []color.Color{
+	color.RGBA{31, 119, 180, 255}, color.RGBA{255, 127, 14, 255}, color.RGBA{44, 160, 44, 255},
+	color.RGBA{214, 39, 40, 255}, color.RGBA{148, 103, 189, 255}, color.RGBA{140, 86, 75, 255},
+	color.RGBA{227, 119, 194, 255}, color.RGBA{127, 127, 127, 255}, color.RGBA{188, 189, 34, 255},
+	color.RGBA{23, 190, 207, 255},
+}
+
 // drawReturns plots the normalised return, averaged over jobs, against the
 // labelled budget for every variant, with standard-error bars over seeds.
 func drawReturns(path string, e *transfer.Experiment, res *transfer.Results) error {
@@ -82,7 +90,12 @@ func drawReturns(path string, e *transfer.Experiment, res *transfer.Results) err
 		if err != nil {
 			return err
 		}
-		c := plotutil.Color(i)
+		// One colour per method (dashed: GPI off), then one per baseline.
+		ci := i / 2
+		if i >= 2*len(e.Methods) {
+			ci = len(e.Methods) + i - 2*len(e.Methods)
+		}
+		c := lineColors[ci%len(lineColors)]
 		line.Color = c
 		line.Width = vg.Points(1.5)
 		if i%2 == 1 && i < 2*len(e.Methods) {
