@@ -33,7 +33,8 @@ type Report struct {
 // states the values that ran.
 func NewReport(e *Experiment, r *Results, notes ...string) *Report {
 	c := *e
-	if p, err := c.Pretrain.withDefaults(); err == nil || c.Pretrain.Method == Given {
+	c.Pretrain.Features = e.Places
+	if p, err := c.Pretrain.withDefaults(); err == nil {
 		c.Pretrain = p
 	}
 	c.Pretrain.Method = 0 // set per run from Methods

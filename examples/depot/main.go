@@ -328,12 +328,13 @@ func progress(stderr io.Writer, total int) (func(done, total int), func()) {
 			progressbar.OptionThrottle(100*time.Millisecond),
 			progressbar.OptionClearOnFinish(),
 		)
-		return func(done, _ int) { bar.Set(done) }, func() { bar.Finish() }
+		// Episodes finish, so a run may overshoot its planned steps a little.
+		return func(done, _ int) { bar.Set(min(done, total)) }, func() { bar.Finish() }
 	}
 	start := time.Now()
 	last := time.Time{}
 	return func(done, total int) {
-		if now := time.Now(); now.Sub(last) >= 2*time.Second || done == total {
+		if now := time.Now(); now.Sub(last) >= 2*time.Second || done >= total {
 			last = now
 			fmt.Fprintf(stderr, "pretraining: %d/%d steps (%.0f%%) after %.1fs\n", done, total, 100*float64(done)/float64(total), now.Sub(start).Seconds())
 		}
