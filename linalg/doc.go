@@ -52,8 +52,18 @@
 // BiCGSTAB otherwise, preconditioned by symmetric Gauss-Seidel through
 // Eisenstat's trick (Jacobi when I - gamma P is not diagonally dominant; see
 // IterSolver.Solve); each iteration costs O(nnz + n)
-// and is split over two goroutines for n >= 1<<17. Its stopping rule is the
-// relative residual
+// and is split over two goroutines for n >= 1<<17. Restarted GMRES(m)
+// (IterGMRES) is there too, as an explicit choice and as the fallback.
+// When BiCGSTAB breaks down (rho = rhat.r, rhat.v or t.s, whose ratio is
+// omega, below 1e-14 times the norms of its factors; this happens exactly
+// when the shadow residual r0 is a left eigenvector of the preconditioned
+// matrix, as for b a unit vector on a row of P that is zero), it restarts
+// from the current iterate with a pseudo-random shadow residual from fixed
+// seeds; the automatic choice hands over to GMRES(30) after a third
+// breakdown (a diverging BiCGSTAB ends in breakdowns too). CG's
+// non-positive curvature (P symmetric, I - gamma P indefinite) hands over
+// to BiCGSTAB. Same inputs, same bits. The stopping rule is the relative
+// residual
 //
 //	||b - (I - gamma P) x||_2 / ||b||_2 <= Tol   (default 1e-8),
 //
@@ -63,7 +73,7 @@
 // walk of a 1000 x 1000 grid (10^6 states) with gamma = 0.99 and Tol = 1e-6
 // it needs about 35-40 iterations and 76 MB of workspace (6 float64 vectors
 // and one int32 vector of length n, and an int32 copy of the CSR indices;
-// BiCGSTAB needs 4 more float64 vectors).
+// BiCGSTAB needs 4 more float64 vectors, GMRES(m) m + 2 more).
 //
 // Ridge uses Householder QR of the augmented matrix [X; sqrt(lambda) I],
 // O((m + d) d^2); RLS costs O(d^2) per sample.

@@ -3,6 +3,7 @@ package linalg
 import (
 	"fmt"
 	"math"
+	"math/rand/v2"
 	"runtime"
 	"sort"
 )
@@ -14,14 +15,21 @@ const (
 	// IterAuto uses IterCG when P is symmetric (then I - gamma P is
 	// symmetric positive definite for a stochastic P) and IterBiCGSTAB
 	// otherwise. It falls back to BiCGSTAB if CG meets a non-positive
-	// curvature.
+	// curvature, and to IterGMRES if BiCGSTAB breaks down a third time
+	// (after two restarts with new shadow residuals).
 	IterAuto IterMethod = iota
 	// IterCG is the preconditioned conjugate gradient method, for
 	// symmetric positive definite I - gamma P.
 	IterCG
 	// IterBiCGSTAB is van der Vorst's stabilised bi-conjugate gradient
-	// method, for any P.
+	// method, for any P. On a breakdown it restarts from the current
+	// iterate with a new pseudo-random shadow residual.
 	IterBiCGSTAB
+	// IterGMRES is restarted GMRES(m) with modified Gram-Schmidt, for any
+	// non-singular I - gamma P. It cannot break down before it reaches the
+	// solution, but it keeps m + 1 vectors of length n (see
+	// IterSettings.Restart).
+	IterGMRES
 )
 
 // Precond selects the preconditioner of the iterative solver.
@@ -66,6 +74,8 @@ func (m IterMethod) String() string {
 		return "cg"
 	case IterBiCGSTAB:
 		return "bicgstab"
+	case IterGMRES:
+		return "gmres"
 	}
 	return fmt.Sprintf("IterMethod(%d)", int(m))
 }
@@ -77,7 +87,8 @@ type IterSettings struct {
 	// at which the solver stops. 0 means 1e-8.
 	Tol float64
 	// MaxIter bounds the iterations (one iteration is one product with P
-	// for CG, two for BiCGSTAB). 0 means 10000.
+	// for CG and GMRES, two for BiCGSTAB), summed over the methods used.
+	// 0 means 10000.
 	MaxIter int
 	// UseInitial, if true, takes the initial guess x0 from dst (a warm
 	// start); otherwise x0 = 0.
@@ -92,14 +103,22 @@ type IterSettings struct {
 	// For SolveIterativeMulti it is the number of columns solved at once
 	// (0 means min(2, GOMAXPROCS, columns)), each solved on one goroutine.
 	Workers int
+	// Restart is the restart length m of GMRES(m), the number of
+	// iterations between restarts; GMRES keeps m + 1 basis vectors of
+	// length n. 0 means 30; values above n mean n (full GMRES). It
+	// matters only when GMRES runs (IterGMRES, or IterAuto after BiCGSTAB
+	// broke down). Restarted GMRES can stagnate on strongly indefinite
+	// matrices, where a larger m helps.
+	Restart int
 }
 
 // IterResult reports what the iterative solver achieved.
 type IterResult struct {
 	Iterations int        // iterations taken
 	Residual   float64    // achieved relative residual ||b - A x|| / ||b||, recomputed from x
-	Method     IterMethod // method used last (IterCG or IterBiCGSTAB)
+	Method     IterMethod // method used last (IterCG, IterBiCGSTAB or IterGMRES)
 	Precond    Precond    // preconditioner used (PrecondSGS or PrecondJacobi)
+	Breakdowns int        // breakdowns met and recovered from by a restart or a change of method
 }
 
 // NotConvergedError is returned by the iterative solver when it stops
@@ -154,6 +173,12 @@ type IterSolver struct {
 	t                             []float64 // SGS intermediate
 	r, rhat, pv, q, v, phat, shat []float64
 
+	// GMRES(m): the basis V (m + 1 vectors of n, one after the other),
+	// the Hessenberg matrix (column j at hess[j(m+1):]), the Givens
+	// rotations and the rotated right-hand side (then the coefficients).
+	basis, hess, cs, sn, gv []float64
+	gk                      int // basis vectors combined by kGMRESUpdate
+
 	alpha, beta, omega  float64
 	fuseDir             bool // kOp1 first sets opSrc = w r + beta opSrc (CG)
 	opDst, opSrc, opDot []float64
@@ -181,7 +206,35 @@ const (
 	kBiS                 // s = r - alpha v (s in q); shat = w s; s.s
 	kBiUpdate            // y += alpha phat + omega shat; r = s - omega t (t in r); rhat.r, r.r
 	kBiUpdateHalf        // y += alpha phat
+	kScaleW              // opDst = alpha opSrc; phat = w opDst
+	kMGS                 // opDst -= alpha opSrc; opDst.opDot (if opDot != nil), opDst.opDst
+	kGMRESUpdate         // y += w (V[:, :gk] gv[:gk]) (pv as scratch)
 )
+
+// iterStatus is how a Krylov run ended.
+type iterStatus int
+
+const (
+	stConverged iterStatus = iota // the recurrence residual met the target
+	stMaxIter                     // MaxIter reached
+	stBreakdown                   // an inner product or curvature that the method divides by vanished
+	stNonFinite                   // a non-finite residual
+)
+
+// breakTol is the cosine below which BiCGSTAB treats one of its inner
+// products (rhat.r for rho, rhat.v for alpha, t.s for omega) as a
+// breakdown: the quantity is then pure rounding noise relative to the
+// norms of its factors (a relative error of about 1e-16/breakTol).
+const breakTol = 1e-14
+
+// maxBreakdowns is the number of BiCGSTAB breakdowns (the first with
+// rhat = r0, then with pseudo-random shadows) after which IterAuto hands
+// over to GMRES. A diverging BiCGSTAB ends in breakdowns too: rho shrinks
+// relative to the growing residual.
+const maxBreakdowns = 3
+
+// defaultRestart is GMRES's restart length m when IterSettings.Restart is 0.
+const defaultRestart = 30
 
 func grow(s []float64, n int) []float64 {
 	if cap(s) < n {
@@ -220,7 +273,33 @@ func grow(s []float64, n int) []float64 {
 // on a 1000 x 1000 grid at gamma = 0.99, Tol = 1e-6). Each iteration costs
 // O(nnz(P) + n); the workspace is 6 vectors of n float64, one of n int32
 // and an int32 copy of P's indices (n + 1 + nnz int32) for CG, 4 more
-// float64 vectors for BiCGSTAB.
+// float64 vectors for BiCGSTAB, m + 2 more for GMRES(m) (IterGMRES, or
+// IterAuto after a fallback; m = Restart). A GMRES(m) iteration adds
+// about k + 2 vector passes for the Gram-Schmidt step with the k-th basis
+// vector, so it is the cheaper iteration only for small k.
+//
+// Breakdowns. BiCGSTAB divides by rho = rhat.r, rhat.v and t.t, with
+// omega = t.s/t.t; it has broken down when rho, rhat.v or t.s falls below
+// 1e-14 times the norms of its two factors (omega ~ 0 freezes every later
+// step). This can happen in exact arithmetic: when the shadow residual
+// rhat = r0 is a left eigenvector of K, the shadow Krylov space is
+// span{r0}, and r1, orthogonal to it, gives rho = 0 at the second
+// iteration. A unit b = e_k whose row k of P is zero (in a state-action
+// chain, a pair whose move ends the episode) does this with Jacobi
+// preconditioning, K^T e_k = e_k, and often with SGS. The solver then
+// restarts BiCGSTAB from the current x with a pseudo-random shadow
+// residual (PCG with fixed seeds, so the same inputs give the same bits).
+// With IterAuto, a third breakdown hands over to restarted GMRES(m) (Saad
+// & Schultz 1986, SIAM J. Sci. Stat. Comput. 7(3)), which cannot break
+// down short of the solution for a non-singular A; a diverging BiCGSTAB
+// (as on random indefinite matrices) also ends in breakdowns, since rho
+// shrinks relative to the growing residual. Any restart whose iterate is
+// worse than x = 0 (relative residual above 1) starts from 0. GMRES is
+// only the fallback: near gamma = 1 restarted GMRES needs many more
+// iterations (5000 to 7100 for GMRES(30) with SGS against 590 to 700 for
+// BiCGSTAB on the 4200-unknown state-action walk at gamma = 0.99999).
+// Under IterAuto a non-positive curvature in CG hands over to BiCGSTAB.
+// IterResult.Breakdowns counts the breakdowns met.
 //
 // Stopping rule: the solver stops when the recurrence residual r of the
 // split system satisfies c ||r|| <= Tol ||b||, where c >= 1 bounds
@@ -233,9 +312,11 @@ func grow(s []float64, n int) []float64 {
 // Errors wrap ErrDiscount (gamma outside [0, 1)), ErrDimension (P not
 // square, or len(dst) or len(b) not n), ErrNonFinite (NaN or Inf in P, b or,
 // with UseInitial, dst), ErrSingular (PrecondSGS asked for while a diagonal
-// entry of A is not positive), or ErrNotConverged as a *NotConvergedError
-// when MaxIter is reached or the method breaks down; dst then holds the
-// last iterate. If b = 0, x = 0 is returned at once.
+// entry of A is not positive), ErrBadParameter (an unknown Method or
+// Precond), or ErrNotConverged as a *NotConvergedError when MaxIter is
+// reached, CG (not under IterAuto) or GMRES breaks down, or the residual
+// is no longer finite; dst then holds the last iterate. If b = 0, x = 0 is
+// returned at once.
 func (s *IterSolver) Solve(dst []float64, p *CSR, gamma float64, b []float64, set *IterSettings) (IterResult, error) {
 	var cfg IterSettings
 	if set != nil {
@@ -249,6 +330,9 @@ func (s *IterSolver) Solve(dst []float64, p *CSR, gamma float64, b []float64, se
 	}
 	if !(gamma >= 0 && gamma < 1) {
 		return IterResult{}, fmt.Errorf("linalg: iterative: gamma %v outside [0, 1): %w", gamma, ErrDiscount)
+	}
+	if cfg.Method < IterAuto || cfg.Method > IterGMRES || cfg.Precond < PrecondAuto || cfg.Precond > PrecondJacobi {
+		return IterResult{}, fmt.Errorf("linalg: iterative: unknown method %v or preconditioner %v: %w", cfg.Method, cfg.Precond, ErrBadParameter)
 	}
 	n, c := p.Dims()
 	if n != c {
@@ -336,27 +420,26 @@ func (s *IterSolver) Solve(dst []float64, p *CSR, gamma float64, b []float64, se
 		target /= s.lowerNorm()
 	}
 	res := IterResult{Method: method, Precond: pre}
+	restart := cfg.Restart
+	if restart <= 0 {
+		restart = defaultRestart
+	}
+	restart = min(restart, n)
 	warm := cfg.UseInitial
-	for restart := 0; ; restart++ {
+	shadow := 0 // BiCGSTAB shadow residual: 0 is r0, k > 0 the k-th pseudo-random one
+	checks := 0 // runs whose recurrence residual met the target but the true one did not
+	for {
 		if warm && s.sgs {
 			s.run(kToY)
 		}
-		var ok bool
-		if method == IterCG {
-			ok = s.cg(&res, target, cfg.MaxIter, warm)
-			if !ok && cfg.Method == IterAuto && res.Iterations < cfg.MaxIter && restart < 3 {
-				// Non-positive curvature: P is symmetric but K is not
-				// positive definite. Continue with BiCGSTAB from here.
-				method = IterBiCGSTAB
-				res.Method = method
-				if s.sgs {
-					s.run(kToX)
-				}
-				warm = true
-				continue
-			}
-		} else {
-			ok = s.bicgstab(&res, target, cfg.MaxIter, warm)
+		var st iterStatus
+		switch method {
+		case IterCG:
+			st = s.cg(&res, target, cfg.MaxIter, warm)
+		case IterBiCGSTAB:
+			st = s.bicgstab(&res, target, cfg.MaxIter, warm, shadow)
+		default:
+			st = s.gmres(&res, target, cfg.MaxIter, restart, warm)
 		}
 		if s.sgs {
 			s.run(kToX)
@@ -367,9 +450,43 @@ func (s *IterSolver) Solve(dst []float64, p *CSR, gamma float64, b []float64, se
 		if res.Residual <= cfg.Tol {
 			return res, nil
 		}
-		if !ok || restart >= 3 || res.Iterations >= cfg.MaxIter || math.IsNaN(res.Residual) {
+		fail := res.Iterations >= cfg.MaxIter || math.IsNaN(res.Residual) || math.IsInf(res.Residual, 0)
+		switch st {
+		case stConverged:
+			// Rounding in the recurrence: continue from x, at most three
+			// times.
+			checks++
+			fail = fail || checks > 3
+		case stBreakdown:
+			res.Breakdowns++
+			switch {
+			case method == IterCG && cfg.Method == IterAuto:
+				// Non-positive curvature: P is symmetric but K is not
+				// positive definite. Continue with BiCGSTAB from here.
+				method = IterBiCGSTAB
+			case method == IterBiCGSTAB:
+				// A Lanczos (rho) or pivot (rhat.v) breakdown, or omega
+				// near 0: restart from x with a new shadow residual; in
+				// Auto, after maxBreakdowns hand over to GMRES.
+				shadow++
+				if cfg.Method == IterAuto && shadow >= maxBreakdowns {
+					method = IterGMRES
+				}
+			default:
+				fail = true
+			}
+		default:
+			fail = true
+		}
+		if fail {
 			return res, &NotConvergedError{Iterations: res.Iterations, Residual: res.Residual, Tol: cfg.Tol}
 		}
+		if res.Residual > 1 {
+			// The iterate is worse than x = 0 (a diverging BiCGSTAB
+			// before its breakdown): start the next run from 0.
+			clear(dst)
+		}
+		res.Method = method
 	}
 }
 
@@ -505,8 +622,8 @@ func (s *IterSolver) op(dst, src, dot []float64) (float64, float64) {
 }
 
 // cg runs conjugate gradients on K y = bh with weights w from the current y
-// (zero unless warm). It returns false on a breakdown or at maxIter.
-func (s *IterSolver) cg(res *IterResult, target float64, maxIter int, warm bool) bool {
+// (zero unless warm). A non-positive curvature p.K p is a breakdown.
+func (s *IterSolver) cg(res *IterResult, target float64, maxIter int, warm bool) iterStatus {
 	s.fuseDir = false
 	defer func() { s.fuseDir = false }()
 	if warm {
@@ -518,7 +635,7 @@ func (s *IterSolver) cg(res *IterResult, target float64, maxIter int, warm bool)
 	o := s.run(kInitR)
 	rr, rz := o[0], o[1]
 	if math.Sqrt(rr) <= target {
-		return true
+		return stConverged
 	}
 	s.beta = 0
 	s.run(kCGDir)
@@ -527,16 +644,19 @@ func (s *IterSolver) cg(res *IterResult, target float64, maxIter int, warm bool)
 		pq, _ := s.op(s.q, s.pv, s.pv)
 		s.fuseDir = false
 		if !(pq > 0) {
-			return false
+			if math.IsNaN(pq) {
+				return stNonFinite
+			}
+			return stBreakdown
 		}
 		s.alpha = rz / pq
 		o := s.run(kCGUpdate)
 		rzNew, rrNew := o[0], o[1]
 		if math.Sqrt(rrNew) <= target {
-			return true
+			return stConverged
 		}
 		if math.IsNaN(rrNew) || math.IsInf(rrNew, 0) {
-			return false
+			return stNonFinite
 		}
 		s.beta = rzNew / rz
 		rz = rzNew
@@ -546,13 +666,17 @@ func (s *IterSolver) cg(res *IterResult, target float64, maxIter int, warm bool)
 			s.run(kCGDir)
 		}
 	}
-	return false
+	return stMaxIter
 }
 
 // bicgstab runs right-preconditioned BiCGSTAB (van der Vorst 1992,
-// Algorithm Bi-CGSTAB) on K y = bh with weights w from the current y. It
-// returns false on a breakdown or at maxIter.
-func (s *IterSolver) bicgstab(res *IterResult, target float64, maxIter int, warm bool) bool {
+// Algorithm Bi-CGSTAB) on K y = bh with weights w from the current y. The
+// shadow residual rhat is r0 when shadow is 0 and otherwise the shadow-th
+// pseudo-random vector (see randomShadow). It reports a breakdown when
+// rho = rhat.r, rhat.v or t.s (whose ratio is omega) falls below breakTol
+// times the norms of its two factors; y then holds the last iterate
+// (including the alpha step when omega broke down).
+func (s *IterSolver) bicgstab(res *IterResult, target float64, maxIter int, warm bool, shadow int) iterStatus {
 	n := s.n
 	s.rhat = grow(s.rhat, n)
 	s.v = grow(s.v, n)
@@ -566,50 +690,192 @@ func (s *IterSolver) bicgstab(res *IterResult, target float64, maxIter int, warm
 	s.run(kRHS)
 	rr := s.run(kInitR)[0]
 	if math.Sqrt(rr) <= target {
-		return true
+		return stConverged
 	}
-	copy(s.rhat, s.r)
+	if math.IsNaN(rr) || math.IsInf(rr, 0) {
+		return stNonFinite
+	}
+	var rhoNew, rhatNorm float64
+	if shadow == 0 {
+		copy(s.rhat, s.r)
+		rhoNew, rhatNorm = rr, math.Sqrt(rr)
+	} else {
+		rhoNew, rhatNorm = s.randomShadow(shadow)
+	}
 	clear(s.pv)
 	clear(s.v)
 	rho, alpha, omega := 1.0, 1.0, 1.0
-	rhoNew := rr // rhat = r
 	for res.Iterations < maxIter {
 		res.Iterations++
-		if rhoNew == 0 {
-			return false
+		if !(math.Abs(rhoNew) > breakTol*rhatNorm*math.Sqrt(rr)) {
+			return stBreakdown
 		}
 		s.beta = (rhoNew / rho) * (alpha / omega)
 		s.omega = omega
 		rho = rhoNew
 		s.run(kBiDir)
-		rv, _ := s.op(s.v, s.phat, s.rhat)
-		if rv == 0 || math.IsNaN(rv) {
-			return false
+		rv, vv := s.op(s.v, s.phat, s.rhat)
+		if math.IsNaN(rv) || math.IsInf(vv, 0) {
+			return stNonFinite
+		}
+		if !(math.Abs(rv) > breakTol*rhatNorm*math.Sqrt(vv)) {
+			return stBreakdown
 		}
 		alpha = rho / rv
 		s.alpha = alpha
 		ss := s.run(kBiS)[0]
 		if math.Sqrt(ss) <= target {
 			s.run(kBiUpdateHalf)
-			return true
+			return stConverged
 		}
 		// t = K shat, stored in r (r is rebuilt from s and t below).
 		ts, tt := s.op(s.r, s.shat, s.q)
-		if tt == 0 || math.IsNaN(tt) {
-			return false
+		if math.IsNaN(ts) || math.IsInf(tt, 0) {
+			return stNonFinite
+		}
+		if !(math.Abs(ts) > breakTol*math.Sqrt(tt*ss)) {
+			// omega ~ 0 would stall every later step: keep the alpha
+			// step and restart.
+			s.run(kBiUpdateHalf)
+			return stBreakdown
 		}
 		omega = ts / tt
 		s.omega = omega
 		o := s.run(kBiUpdate)
 		rhoNew, rr = o[0], o[1]
 		if math.Sqrt(rr) <= target {
-			return true
+			return stConverged
 		}
-		if omega == 0 || math.IsNaN(rr) || math.IsInf(rr, 0) {
-			return false
+		if math.IsNaN(rr) || math.IsInf(rr, 0) {
+			return stNonFinite
 		}
 	}
-	return false
+	return stMaxIter
+}
+
+// randomShadow fills rhat with the k-th pseudo-random shadow residual,
+// entries uniform in [-1, 1) from a PCG generator seeded by k (the same
+// bits on every call and machine), and returns rhat.r and ||rhat||.
+func (s *IterSolver) randomShadow(k int) (rho, norm float64) {
+	var g rand.PCG
+	g.Seed(0x5eed5eed, uint64(k))
+	var nn float64
+	r := s.r[:len(s.rhat)]
+	for i := range s.rhat {
+		v := float64(g.Uint64()>>11)*0x1p-52 - 1
+		s.rhat[i] = v
+		rho += v * r[i]
+		nn += v * v
+	}
+	return rho, math.Sqrt(nn)
+}
+
+// gmres runs restarted GMRES(m) (Saad & Schultz 1986, SIAM J. Sci. Stat.
+// Comput. 7(3); Saad 2003, Algorithm 6.9) on K W z = bh, y = W z, with W the
+// diagonal weights w (right preconditioning), from the current y. The
+// Arnoldi basis is orthogonalised by modified Gram-Schmidt, each axpy
+// fused with the next inner product, and the least-squares problem is
+// solved by Givens rotations, whose running residual |g[k]| is
+// ||bh - K y|| for the current iterate (in exact arithmetic). The
+// residual is recomputed from y at each restart.
+func (s *IterSolver) gmres(res *IterResult, target float64, maxIter, m int, warm bool) iterStatus {
+	n := s.n
+	s.basis = grow(s.basis, (m+1)*n)
+	s.phat = grow(s.phat, n)
+	s.hess = grow(s.hess, (m+1)*m)
+	s.cs = grow(s.cs, m)
+	s.sn = grow(s.sn, m)
+	s.gv = grow(s.gv, m+1)
+	vec := func(j int) []float64 { return s.basis[j*n : (j+1)*n] }
+	hess, cs, sn, gv := s.hess, s.cs, s.sn, s.gv
+	for {
+		if warm {
+			s.op(s.q, s.x, s.q)
+		} else {
+			clear(s.q)
+		}
+		warm = true
+		s.run(kRHS)
+		rr := s.run(kInitR)[0]
+		beta := math.Sqrt(rr)
+		if beta <= target {
+			return stConverged
+		}
+		if math.IsNaN(beta) || math.IsInf(beta, 0) {
+			return stNonFinite
+		}
+		if res.Iterations >= maxIter {
+			return stMaxIter
+		}
+		s.opDst, s.opSrc, s.alpha = vec(0), s.r, 1/beta
+		s.run(kScaleW) // v0 = r/beta, phat = w v0
+		clear(gv)
+		gv[0] = beta
+		k, st := 0, stMaxIter
+		for k < m && res.Iterations < maxIter {
+			res.Iterations++
+			h := hess[k*(m+1) : (k+1)*(m+1)]
+			w := vec(k + 1)
+			h0, ww := s.op(w, s.phat, vec(0))
+			h[0] = h0
+			for i := 0; i <= k; i++ {
+				s.opDst, s.opSrc, s.opDot, s.alpha = w, vec(i), nil, h[i]
+				if i < k {
+					s.opDot = vec(i + 1)
+				}
+				o := s.run(kMGS)
+				if i < k {
+					h[i+1] = o[0]
+				}
+				ww = o[1]
+			}
+			hn := math.Sqrt(ww)
+			h[k+1] = hn
+			for i := 0; i < k; i++ {
+				a, b := h[i], h[i+1]
+				h[i], h[i+1] = cs[i]*a+sn[i]*b, -sn[i]*a+cs[i]*b
+			}
+			rot := math.Hypot(h[k], h[k+1])
+			if math.IsNaN(rot) || math.IsInf(rot, 0) {
+				st = stNonFinite
+				break
+			}
+			if rot == 0 {
+				// K W is singular on the Krylov space: drop column k.
+				st = stBreakdown
+				break
+			}
+			cs[k], sn[k] = h[k]/rot, h[k+1]/rot
+			h[k], h[k+1] = rot, 0
+			gv[k], gv[k+1] = cs[k]*gv[k], -sn[k]*gv[k]
+			k++
+			if math.Abs(gv[k]) <= target || hn == 0 {
+				// Converged, or the Krylov space is invariant (the
+				// solution lies in it: a lucky breakdown).
+				st = stConverged
+				break
+			}
+			s.opDst, s.opSrc, s.alpha = w, w, 1/hn
+			s.run(kScaleW) // v_{k+1} = w/hn, phat = w v_{k+1}
+		}
+		// Solve the k x k triangular system H c = g, c into gv, and
+		// update y += W V c.
+		for i := k - 1; i >= 0; i-- {
+			sum := gv[i]
+			for j := i + 1; j < k; j++ {
+				sum -= hess[j*(m+1)+i] * gv[j]
+			}
+			gv[i] = sum / hess[i*(m+1)+i]
+		}
+		s.gk = k
+		s.opDot = nil
+		if k > 0 {
+			s.run(kGMRESUpdate)
+		}
+		if st != stMaxIter || res.Iterations >= maxIter {
+			return st
+		}
+	}
 }
 
 // kernel runs kernel k over the rows of block w and returns its partial
@@ -818,6 +1084,49 @@ func (s *IterSolver) kernel(k, w int) (o [4]float64) {
 		y, ph, a := s.x[:hi], s.phat[:hi], s.alpha
 		for i := lo; i < hi; i++ {
 			y[i] += a * ph[i]
+		}
+	case kScaleW:
+		dst, src, ph, w, a := s.opDst[:hi], s.opSrc[:hi], s.phat[:hi], s.w[:hi], s.alpha
+		for i := lo; i < hi; i++ {
+			v := a * src[i]
+			dst[i] = v
+			ph[i] = w[i] * v
+		}
+	case kMGS:
+		dst, src, a := s.opDst[:hi], s.opSrc[:hi], s.alpha
+		var dd, d2 float64
+		if s.opDot == nil {
+			for i := lo; i < hi; i++ {
+				v := dst[i] - a*src[i]
+				dst[i] = v
+				d2 += v * v
+			}
+		} else {
+			dot := s.opDot[:hi]
+			for i := lo; i < hi; i++ {
+				v := dst[i] - a*src[i]
+				dst[i] = v
+				dd += v * dot[i]
+				d2 += v * v
+			}
+		}
+		o[0], o[1] = dd, d2
+	case kGMRESUpdate:
+		n := s.n
+		y, w, tmp := s.x[:hi], s.w[:hi], s.pv[:hi]
+		c := s.gv[:s.gk]
+		v0 := s.basis[:n][:hi]
+		for i := lo; i < hi; i++ {
+			tmp[i] = c[0] * v0[i]
+		}
+		for j := 1; j < len(c); j++ {
+			vj, cj := s.basis[j*n : (j+1)*n][:hi], c[j]
+			for i := lo; i < hi; i++ {
+				tmp[i] += cj * vj[i]
+			}
+		}
+		for i := lo; i < hi; i++ {
+			y[i] += w[i] * tmp[i]
 		}
 	}
 	return o

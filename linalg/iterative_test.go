@@ -44,6 +44,8 @@ func TestIterativeAgainstDense(t *testing.T) {
 		{linalg.IterBiCGSTAB, linalg.PrecondJacobi},
 		{linalg.IterCG, linalg.PrecondSGS},
 		{linalg.IterCG, linalg.PrecondJacobi},
+		{linalg.IterGMRES, linalg.PrecondSGS},
+		{linalg.IterGMRES, linalg.PrecondJacobi},
 	}
 	const tol = 1e-9
 	for _, c := range chains {
@@ -63,7 +65,7 @@ func TestIterativeAgainstDense(t *testing.T) {
 				for _, workers := range []int{1, 2} {
 					x := make([]float64, n)
 					res, err := linalg.SolveIterative(x, c.p, gamma, b, &linalg.IterSettings{
-						Tol: tol, Method: s.m, Precond: s.pc, Workers: workers,
+						Tol: tol, Method: s.m, Precond: s.pc, Workers: workers, Restart: 10 * workers,
 					})
 					if err != nil {
 						t.Errorf("%s gamma %v %v/%v: %v", c.name, gamma, s.m, s.pc, err)
@@ -148,7 +150,7 @@ func TestIterativeNotConverged(t *testing.T) {
 	p := linalg.GridWalk(20, 20)
 	b := randVec(400, rand.New(rand.NewPCG(5, 5)))
 	x := make([]float64, 400)
-	for _, m := range []linalg.IterMethod{linalg.IterCG, linalg.IterBiCGSTAB} {
+	for _, m := range []linalg.IterMethod{linalg.IterCG, linalg.IterBiCGSTAB, linalg.IterGMRES} {
 		res, err := linalg.SolveIterative(x, p, 0.999, b, &linalg.IterSettings{Tol: 1e-14, MaxIter: 2, Method: m})
 		if !errors.Is(err, linalg.ErrNotConverged) {
 			t.Fatalf("%v: got %v", m, err)
@@ -192,6 +194,8 @@ func TestIterativeErrors(t *testing.T) {
 		{"NaN in p", make([]float64, 6), bad, 0.5, make([]float64, 6), nil, linalg.ErrNonFinite},
 		// SGS needs a positive diagonal of I - gamma P: 1 - 0.5*4 < 0.
 		{"sgs on bad diagonal", make([]float64, 1), mustCSR(mat.NewDense(1, 1, []float64{4})), 0.5, []float64{1}, &linalg.IterSettings{Precond: linalg.PrecondSGS}, linalg.ErrSingular},
+		{"unknown method", make([]float64, 6), p, 0.5, make([]float64, 6), &linalg.IterSettings{Method: linalg.IterGMRES + 1}, linalg.ErrBadParameter},
+		{"unknown precond", make([]float64, 6), p, 0.5, make([]float64, 6), &linalg.IterSettings{Precond: linalg.PrecondJacobi + 1}, linalg.ErrBadParameter},
 	}
 	for _, c := range cases {
 		if _, err := linalg.SolveIterative(c.dst, c.p, c.gamma, c.b, c.s); !errors.Is(err, c.want) {

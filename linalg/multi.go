@@ -21,8 +21,11 @@ import (
 // (each column's result is then the same bits whatever the number of
 // workers). With a single column the one solve uses
 // the default parallel split of IterSolver.Solve. Workspace is about 8 n
-// float64 and n int32 per worker for CG (12 n float64 for BiCGSTAB), plus
-// one shared int32 copy of P's indices.
+// float64 and n int32 per worker for CG (12 n float64 for BiCGSTAB, and
+// m + 2 n more when GMRES(m) runs), plus one shared int32 copy of P's
+// indices. Each column gets the full breakdown handling of
+// IterSolver.Solve (a new shadow residual, then GMRES under IterAuto) and
+// its own IterResult.Breakdowns.
 //
 // The error, if any, is that of the lowest-numbered failing column, wrapped
 // with its index; the other columns are still solved and reported. Errors
