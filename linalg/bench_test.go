@@ -193,6 +193,39 @@ func BenchmarkIterSolver(b *testing.B) {
 	}
 }
 
+// BenchmarkIterSolverBreakdown: the state-action walk with b = e_last,
+// where BiCGSTAB breaks down at its second iteration and restarts with a
+// pseudo-random shadow residual, and GMRES(30) on the same system; the
+// reused IterSolver allocates nothing on either path.
+func BenchmarkIterSolverBreakdown(b *testing.B) {
+	p := walkStateAction(2100)
+	rhs := make([]float64, 4200)
+	rhs[4199] = 1
+	x := make([]float64, 4200)
+	for _, c := range []struct {
+		name string
+		set  *linalg.IterSettings
+	}{
+		{"auto", &linalg.IterSettings{Tol: 1e-10}},
+		{"bicgstab-jacobi", &linalg.IterSettings{Tol: 1e-10, Method: linalg.IterBiCGSTAB, Precond: linalg.PrecondJacobi}},
+		{"gmres", &linalg.IterSettings{Tol: 1e-10, Method: linalg.IterGMRES}},
+	} {
+		b.Run(c.name+"/n=4200/gamma=0.99", func(b *testing.B) {
+			b.ReportAllocs()
+			var s linalg.IterSolver
+			var res linalg.IterResult
+			for b.Loop() {
+				var err error
+				if res, err = s.Solve(x, p, 0.99, rhs, c.set); err != nil {
+					b.Fatal(err)
+				}
+			}
+			b.ReportMetric(float64(res.Iterations), "iters")
+			b.ReportMetric(float64(res.Breakdowns), "breakdowns")
+		})
+	}
+}
+
 func BenchmarkMulVecTo(b *testing.B) {
 	for _, side := range iterSides {
 		p := linalg.GridWalk(side, side)

@@ -129,3 +129,46 @@ func ExampleRLS() {
 	// Output:
 	// w = [1.4211 -0.3158] after 4 samples
 }
+
+func ExampleSolveIterative_breakdown() {
+	// The state-action chain of the 5-state random walk (Sutton & Barto,
+	// Reinforcement Learning, 2nd ed., Example 6.2) under the uniform
+	// policy: pair (s, a) is 2s + a, left (0) and right (1) move one state
+	// and then either action follows with probability 1/2; moves off
+	// either end terminate, so rows 0 and 9 of P are zero.
+	var tr []linalg.Triplet
+	for s := 0; s < 5; s++ {
+		if s > 0 {
+			tr = append(tr, linalg.Triplet{Row: 2 * s, Col: 2 * (s - 1), Val: 0.5}, linalg.Triplet{Row: 2 * s, Col: 2*s - 1, Val: 0.5})
+		}
+		if s < 4 {
+			tr = append(tr, linalg.Triplet{Row: 2*s + 1, Col: 2 * (s + 1), Val: 0.5}, linalg.Triplet{Row: 2*s + 1, Col: 2*s + 3, Val: 0.5})
+		}
+	}
+	p, err := linalg.CSRFromTriplets(10, 10, tr)
+	if err != nil {
+		fmt.Println(err)
+		return
+	}
+	// With b = e_9 and Jacobi preconditioning the first shadow residual
+	// e_9 is a left eigenvector of I - gamma P, so BiCGSTAB breaks down
+	// (rho = 0) and restarts with a pseudo-random shadow residual.
+	b := make([]float64, 10)
+	b[9] = 1
+	x := make([]float64, 10)
+	res, err := linalg.SolveIterative(x, p, 0.9, b, &linalg.IterSettings{
+		Tol: 1e-12, Method: linalg.IterBiCGSTAB, Precond: linalg.PrecondJacobi,
+	})
+	if err != nil {
+		fmt.Println(err)
+		return
+	}
+	// x[9] = 1 since from (4, right) the episode ends after one step, and
+	// every other x[k] = b[k] + 0.45 (sum over its two successor pairs),
+	// e.g. x[7] = 0.45 (x[8] + x[9]) (derived by hand).
+	fmt.Printf("x = %.4f\n", x)
+	fmt.Println("method:", res.Method, "breakdowns:", res.Breakdowns, "converged:", res.Residual <= 1e-12)
+	// Output:
+	// x = [0.0000 0.1310 0.0590 0.2322 0.1310 0.3849 0.2322 0.6232 0.3849 1.0000]
+	// method: bicgstab breakdowns: 1 converged: true
+}
