@@ -373,3 +373,38 @@ func TestIterativeRandomIndefinite(t *testing.T) {
 		}
 	}
 }
+
+// TestIterativeWarmStartNonSymmetric: from its own solution every method
+// and preconditioner stops at once, and a warm start towards a tighter
+// tolerance takes fewer iterations than a cold one.
+func TestIterativeWarmStartNonSymmetric(t *testing.T) {
+	p := walkStateAction(200)
+	b := randVec(400, rand.New(rand.NewPCG(4, 4)))
+	for _, m := range []linalg.IterMethod{linalg.IterBiCGSTAB, linalg.IterGMRES} {
+		for _, pc := range []linalg.Precond{linalg.PrecondSGS, linalg.PrecondJacobi} {
+			x := make([]float64, 400)
+			set := linalg.IterSettings{Tol: 1e-6, Method: m, Precond: pc}
+			if _, err := linalg.SolveIterative(x, p, 0.99, b, &set); err != nil {
+				t.Fatal(err)
+			}
+			set.UseInitial = true
+			again, err := linalg.SolveIterative(x, p, 0.99, b, &set)
+			if err != nil || again.Iterations != 0 {
+				t.Errorf("%v/%v: warm start at the solution: %+v %v", m, pc, again, err)
+			}
+			set.Tol = 1e-11
+			warm, err := linalg.SolveIterative(x, p, 0.99, b, &set)
+			if err != nil {
+				t.Fatal(err)
+			}
+			set.UseInitial = false
+			cold, err := linalg.SolveIterative(make([]float64, 400), p, 0.99, b, &set)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if warm.Iterations >= cold.Iterations {
+				t.Errorf("%v/%v: warm %d iterations, cold %d", m, pc, warm.Iterations, cold.Iterations)
+			}
+		}
+	}
+}

@@ -326,8 +326,8 @@ func TestIterativeIndefinite(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if res.Method != linalg.IterBiCGSTAB || res.Precond != linalg.PrecondJacobi {
-		t.Errorf("finished with %v/%v, want bicgstab/jacobi", res.Method, res.Precond)
+	if res.Method != linalg.IterBiCGSTAB || res.Precond != linalg.PrecondJacobi || res.Breakdowns != 1 {
+		t.Errorf("finished with %v/%v after %d breakdowns, want bicgstab/jacobi after 1 (CG's curvature)", res.Method, res.Precond, res.Breakdowns)
 	}
 	want := gonumSolve(p, 0.9, mat.NewDense(n, 1, b))
 	kappa := mat.Cond(shifted(p, 0.9), 2)
