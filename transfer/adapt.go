@@ -74,7 +74,7 @@ func Collect(env mdp.Env, ag *Agent, reward mdp.Reward, k int, cfg AdaptConfig, 
 		for t := 0; t < c.EpisodeSteps && len(out) < k; t++ {
 			greedy := c.Explore == ExploreGreedy && len(out) >= c.Warmup
 			if greedy && (len(out)-c.Warmup)%c.SwitchEvery == 0 {
-				inf, err := InferTask(ag, out, c.Ridge)
+				inf, err := infer(ag, out, c)
 				if err == nil {
 					pol, err = ag.Policy(inf, cfg)
 				}
@@ -117,6 +117,9 @@ type Inference struct {
 	// exactly linear in phi). When all labelled rewards are equal there is
 	// no variance to explain and RSquared is 0.
 	Residual, RSquared float64
+	// Lambda is the ridge penalty used, and CV the mean squared
+	// leave-one-state-out error when InferTaskCV chose it (0 otherwise).
+	Lambda, CV float64
 	// Rewarded is the number of labelled transitions with a non-zero
 	// reward.
 	Rewarded int
@@ -130,6 +133,9 @@ type Inference struct {
 // the next state), normalised to unit length for sphere-valued skills. It
 // returns an error wrapping ErrNoData if there are no transitions.
 func InferTask(ag *Agent, labelled []Transition, lambda float64) (*Inference, error) {
+	if lambda < 0 || math.IsNaN(lambda) || math.IsInf(lambda, 0) {
+		return nil, fmt.Errorf("transfer: infer task: penalty %v: %w", lambda, ErrConfig)
+	}
 	if len(labelled) == 0 {
 		return nil, fmt.Errorf("transfer: infer task: %w", ErrNoData)
 	}
@@ -174,7 +180,7 @@ func InferTask(ag *Agent, labelled []Transition, lambda float64) (*Inference, er
 		sse += e * e
 	}
 	n := float64(len(labelled))
-	inf := &Inference{Raw: raw, W: append([]float64(nil), raw...), Residual: math.Sqrt(sse / n)}
+	inf := &Inference{Raw: raw, W: append([]float64(nil), raw...), Residual: math.Sqrt(sse / n), Lambda: lambda}
 	sst := y2 - ysum*ysum/n
 	if sst > 1e-300 {
 		inf.RSquared = 1 - sse/sst
@@ -198,6 +204,117 @@ func InferTask(ag *Agent, labelled []Transition, lambda float64) (*Inference, er
 		}
 	}
 	return inf, nil
+}
+
+// RidgeGrid is the grid of penalties InferTaskCV chooses from.
+var RidgeGrid = []float64{1e-3, 1e-2, 0.1, 0.3, 1, 3, 10, 30, 100}
+
+// InferTaskCV is InferTask with the penalty lambda chosen from grid (nil
+// means RidgeGrid) by leave-one-state-out cross-validation on the labelled
+// transitions themselves: the features depend on the next state only, so
+// the fit is a weighted regression over the distinct next states c (count
+// m_c, mean reward rbar_c), and holding one state out changes the fit in
+// closed form (Sherman-Morrison):
+//
+//	CV(lambda) = sum_c ((rbar_c - phi_c . w) / (1 - m_c phi_c' A^-1 phi_c))^2,
+//	A = sum_c m_c phi_c phi_c' + lambda I.
+//
+// This scores how well the fit predicts a place it has not seen, the error
+// that misleads the agent (Hastie, Tibshirani & Friedman, The Elements of
+// Statistical Learning, 2nd ed., section 7.10, with the held-out unit a
+// state). The smallest CV wins; ties go to the larger lambda. The chosen
+// penalty is in Inference.Lambda.
+func InferTaskCV(ag *Agent, labelled []Transition, grid []float64) (*Inference, error) {
+	if len(labelled) == 0 {
+		return nil, fmt.Errorf("transfer: infer task: %w", ErrNoData)
+	}
+	if grid == nil {
+		grid = RidgeGrid
+	}
+	d := ag.d
+	// Distinct next states with counts and reward sums.
+	idx := map[int]int{}
+	var states []int
+	var cnt, sum []float64
+	for _, t := range labelled {
+		c, ok := idx[t.Next]
+		if !ok {
+			c = len(states)
+			idx[t.Next] = c
+			states = append(states, t.Next)
+			cnt = append(cnt, 0)
+			sum = append(sum, 0)
+		}
+		cnt[c]++
+		sum[c] += t.Reward
+	}
+	x := mat.NewDense(len(states), d, nil)
+	for c, s := range states {
+		ag.Phi(x.RawRowView(c), s)
+	}
+	var g mat.SymDense
+	g.ReuseAsSym(d)
+	b := mat.NewVecDense(d, nil)
+	for c := range states {
+		row := x.RawRowView(c)
+		for i := range d {
+			b.SetVec(i, b.AtVec(i)+sum[c]*row[i])
+			for j := i; j < d; j++ {
+				g.SetSym(i, j, g.At(i, j)+cnt[c]*row[i]*row[j])
+			}
+		}
+	}
+	best, bestLam := math.Inf(1), grid[0]
+	a := mat.NewSymDense(d, nil)
+	var chol mat.Cholesky
+	var w, v mat.VecDense
+	for _, lam := range grid {
+		if !(lam > 0) || math.IsInf(lam, 0) {
+			return nil, fmt.Errorf("transfer: infer task: grid penalty %v: %w", lam, ErrConfig)
+		}
+		a.CopySym(&g)
+		for i := range d {
+			a.SetSym(i, i, a.At(i, i)+lam)
+		}
+		if !chol.Factorize(a) {
+			continue
+		}
+		if err := chol.SolveVecTo(&w, b); err != nil {
+			continue
+		}
+		var cv float64
+		for c := range states {
+			xc := mat.NewVecDense(d, x.RawRowView(c))
+			if err := chol.SolveVecTo(&v, xc); err != nil {
+				cv = math.Inf(1)
+				break
+			}
+			h := cnt[c] * mat.Dot(xc, &v)
+			if h >= 1-1e-12 {
+				cv = math.Inf(1)
+				break
+			}
+			e := (sum[c]/cnt[c] - mat.Dot(xc, &w)) / (1 - h)
+			cv += e * e
+		}
+		if cv <= best {
+			best, bestLam = cv, lam
+		}
+	}
+	inf, err := InferTask(ag, labelled, bestLam)
+	if err != nil {
+		return nil, err
+	}
+	inf.CV = best / float64(len(states))
+	return inf, nil
+}
+
+// infer runs task inference with the penalty rule of c (defaults applied).
+func infer(ag *Agent, labelled []Transition, c AdaptConfig) (*Inference, error) {
+	if c.Ridge == 0 && !c.noCV {
+		return InferTaskCV(ag, labelled, nil)
+	}
+	return InferTask(ag, labelled, c.Ridge)
 }
 
 // Policy is the acting policy after adaptation: GPI with the inferred w over
@@ -226,8 +343,8 @@ func (p *Policy) Probs(dst []float64, s int) { p.Actions.Probs(dst, s) }
 // Act returns the policy's action in s.
 func (p *Policy) Act(s int) int { return p.Actions[s] }
 
-// Adapt infers the task from the labelled transitions (InferTask with
-// cfg.Ridge) and returns the GPI policy (Agent.Policy) over {w} and the
+// Adapt infers the task from the labelled transitions (InferTaskCV, or
+// InferTask with a fixed cfg.Ridge) and returns the GPI policy (Agent.Policy) over {w} and the
 // cfg.Candidates skills most similar to w.
 //
 // The universal SFs are tabulated over the skill set, so psi(., ., w) is not
@@ -245,7 +362,7 @@ func Adapt(ag *Agent, labelled []Transition, cfg AdaptConfig) (*Policy, error) {
 	if err != nil {
 		return nil, err
 	}
-	inf, err := InferTask(ag, labelled, c.Ridge)
+	inf, err := infer(ag, labelled, c)
 	if err != nil {
 		return nil, err
 	}

@@ -249,7 +249,8 @@ const (
 // AdaptConfig configures task inference and the acting policy. The zero
 // value means the documented defaults.
 type AdaptConfig struct {
-	// Ridge is the ridge penalty lambda of task inference. 0 means 1e-3;
+	// Ridge is the ridge penalty lambda of task inference. 0 means chosen
+	// by leave-one-state-out cross-validation over RidgeGrid (InferTaskCV);
 	// a negative value means plain least squares (lambda = 0).
 	Ridge float64
 	// Candidates is the number N of skills, the most similar to w, that
@@ -268,6 +269,8 @@ type AdaptConfig struct {
 	Epsilon float64
 	// EpisodeSteps is the time limit of a labelled episode. 0 means 1000.
 	EpisodeSteps int
+	noCV         bool // set by withDefaults for a negative Ridge
+
 	// SwitchEvery is the number of steps after which ExploreSkills moves to
 	// the next skill within an episode, and after which ExploreGreedy
 	// re-infers the task. 0 means 40.
@@ -279,9 +282,8 @@ type AdaptConfig struct {
 
 func (cfg AdaptConfig) withDefaults() (AdaptConfig, error) {
 	c := cfg
-	setF(&c.Ridge, 1e-3)
 	if c.Ridge < 0 {
-		c.Ridge = 0
+		c.Ridge, c.noCV = 0, true
 	}
 	setI(&c.Candidates, 8)
 	if c.Candidates < 0 {

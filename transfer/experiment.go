@@ -88,6 +88,8 @@ type Record struct {
 	// Rewarded is the number of labelled transitions with a non-zero
 	// reward (pretrained variants only).
 	Rewarded int `json:"rewarded"`
+	// Lambda is the ridge penalty of the task inference.
+	Lambda float64 `json:"lambda"`
 }
 
 // Summary is the mean and standard error over seeds of one (variant, job,
@@ -352,7 +354,7 @@ func (e *Experiment) adaptAll(ag *Agent, seed uint64, rewards []mdp.Reward, refs
 			return nil, err
 		}
 		for _, b := range e.Budgets {
-			inf, err := InferTask(ag, lab[:b], ac.Ridge)
+			inf, err := infer(ag, lab[:b], ac)
 			if err != nil {
 				return nil, fmt.Errorf("job %q: %w", job.Name, err)
 			}
@@ -371,7 +373,7 @@ func (e *Experiment) adaptAll(ag *Agent, seed uint64, rewards []mdp.Reward, refs
 					return nil, fmt.Errorf("job %q: %w", job.Name, err)
 				}
 				recs = append(recs, Record{Variant: v.name, Job: job.Name, Budget: b, Seed: seed,
-					Normalised: sc.Normalised, Value: sc.Value, RSquared: inf.RSquared, Residual: inf.Residual, Rewarded: inf.Rewarded})
+					Normalised: sc.Normalised, Value: sc.Value, RSquared: inf.RSquared, Residual: inf.Residual, Rewarded: inf.Rewarded, Lambda: inf.Lambda})
 			}
 		}
 	}

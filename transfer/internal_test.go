@@ -239,3 +239,61 @@ func TestDeriveSeed(t *testing.T) {
 		}
 	}
 }
+
+// TestInferTaskCV checks the closed-form leave-one-state-out error against
+// refitting without each state (Sherman-Morrison identity, derived by hand
+// in the doc comment), for a single-penalty grid.
+func TestInferTaskCV(t *testing.T) {
+	g, _ := room(t)
+	ag, err := newAgent(g.NumStates(), g.MDP.NumActions(), mustDefaults(t, PretrainConfig{Dim: 6, Skills: 4, Seed: 3}))
+	if err != nil {
+		t.Fatal(err)
+	}
+	rng := rand.New(rand.NewPCG(5, 6))
+	var lab []Transition
+	for range 120 {
+		s := rng.IntN(g.NumStates())
+		lab = append(lab, Transition{S: s, Next: s, Reward: rng.NormFloat64() + float64(s%3)})
+	}
+	const lam = 0.7
+	inf, err := InferTaskCV(ag, lab, []float64{lam})
+	if err != nil {
+		t.Fatal(err)
+	}
+	// Brute force: refit without each distinct next state.
+	states := map[int]bool{}
+	for _, l := range lab {
+		states[l.Next] = true
+	}
+	var sum float64
+	phi := make([]float64, ag.d)
+	for s := range states {
+		var rest []Transition
+		var ys []float64
+		for _, l := range lab {
+			if l.Next == s {
+				ys = append(ys, l.Reward)
+			} else {
+				rest = append(rest, l)
+			}
+		}
+		fit, err := InferTask(ag, rest, lam)
+		if err != nil {
+			t.Fatal(err)
+		}
+		var mean float64
+		for _, y := range ys {
+			mean += y / float64(len(ys))
+		}
+		ag.Phi(phi, s)
+		e := mean - dot(phi, fit.Raw)
+		sum += e * e
+	}
+	want := sum / float64(len(states))
+	if math.Abs(inf.CV-want) > 1e-9*(1+want) {
+		t.Errorf("closed-form CV %v, brute force %v", inf.CV, want)
+	}
+	if inf.Lambda != lam {
+		t.Errorf("lambda %v, want %v", inf.Lambda, lam)
+	}
+}

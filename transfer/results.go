@@ -65,11 +65,11 @@ func (rep *Report) WriteJSON(path string) error {
 func (rep *Report) WriteCSV(path string) error {
 	var buf bytes.Buffer
 	w := csv.NewWriter(&buf)
-	w.Write([]string{"variant", "job", "budget", "seed", "normalised", "value", "r_squared", "residual", "rewarded"})
+	w.Write([]string{"variant", "job", "budget", "seed", "normalised", "value", "r_squared", "residual", "rewarded", "lambda"})
 	f := func(v float64) string { return strconv.FormatFloat(v, 'g', -1, 64) }
 	for _, r := range rep.Results.Records {
 		w.Write([]string{r.Variant, r.Job, strconv.Itoa(r.Budget), strconv.FormatUint(r.Seed, 10),
-			f(r.Normalised), f(r.Value), f(r.RSquared), f(r.Residual), strconv.Itoa(r.Rewarded)})
+			f(r.Normalised), f(r.Value), f(r.RSquared), f(r.Residual), strconv.Itoa(r.Rewarded), f(r.Lambda)})
 	}
 	w.Flush()
 	if err := w.Error(); err != nil {
