@@ -265,7 +265,7 @@ func (t *Tabular) UnmarshalBinary(data []byte) error {
 	if err := dec.done(what); err != nil {
 		return err
 	}
-	if (power > 0) != (visits != nil && len(visits) > 0) || (power > 0 && len(visits) != nz*ns*na) {
+	if (power > 0) != (len(visits) > 0) || (power > 0 && len(visits) != nz*ns*na) {
 		return corrupt(what, "bad visit counts")
 	}
 	n, err := NewTabular(ns, na, zs, gamma, nil)

@@ -193,26 +193,6 @@ func wellSeparated(t testing.TB, p problem, rng *rand.Rand, k, d int, minGap flo
 	return out
 }
 
-// qError returns max over non-terminal s, all a of |psi(s,a,z).z -
-// ref(s,a).z| divided by max |ref . z|.
-func qError(ap StatePsi, ref *sf.Table, m *mdp.Finite, z []float64) float64 {
-	dst := make([]float64, ref.A*ref.D)
-	d := ref.D
-	var worst, scale float64
-	for s := 0; s < ref.S; s++ {
-		if m.Terminal(s) {
-			continue
-		}
-		ap.PsiState(dst, s, z)
-		for a := 0; a < ref.A; a++ {
-			q := ref.Q(s, a, z)
-			worst = math.Max(worst, math.Abs(dot(dst[a*d:(a+1)*d], z)-q))
-			scale = math.Max(scale, math.Abs(q))
-		}
-	}
-	return worst / scale
-}
-
 // checkGreedy reports every non-terminal state where the greedy action of
 // psi(s, ., z) . z differs from the optimal policy opt.
 func checkGreedy(t *testing.T, ap StatePsi, opt mdp.Deterministic, p problem, z []float64) {
