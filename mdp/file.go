@@ -11,10 +11,10 @@ import (
 	"io"
 	"math"
 	"os"
-	"path/filepath"
 	"slices"
 	"strconv"
 
+	"github.com/successor-go/successor/internal/fileio"
 	"github.com/successor-go/successor/linalg"
 )
 
@@ -403,42 +403,16 @@ func Write(w io.Writer, f *File) error {
 // same directory, syncs it, and renames it over path (mode 0644), so a
 // reader never sees a partial file and a failed write leaves the old file
 // intact.
-func WriteFile(path string, f *File) (err error) {
-	dir := filepath.Dir(path)
-	tmp, err := os.CreateTemp(dir, "."+filepath.Base(path)+".tmp*")
-	if err != nil {
+func WriteFile(path string, f *File) error {
+	var werr error
+	err := fileio.WriteAtomicFunc(path, 0o644, func(w io.Writer) error {
+		werr = Write(w, f)
+		return werr
+	})
+	if err != nil && err != werr {
 		return fmt.Errorf("mdp: write file: %w", err)
 	}
-	defer func() {
-		if err != nil {
-			tmp.Close()
-			os.Remove(tmp.Name())
-		}
-	}()
-	bw := bufio.NewWriter(tmp)
-	if err = Write(bw, f); err != nil {
-		return err
-	}
-	if err = bw.Flush(); err != nil {
-		return fmt.Errorf("mdp: write file: %w", err)
-	}
-	if err = tmp.Chmod(0o644); err != nil {
-		return fmt.Errorf("mdp: write file: %w", err)
-	}
-	if err = tmp.Sync(); err != nil {
-		return fmt.Errorf("mdp: write file: %w", err)
-	}
-	if err = tmp.Close(); err != nil {
-		return fmt.Errorf("mdp: write file: %w", err)
-	}
-	if err = os.Rename(tmp.Name(), path); err != nil {
-		return fmt.Errorf("mdp: write file: %w", err)
-	}
-	if d, derr := os.Open(dir); derr == nil {
-		d.Sync() // best effort: persist the rename
-		d.Close()
-	}
-	return nil
+	return err
 }
 
 // checksumString returns "crc32:" and eight hex digits of the CRC-32

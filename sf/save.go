@@ -7,7 +7,8 @@ import (
 	"math"
 	"math/bits"
 	"os"
-	"path/filepath"
+
+	"github.com/successor-go/successor/internal/fileio"
 )
 
 // The file format is documented in the package doc (doc.go, "Files").
@@ -96,13 +97,14 @@ func (t *Table) UnmarshalBinary(data []byte) error {
 
 // Save writes t to the file path atomically: to a temporary file in the
 // same directory, synced to disk, then renamed over path, so a crash leaves
-// either the old file or the new one, never a mixture.
+// either the old file or the new one, never a mixture. The file has
+// mode 0600.
 func (t *Table) Save(path string) error {
 	b, err := t.MarshalBinary()
 	if err != nil {
 		return err
 	}
-	if err := writeFileAtomic(path, b); err != nil {
+	if err := fileio.WriteAtomic(path, b, 0o600); err != nil {
 		return fmt.Errorf("sf: save table: %w", err)
 	}
 	return nil
@@ -150,7 +152,7 @@ func (l *Linear) Save(path string) error {
 	if err != nil {
 		return err
 	}
-	if err := writeFileAtomic(path, b); err != nil {
+	if err := fileio.WriteAtomic(path, b, 0o600); err != nil {
 		return fmt.Errorf("sf: save linear: %w", err)
 	}
 	return nil
@@ -167,38 +169,4 @@ func LoadLinear(path string) (*Linear, error) {
 		return nil, err
 	}
 	return l, nil
-}
-
-// writeFileAtomic writes data to a temporary file in the directory of path,
-// syncs it, renames it to path and syncs the directory.
-func writeFileAtomic(path string, data []byte) (err error) {
-	dir := filepath.Dir(path)
-	f, err := os.CreateTemp(dir, "."+filepath.Base(path)+".tmp-*")
-	if err != nil {
-		return err
-	}
-	tmp := f.Name()
-	defer func() {
-		if err != nil {
-			f.Close()
-			os.Remove(tmp)
-		}
-	}()
-	if _, err = f.Write(data); err != nil {
-		return err
-	}
-	if err = f.Sync(); err != nil {
-		return err
-	}
-	if err = f.Close(); err != nil {
-		return err
-	}
-	if err = os.Rename(tmp, path); err != nil {
-		return err
-	}
-	if d, derr := os.Open(dir); derr == nil {
-		d.Sync() // best effort: not every platform can sync a directory
-		d.Close()
-	}
-	return nil
 }

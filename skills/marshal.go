@@ -7,7 +7,8 @@ import (
 	"math"
 	"math/rand/v2"
 	"os"
-	"path/filepath"
+
+	"github.com/successor-go/successor/internal/fileio"
 )
 
 // Binary format of a discriminator (version 1), little-endian throughout:
@@ -353,13 +354,13 @@ func Unmarshal(data []byte) (Discriminator, error) {
 
 // Save writes Marshal(d) to path atomically: into a temporary file in the
 // same directory, synced, then renamed over path, so a crash leaves either
-// the old file or the new one.
+// the old file or the new one. The file has mode 0600.
 func Save(path string, d Discriminator) error {
 	b, err := Marshal(d)
 	if err != nil {
 		return fmt.Errorf("skills: save: %w", err)
 	}
-	if err := writeAtomic(path, b); err != nil {
+	if err := fileio.WriteAtomic(path, b, 0o600); err != nil {
 		return fmt.Errorf("skills: save: %w", err)
 	}
 	return nil
@@ -376,41 +377,4 @@ func Load(path string) (Discriminator, error) {
 		return nil, fmt.Errorf("skills: load %s: %w", path, err)
 	}
 	return d, nil
-}
-
-func writeAtomic(path string, b []byte) (err error) {
-	dir, base := filepath.Split(path)
-	if dir == "" {
-		dir = "."
-	}
-	f, err := os.CreateTemp(dir, "."+base+".tmp*")
-	if err != nil {
-		return err
-	}
-	tmp := f.Name()
-	defer func() {
-		if err != nil {
-			f.Close()
-			os.Remove(tmp)
-		}
-	}()
-	if _, err = f.Write(b); err != nil {
-		return err
-	}
-	if err = f.Sync(); err != nil {
-		return err
-	}
-	if err = f.Close(); err != nil {
-		return err
-	}
-	if err = os.Rename(tmp, path); err != nil {
-		return err
-	}
-	// Make the rename itself durable; not every system can sync a
-	// directory, so a failure here is not reported.
-	if df, derr := os.Open(dir); derr == nil {
-		df.Sync()
-		df.Close()
-	}
-	return nil
 }
