@@ -23,8 +23,8 @@ const substochasticTol = 1e-9
 // q must be sub-stochastic (entries >= 0 and row sums <= 1, each within
 // 1e-9). Before factorising, Fundamental checks structurally that every
 // transient state can reach a row that leaks probability out of the block
-// (row sum below 1 - 1e-12 * t), by a breadth-first search over the
-// reversed edges of q, in O(t + nnz); otherwise the block holds a closed
+// (row sum below 1 - 1e-12 * t), by a search over the reversed edges of q
+// as CannotReach does, in O(t + nnz); otherwise the block holds a closed
 // class and N does not exist. The solve costs as SolveSuccessor with
 // gamma = 1.
 //
@@ -47,33 +47,16 @@ func Fundamental(dst *mat.Dense, q mat.Matrix) error {
 	}
 	leak := 1e-12 * float64(max(t, 1))
 	reach := make([]bool, t)
-	queue := make([]int, 0, t)
 	for i, s := range sums {
 		if s > 1+substochasticTol {
 			return fmt.Errorf("linalg: fundamental: %w", &RowSumError{Row: i, Sum: s})
 		}
-		if s < 1-leak {
-			reach[i] = true
-			queue = append(queue, i)
-		}
+		reach[i] = s < 1-leak
 	}
 	// Walk the reversed edges: i reaches absorption if some j with
 	// q[i][j] > 0 does.
-	rev := g.reversed()
-	for len(queue) > 0 {
-		j := queue[0]
-		queue = queue[1:]
-		for _, i := range rev.adj(j) {
-			if !reach[i] {
-				reach[i] = true
-				queue = append(queue, i)
-			}
-		}
-	}
-	for i, ok := range reach {
-		if !ok {
-			return fmt.Errorf("linalg: fundamental: transient state %d cannot reach absorption: %w", i, ErrNotAbsorbing)
-		}
+	if i := g.reversed().unreachedFrom(reach); i >= 0 {
+		return fmt.Errorf("linalg: fundamental: transient state %d cannot reach absorption: %w", i, ErrNotAbsorbing)
 	}
 	if t == 0 {
 		return nil
@@ -284,10 +267,21 @@ func (g graph) reversed() graph {
 
 // unreached returns a node not reachable from s, or -1.
 func (g graph) unreached(s int) int {
-	n := len(g.ptr) - 1
-	seen := make([]bool, n)
-	seen[s] = true
-	stack := []int{s}
+	seed := make([]bool, len(g.ptr)-1)
+	seed[s] = true
+	return g.unreachedFrom(seed)
+}
+
+// unreachedFrom returns the lowest node not reachable from any node i with
+// seed[i] (a seed reaches itself), or -1. seed is not modified.
+func (g graph) unreachedFrom(seed []bool) int {
+	seen := append([]bool(nil), seed...)
+	var stack []int
+	for i, ok := range seen {
+		if ok {
+			stack = append(stack, i)
+		}
+	}
 	for len(stack) > 0 {
 		i := stack[len(stack)-1]
 		stack = stack[:len(stack)-1]
@@ -304,4 +298,43 @@ func (g graph) unreached(s int) int {
 		}
 	}
 	return -1
+}
+
+// CannotReach returns the lowest row i of the square matrix p from which no
+// target row can be reached, or -1 if every row reaches one. Row j is
+// reachable from row i when there is a path i = i0, i1, ..., ik = j (k >= 0)
+// with p[i_l][i_(l+1)] > 0 at every step; in particular a target row reaches
+// itself. Only the stored entries that are positive are edges: explicit
+// zeros, negative and NaN entries are not.
+//
+// Taking as target the rows of a sub-stochastic p that lose mass (row sum
+// below 1), CannotReach(p, target) == -1 says that p is the transient block
+// of an absorbing chain: p^t -> 0, so I - p is non-singular and
+// (I - p)^-1 = sum_t p^t exists (Grinstead & Snell, Introduction to
+// Probability, ch. 11, Theorems 11.3 and 11.4). Fundamental makes this
+// check (with the rows whose sum is below 1 - 1e-12 t); a row it returns
+// lies in or leads only into a closed class of p.
+//
+// CannotReach searches the reversed edges from the target rows, in
+// O(n + nnz) time and memory. It panics if p is not square or
+// len(target) != n.
+func CannotReach(p *CSR, target []bool) int {
+	n, c := p.Dims()
+	if n != c {
+		panic(fmt.Sprintf("linalg: cannot reach: p is %dx%d, not square", n, c))
+	}
+	if len(target) != n {
+		panic(fmt.Sprintf("linalg: cannot reach: len(target) = %d, want %d", len(target), n))
+	}
+	g := graph{ptr: make([]int, n+1)}
+	for i := 0; i < n; i++ {
+		ind, val := p.Row(i)
+		for k, j := range ind {
+			if val[k] > 0 {
+				g.ind = append(g.ind, j)
+			}
+		}
+		g.ptr[i+1] = len(g.ind)
+	}
+	return g.reversed().unreachedFrom(target)
 }

@@ -23,7 +23,10 @@
 // block R, Fundamental computes N = (I - Q)^-1; N 1 is the expected number
 // of steps to absorption and N R the absorption probabilities (Grinstead &
 // Snell, Introduction to Probability, ch. 11). Stationary computes pi with
-// pi P = pi, sum(pi) = 1 for an irreducible P.
+// pi P = pi, sum(pi) = 1 for an irreducible P. CannotReach finds a row of
+// a sparse P from which no row of a given target set is reachable along its
+// positive entries; with the rows that lose mass as the target, it is the
+// structural test that a sub-stochastic P is a transient block.
 //
 // Ridge computes w = argmin ||X w - y||^2 + lambda ||w||^2; RLS computes the
 // same w recursively, one sample at a time.
@@ -43,7 +46,8 @@
 // A *CSR argument is read in O(nnz), any other mat.Matrix in O(n^2).
 //
 // Fundamental uses the same factorisation with gamma = 1 after a structural
-// check, O(n + nnz), that every transient state reaches a leaking row.
+// check, O(n + nnz), that every transient state reaches a leaking row
+// (CannotReach).
 // Stationary checks irreducibility by two graph searches and uses the GTH
 // state-reduction algorithm (Grassmann, Taksar & Heyman 1985), which keeps
 // the band: O(n kl ku) time, O(n (kl + ku)) memory.

@@ -202,7 +202,7 @@ func (o *Solver) evaluate(m *Finite, tab, rbar []float64, gamma float64, init []
 		b[s] = sum
 	}
 	if gamma == 1 {
-		if s := notAbsorbed(m.terminal, p); s >= 0 {
+		if s := linalg.CannotReach(p, m.terminal); s >= 0 {
 			return nil, fmt.Errorf("gamma = 1 but state %d never reaches a terminal state under the policy: %w (%w)", s, linalg.ErrDiscount, linalg.ErrNotAbsorbing)
 		}
 	}
@@ -354,57 +354,6 @@ func gaussSeidel(v []float64, p *linalg.CSR, b []float64, tol float64, maxIter i
 	return SolveReport{}, fmt.Errorf("gauss-seidel at gamma = 1 after %d sweeps: %w", maxIter, linalg.ErrNotConverged)
 }
 
-// notAbsorbed returns a state that cannot reach a terminal state in the
-// graph of the sub-stochastic chain p (terminal rows zero), or -1 if every
-// state reaches one.
-func notAbsorbed(terminal []bool, p *linalg.CSR) int {
-	n := len(terminal)
-	// Reverse adjacency by counting sort.
-	cnt := make([]int, n+1)
-	for _, j := range p.Ind {
-		cnt[j+1]++
-	}
-	for i := 0; i < n; i++ {
-		cnt[i+1] += cnt[i]
-	}
-	src := make([]int, len(p.Ind))
-	fill := make([]int, n)
-	copy(fill, cnt[:n])
-	for i := 0; i < n; i++ {
-		ind, val := p.Row(i)
-		for k, j := range ind {
-			if val[k] > 0 {
-				src[fill[j]] = i
-				fill[j]++
-			}
-		}
-	}
-	ok := make([]bool, n)
-	queue := make([]int, 0, n)
-	for s, t := range terminal {
-		if t {
-			ok[s] = true
-			queue = append(queue, s)
-		}
-	}
-	for len(queue) > 0 {
-		j := queue[0]
-		queue = queue[1:]
-		for _, i := range src[cnt[j]:fill[j]] {
-			if !ok[i] {
-				ok[i] = true
-				queue = append(queue, i)
-			}
-		}
-	}
-	for s, v := range ok {
-		if !v {
-			return s
-		}
-	}
-	return -1
-}
-
 // OptimalResult is the exact optimum of an MDP for a reward.
 type OptimalResult struct {
 	Values                   // Q* and V*
@@ -543,7 +492,7 @@ func (o *Solver) OptimalExpected(m *Finite, rbar []float64, gamma float64) (*Opt
 	}
 	if gamma == 1 {
 		setTable(greedy)
-		if notAbsorbed(m.terminal, m.chainFromTable(tab)) >= 0 {
+		if linalg.CannotReach(m.chainFromTable(tab), m.terminal) >= 0 {
 			copy(greedy, pol)
 		}
 	}

@@ -191,47 +191,16 @@ func expectedFeatures(m *mdp.Finite, phi FeatureMap) ([]float64, error) {
 // every pair leaks mass, i.e. reaches a terminal state.
 func notAbsorbing(p *linalg.CSR) int {
 	n, _ := p.Dims()
-	// Reverse adjacency, then a backward search from the leaking rows.
-	cnt := make([]int, n+1)
-	for _, j := range p.Ind {
-		cnt[j+1]++
-	}
-	for i := 0; i < n; i++ {
-		cnt[i+1] += cnt[i]
-	}
-	rev := make([]int, len(p.Ind))
-	fill := append([]int(nil), cnt[:n]...)
-	reached := make([]bool, n)
-	var queue []int
-	for i := 0; i < n; i++ {
-		ind, val := p.Row(i)
+	leaks := make([]bool, n)
+	for i := range leaks {
+		_, val := p.Row(i)
 		var sum float64
-		for k, j := range ind {
-			rev[fill[j]] = i
-			fill[j]++
-			sum += val[k]
+		for _, v := range val {
+			sum += v
 		}
-		if sum < 1-1e-12 {
-			reached[i] = true
-			queue = append(queue, i)
-		}
+		leaks[i] = sum < 1-1e-12
 	}
-	for len(queue) > 0 {
-		j := queue[len(queue)-1]
-		queue = queue[:len(queue)-1]
-		for _, i := range rev[cnt[j]:cnt[j+1]] {
-			if !reached[i] {
-				reached[i] = true
-				queue = append(queue, i)
-			}
-		}
-	}
-	for i, r := range reached {
-		if !r {
-			return i
-		}
-	}
-	return -1
+	return linalg.CannotReach(p, leaks)
 }
 
 // bandCost returns n (kl + 1) (2 kl + ku + 1) for the lower and upper
