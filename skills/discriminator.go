@@ -3,6 +3,8 @@ package skills
 import (
 	"fmt"
 	"math/rand/v2"
+
+	"github.com/successor-go/successor/internal/nn"
 )
 
 // Discriminator is a learned model q(z | x) of the skill z given an
@@ -117,7 +119,7 @@ func newEncoder(in, out int, net *Net, rng *rand.Rand) (encoder, error) {
 type core struct {
 	enc   encoder
 	opt   Optim
-	adam  adam
+	adam  *nn.Adam
 	steps int
 	dy    []float64 // dLoss/df for one chunk
 	acc   []float64 // summed gradient when a minibatch spans chunks
@@ -131,7 +133,7 @@ type chunkLosser interface {
 }
 
 func newCore(enc encoder, opt Optim) core {
-	return core{enc: enc, opt: opt, adam: newAdam(len(enc.params()))}
+	return core{enc: enc, opt: opt, adam: newAdam(len(enc.params()), &opt)}
 }
 
 // rows checks the lengths of a minibatch and returns its row count.
@@ -182,14 +184,14 @@ func (c *core) lossGrad(l chunkLosser, x, z []float64, n, zdim int) (float64, []
 // step clips g and takes one Adam step, or reports divergence.
 func (c *core) step(loss float64, g []float64) error {
 	c.steps++
-	norm := clipNorm(g, c.opt.ClipNorm)
+	norm := nn.ClipNorm(g, c.opt.ClipNorm)
 	if !isFinite(loss) || !isFinite(norm) {
 		return &DivergedError{Step: c.steps, Loss: loss}
 	}
-	c.adam.step(&c.opt, c.enc.params(), g)
+	c.adam.Step(c.enc.params(), g)
 	return nil
 }
 
 func (c *core) clone() core {
-	return core{enc: c.enc.clone(), opt: c.opt, adam: c.adam.clone(), steps: c.steps}
+	return core{enc: c.enc.clone(), opt: c.opt, adam: c.adam.Clone(), steps: c.steps}
 }

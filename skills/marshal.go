@@ -107,7 +107,7 @@ func appendHeader(b enc, kind uint8, c *core, in, zdim int, net *Net) enc {
 func appendWeights(b enc, c *core) enc {
 	p := c.enc.params()
 	b = b.u64(uint64(len(p))).floats(p)
-	return b.u64(c.adam.t).floats(c.adam.m).floats(c.adam.v)
+	return b.u64(uint64(c.adam.T)).floats(c.adam.M).floats(c.adam.V)
 }
 
 func seal(b enc) []byte {
@@ -124,7 +124,7 @@ func (v *VMF) MarshalBinary() ([]byte, error) {
 	} else {
 		b = b.f64(v.kappa)
 	}
-	b = b.u64(v.kadam.t).f64(v.kadam.m[0]).f64(v.kadam.v[0])
+	b = b.u64(uint64(v.kadam.T)).f64(v.kadam.M[0]).f64(v.kadam.V[0])
 	return seal(appendWeights(b, &v.core)), nil
 }
 
@@ -224,13 +224,14 @@ func (h *header) readWeights(c *core) error {
 		return fmt.Errorf("%d parameters, shape has %d: %w", n, len(p), ErrFormat)
 	}
 	d.floats(p)
-	c.adam.t = d.u64()
-	d.floats(c.adam.m)
-	d.floats(c.adam.v)
-	if d.bad || len(d.b) != 0 || c.adam.t > math.MaxInt32 {
+	t := d.u64()
+	d.floats(c.adam.M)
+	d.floats(c.adam.V)
+	if d.bad || len(d.b) != 0 || t > math.MaxInt32 {
 		return fmt.Errorf("weights: %w", ErrFormat)
 	}
-	if !allFinite(p) || !allFinite(c.adam.m) || !allFinite(c.adam.v) {
+	c.adam.T = int(t)
+	if !allFinite(p) || !allFinite(c.adam.M) || !allFinite(c.adam.V) {
 		return fmt.Errorf("weights: %w", ErrNonFinite)
 	}
 	c.steps = int(h.steps)
@@ -264,7 +265,7 @@ func (h *header) vmf() (*VMF, error) {
 		v.kappa = math.Exp(h.kappa)
 		v.logNorm = VMFLogNorm(v.dim, v.kappa)
 	}
-	v.kadam.t, v.kadam.m[0], v.kadam.v[0] = h.kt, h.km, h.kv
+	v.kadam.T, v.kadam.M[0], v.kadam.V[0] = int(h.kt), h.km, h.kv
 	if err := h.readWeights(&v.core); err != nil {
 		return nil, err
 	}

@@ -3,6 +3,8 @@ package skills
 import (
 	"fmt"
 	"math"
+
+	"github.com/successor-go/successor/internal/nn"
 )
 
 // Optim holds the optimiser settings shared by the discriminators. Every
@@ -54,50 +56,13 @@ func (o Optim) check() error {
 	return nil
 }
 
-// adam is the Adam state for a flat parameter vector.
-type adam struct {
-	m, v []float64
-	t    uint64
-}
-
-func newAdam(n int) adam { return adam{m: make([]float64, n), v: make([]float64, n)} }
-
-// step applies one Adam update to p with gradient g.
-func (a *adam) step(o *Optim, p, g []float64) {
-	a.t++
-	b1, b2 := o.Beta1, o.Beta2
-	c1 := 1 - math.Pow(b1, float64(a.t))
-	c2 := 1 - math.Pow(b2, float64(a.t))
-	lr, eps := o.LearnRate, o.Eps
-	m, v := a.m[:len(p)], a.v[:len(p)]
-	g = g[:len(p)]
-	for i, gi := range g {
-		mi := b1*m[i] + (1-b1)*gi
-		vi := b2*v[i] + (1-b2)*gi*gi
-		m[i], v[i] = mi, vi
-		p[i] -= lr * (mi / c1) / (math.Sqrt(vi/c2) + eps)
-	}
-}
-
-func (a *adam) clone() adam {
-	return adam{m: append([]float64(nil), a.m...), v: append([]float64(nil), a.v...), t: a.t}
-}
-
-// clipNorm scales g to norm at most c (c <= 0 disables) and returns the norm
-// before clipping.
-func clipNorm(g []float64, c float64) float64 {
-	var ss float64
-	for _, v := range g {
-		ss += v * v
-	}
-	n := math.Sqrt(ss)
-	if c > 0 && n > c {
-		s := c / n
-		for i := range g {
-			g[i] *= s
-		}
-	}
-	return n
+// newAdam returns an Adam optimiser (internal/nn) for n parameters with the
+// hyperparameters of o, taken as they are: o is resolved or checked already,
+// and a zero Beta1 read from a file stays zero.
+func newAdam(n int, o *Optim) *nn.Adam {
+	a := nn.NewAdam(n, nil)
+	a.LR, a.Beta1, a.Beta2, a.Eps = o.LearnRate, o.Beta1, o.Beta2, o.Eps
+	return a
 }
 
 func dot(a, b []float64) float64 {

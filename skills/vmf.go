@@ -4,6 +4,8 @@ import (
 	"fmt"
 	"math"
 	"math/rand/v2"
+
+	"github.com/successor-go/successor/internal/nn"
 )
 
 // VMFConfig configures a von Mises–Fisher discriminator. Zero fields other
@@ -52,7 +54,7 @@ type VMF struct {
 	kappa    float64
 	rho      [1]float64 // log kappa when learned
 	kgrad    [1]float64
-	kadam    adam
+	kadam    *nn.Adam
 	logNorm  float64 // log C_d(kappa)
 	csum     float64 // sum of phi_i . z_i over the last minibatch
 	phi      []float64
@@ -103,7 +105,7 @@ func buildVMF(c *VMFConfig, rng *rand.Rand) (*VMF, error) {
 	if err != nil {
 		return nil, err
 	}
-	v := &VMF{core: newCore(enc, c.Optim), dim: c.Dim, net: c.Net, learn: c.LearnKappa, maxKappa: c.MaxKappa, kadam: newAdam(1)}
+	v := &VMF{core: newCore(enc, c.Optim), dim: c.Dim, net: c.Net, learn: c.LearnKappa, maxKappa: c.MaxKappa, kadam: newAdam(1, &c.Optim)}
 	v.setKappa(c.Kappa)
 	v.phi = make([]float64, c.Dim)
 	return v, nil
@@ -214,7 +216,7 @@ func (v *VMF) Update(x, z []float64) (float64, error) {
 	}
 	if v.learn {
 		v.kgrad[0] = v.kappaGrad(n)
-		v.kadam.step(&v.opt, v.rho[:], v.kgrad[:])
+		v.kadam.Step(v.rho[:], v.kgrad[:])
 		v.rho[0] = min(max(v.rho[0], math.Log(minKappa)), math.Log(v.maxKappa))
 		v.kappa = math.Exp(v.rho[0])
 		v.logNorm = VMFLogNorm(v.dim, v.kappa)
@@ -259,7 +261,7 @@ func (v *VMF) Clone() Discriminator {
 	c := *v
 	c.core = v.core.clone()
 	c.net.Hidden = append([]int(nil), v.net.Hidden...)
-	c.kadam = v.kadam.clone()
+	c.kadam = v.kadam.Clone()
 	c.phi = make([]float64, v.dim)
 	return &c
 }

@@ -73,3 +73,12 @@ func (o *Adam) Reset() {
 	clear(o.V)
 	o.T = 0
 }
+
+// Clone returns a deep copy of o: the same hyperparameters, step count and
+// moments, in new slices.
+func (o *Adam) Clone() *Adam {
+	c := *o
+	c.M = append([]float64(nil), o.M...)
+	c.V = append([]float64(nil), o.V...)
+	return &c
+}
