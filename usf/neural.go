@@ -172,27 +172,20 @@ func (u *Neural) Err() error { return u.err }
 // Psi writes psi(s, ., z) for observation x into dst (action-major) from
 // the online network. It panics if a length is wrong. It does not
 // allocate.
-func (u *Neural) Psi(dst, x, z []float64) {
-	checkLen("neural", "psi slice", dst, u.na*u.d)
-	checkLen("neural", "observation", x, u.obs)
-	checkLen("neural", "z", z, u.d)
-	w := u.obs + u.d
-	row := u.in[:w]
-	copy(row, x)
-	copy(row[u.obs:], z)
-	copy(dst, u.net.Forward(row, 1))
-}
+func (u *Neural) Psi(dst, x, z []float64) { u.psi(u.net, u.in, dst, x, z) }
 
 // PsiTarget is Psi from the target network.
-func (u *Neural) PsiTarget(dst, x, z []float64) {
+func (u *Neural) PsiTarget(dst, x, z []float64) { u.psi(u.target, u.inNext, dst, x, z) }
+
+// psi evaluates net on the input row [x, z], built in the scratch in.
+func (u *Neural) psi(net *nn.MLP, in, dst, x, z []float64) {
 	checkLen("neural", "psi slice", dst, u.na*u.d)
 	checkLen("neural", "observation", x, u.obs)
 	checkLen("neural", "z", z, u.d)
-	w := u.obs + u.d
-	row := u.inNext[:w]
+	row := in[:u.obs+u.d]
 	copy(row, x)
 	copy(row[u.obs:], z)
-	copy(dst, u.target.Forward(row, 1))
+	copy(dst, net.Forward(row, 1))
 }
 
 // inputs writes the rows (x_i, z_i) of b into dst, from X (next = false)
