@@ -5,6 +5,8 @@ import (
 	"math"
 	"math/rand/v2"
 	"testing"
+
+	"github.com/successor-go/successor/internal/vec"
 )
 
 // TestFeatureMaps checks each built-in map against its defining formula
@@ -125,7 +127,7 @@ func TestRandomFeatures(t *testing.T) {
 	}
 	for s := 0; s < 5; s++ {
 		r := f1.Row(s)
-		if n := math.Sqrt(dot(r, r)); math.Abs(n-1) > 1e-14 {
+		if n := math.Sqrt(vec.Dot(r, r)); math.Abs(n-1) > 1e-14 {
 			t.Errorf("row %d has norm %v, want 1", s, n)
 		}
 	}

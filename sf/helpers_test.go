@@ -5,6 +5,7 @@ import (
 	"math/rand/v2"
 	"testing"
 
+	"github.com/successor-go/successor/internal/vec"
 	"github.com/successor-go/successor/mdp"
 )
 
@@ -62,6 +63,6 @@ func rewardOf(phi FeatureMap, w []float64) mdp.Reward {
 	f := make([]float64, phi.Dim())
 	return func(s, a, next int) float64 {
 		phi.Features(f, s, a, next)
-		return dot(f, w)
+		return vec.Dot(f, w)
 	}
 }

@@ -3,6 +3,8 @@ package sf
 import (
 	"fmt"
 	"math"
+
+	"github.com/successor-go/successor/internal/vec"
 )
 
 // Linear is a linear approximator of successor features over an
@@ -51,7 +53,7 @@ func (l *Linear) Eval(dst, x []float64, a int) {
 	m := l.M
 	w := l.W[a*l.D*m : (a+1)*l.D*m]
 	for k := range dst {
-		dst[k] = dot(w[k*m:(k+1)*m], x)
+		dst[k] = vec.Dot(w[k*m:(k+1)*m], x)
 	}
 }
 
@@ -64,7 +66,7 @@ func (l *Linear) EvalAll(dst, x []float64) {
 	}
 	m := l.M
 	for r := range dst {
-		dst[r] = dot(l.W[r*m:(r+1)*m], x)
+		dst[r] = vec.Dot(l.W[r*m:(r+1)*m], x)
 	}
 }
 
@@ -245,7 +247,7 @@ func (lt *LinearTD) Update(x []float64, a int, phi, xNext []float64, terminal bo
 		if same >= 0 {
 			next, now = dot2(l.W[(same*d+k)*m:(same*d+k+1)*m], xNext, row, x)
 		} else {
-			next, now = tgt[k], dot(row, x)
+			next, now = tgt[k], vec.Dot(row, x)
 		}
 		delta := phi[k] + lt.gamma*next - now
 		check += delta

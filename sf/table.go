@@ -1,6 +1,10 @@
 package sf
 
-import "fmt"
+import (
+	"fmt"
+
+	"github.com/successor-go/successor/internal/vec"
+)
 
 // Table holds successor features psi(s, a) in R^D for every state-action
 // pair in one flat slice: the row of (s, a) is Data[(s*A+a)*D : (s*A+a+1)*D].
@@ -62,7 +66,7 @@ func (t *Table) Psi(dst []float64, s int) {
 // panics if len(w) != D or (s, a) is out of range.
 func (t *Table) Q(s, a int, w []float64) float64 {
 	t.checkTask(w)
-	return dot(t.Row(s, a), w)
+	return vec.Dot(t.Row(s, a), w)
 }
 
 // Greedy returns the action maximising psi(s, a) . w and its value; ties go
@@ -81,7 +85,7 @@ func (t *Table) QTable(dst []float64, w []float64) {
 	}
 	d := t.D
 	for i := range dst {
-		dst[i] = dot(t.Data[i*d:(i+1)*d], w)
+		dst[i] = vec.Dot(t.Data[i*d:(i+1)*d], w)
 	}
 }
 
@@ -100,31 +104,11 @@ func (t *Table) checkTask(w []float64) {
 // greedy returns argmax_a psi[a*d:(a+1)*d] . w over na actions, ties to the
 // lowest action.
 func greedy(psi, w []float64, na, d int) (int, float64) {
-	best, bq := 0, dot(psi[:d], w)
+	best, bq := 0, vec.Dot(psi[:d], w)
 	for a := 1; a < na; a++ {
-		if q := dot(psi[a*d:(a+1)*d], w); q > bq {
+		if q := vec.Dot(psi[a*d:(a+1)*d], w); q > bq {
 			best, bq = a, q
 		}
 	}
 	return best, bq
-}
-
-// dot returns x . y over len(x) entries, unrolled by four. It panics if
-// len(y) < len(x).
-func dot(x, y []float64) float64 {
-	y = y[:len(x)]
-	var s0, s1, s2, s3 float64
-	i := 0
-	for ; i <= len(x)-4; i += 4 {
-		xx := x[i : i+4 : i+4]
-		yy := y[i : i+4 : i+4]
-		s0 += xx[0] * yy[0]
-		s1 += xx[1] * yy[1]
-		s2 += xx[2] * yy[2]
-		s3 += xx[3] * yy[3]
-	}
-	for ; i < len(x); i++ {
-		s0 += x[i] * y[i]
-	}
-	return (s0 + s1) + (s2 + s3)
 }

@@ -6,6 +6,7 @@ import (
 
 	"gonum.org/v1/gonum/mat"
 
+	"github.com/successor-go/successor/internal/vec"
 	"github.com/successor-go/successor/linalg"
 )
 
@@ -59,7 +60,7 @@ func InferTask(dst []float64, phis mat.Matrix, rewards []float64, lambda float64
 	}
 	fit := TaskFit{Samples: n, RSS: rss, RMS: math.Sqrt(rss / float64(n))}
 	raw := w.RawVector().Data
-	fit.Norm = math.Sqrt(dot(raw, raw))
+	fit.Norm = math.Sqrt(vec.Dot(raw, raw))
 	if s != nil && s.Unit {
 		if err := unit(raw, fit.Norm); err != nil {
 			return fit, fmt.Errorf("sf: infer task: %w", err)
@@ -127,7 +128,7 @@ func (e *TaskEstimator) Observe(phi []float64, r float64) error {
 func (e *TaskEstimator) Task(dst []float64) error {
 	e.rls.WeightsTo(dst)
 	if e.unit {
-		if err := unit(dst, math.Sqrt(dot(dst, dst))); err != nil {
+		if err := unit(dst, math.Sqrt(vec.Dot(dst, dst))); err != nil {
 			return fmt.Errorf("sf: task estimator: %w", err)
 		}
 	}
@@ -137,7 +138,7 @@ func (e *TaskEstimator) Task(dst []float64) error {
 // Fit reports the fit of the current (unprojected) w on the samples seen.
 func (e *TaskEstimator) Fit() TaskFit {
 	w := e.rls.Weights()
-	f := TaskFit{Samples: e.rls.Count(), RSS: e.rls.RSS(), Norm: math.Sqrt(dot(w, w))}
+	f := TaskFit{Samples: e.rls.Count(), RSS: e.rls.RSS(), Norm: math.Sqrt(vec.Dot(w, w))}
 	if f.Samples > 0 {
 		f.RMS = math.Sqrt(f.RSS / float64(f.Samples))
 	}

@@ -8,6 +8,7 @@ import (
 
 	"gonum.org/v1/gonum/mat"
 
+	"github.com/successor-go/successor/internal/vec"
 	"github.com/successor-go/successor/linalg"
 )
 
@@ -35,7 +36,7 @@ func TestInferTaskExact(t *testing.T) {
 		}
 		r := make([]float64, n)
 		for i := range r {
-			r[i] = dot(x.RawRowView(i), w)
+			r[i] = vec.Dot(x.RawRowView(i), w)
 		}
 		got := make([]float64, d)
 		fit, err := InferTask(got, x, r, 0, nil)
@@ -45,13 +46,13 @@ func TestInferTaskExact(t *testing.T) {
 		if diff, _ := maxAbsDiff(got, w); diff > 1e-9 {
 			t.Errorf("seed %d: |w - w_true| = %g", seed, diff)
 		}
-		if fit.RSS > 1e-18*float64(n) || fit.Samples != n || math.Abs(fit.Norm-math.Sqrt(dot(w, w))) > 1e-9 {
+		if fit.RSS > 1e-18*float64(n) || fit.Samples != n || math.Abs(fit.Norm-math.Sqrt(vec.Dot(w, w))) > 1e-9 {
 			t.Errorf("seed %d: fit %+v", seed, fit)
 		}
 		if _, err := InferTask(got, x, r, 0, &TaskSettings{Unit: true}); err != nil {
 			t.Fatal(err)
 		}
-		nw := math.Sqrt(dot(w, w))
+		nw := math.Sqrt(vec.Dot(w, w))
 		for k := range w {
 			if math.Abs(got[k]-w[k]/nw) > 1e-9 {
 				t.Fatalf("seed %d: unit w = %v, want %v / %v", seed, got, w, nw)
@@ -74,7 +75,7 @@ func TestInferTaskNoisy(t *testing.T) {
 		w := []float64{1, -0.5, 0.25, 2, 0}
 		r := make([]float64, n)
 		for i := range r {
-			r[i] = dot(x.RawRowView(i), w) + sigma*rng.NormFloat64()
+			r[i] = vec.Dot(x.RawRowView(i), w) + sigma*rng.NormFloat64()
 		}
 		got := make([]float64, d)
 		fit, err := InferTask(got, x, r, 0, nil)

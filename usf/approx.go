@@ -4,6 +4,7 @@ import (
 	"errors"
 	"fmt"
 
+	"github.com/successor-go/successor/internal/vec"
 	"github.com/successor-go/successor/sf"
 )
 
@@ -197,32 +198,13 @@ func (o ObserverFunc) Observe(dst []float64, s int) {
 // greedy returns argmax_a psi[a*d:(a+1)*d] . z, ties to the lowest action.
 func greedy(psi, z []float64, actions int) int {
 	d := len(z)
-	best, bq := 0, dot(psi[:d], z)
+	best, bq := 0, vec.Dot(psi[:d], z)
 	for a := 1; a < actions; a++ {
-		if q := dot(psi[a*d:(a+1)*d], z); q > bq {
+		if q := vec.Dot(psi[a*d:(a+1)*d], z); q > bq {
 			best, bq = a, q
 		}
 	}
 	return best
-}
-
-// dot returns x . y over len(x) entries, four accumulators.
-func dot(x, y []float64) float64 {
-	y = y[:len(x)]
-	var s0, s1, s2, s3 float64
-	i := 0
-	for ; i+3 < len(x); i += 4 {
-		xx := x[i : i+4 : i+4]
-		yy := y[i : i+4 : i+4]
-		s0 += xx[0] * yy[0]
-		s1 += xx[1] * yy[1]
-		s2 += xx[2] * yy[2]
-		s3 += xx[3] * yy[3]
-	}
-	for ; i < len(x); i++ {
-		s0 += x[i] * y[i]
-	}
-	return (s0 + s1) + (s2 + s3)
 }
 
 // hotIndex returns the index of the single 1 of a one-hot x. It panics if

@@ -4,6 +4,8 @@ import (
 	"fmt"
 	"math"
 	"math/rand/v2"
+
+	"github.com/successor-go/successor/internal/vec"
 )
 
 // VonMisesFisher writes into dst a draw from the von Mises-Fisher
@@ -34,7 +36,7 @@ func VonMisesFisher(dst, mu []float64, kappa float64, rng *rand.Rand) {
 	if !(kappa >= 0) || math.IsInf(kappa, 0) {
 		panic("usf: von mises-fisher: kappa must be finite and >= 0")
 	}
-	nrm := math.Sqrt(dot(mu, mu))
+	nrm := math.Sqrt(vec.Dot(mu, mu))
 	if nrm == 0 || math.IsNaN(nrm) || math.IsInf(nrm, 0) {
 		panic("usf: von mises-fisher: mean direction has zero or non-finite length")
 	}
@@ -134,7 +136,7 @@ func Candidates(w []float64, cfg *CandidateConfig, rng *rand.Rand) ([][]float64,
 	if c.N == 0 {
 		return out, nil
 	}
-	nrm := math.Sqrt(dot(w, w))
+	nrm := math.Sqrt(vec.Dot(w, w))
 	if nrm == 0 {
 		return nil, fmt.Errorf("usf: candidates: w = 0 has no direction: %w", ErrZeroVector)
 	}

@@ -5,6 +5,7 @@ import (
 	"math/rand/v2"
 	"testing"
 
+	"github.com/successor-go/successor/internal/vec"
 	"github.com/successor-go/successor/mdp"
 	"github.com/successor-go/successor/sf"
 )
@@ -62,7 +63,7 @@ func heldOutReport(t testing.TB, ap Approximator, p problem, z []float64) heldOu
 	opt, _ := exactUSF(t, p, z)
 	var scale float64
 	for i := 0; i < n*na; i++ {
-		scale = math.Max(scale, math.Abs(dot(opt.Data[i*d:(i+1)*d], z)))
+		scale = math.Max(scale, math.Abs(vec.Dot(opt.Data[i*d:(i+1)*d], z)))
 	}
 	var r heldOut
 	pairs, states := 0, 0
@@ -73,7 +74,7 @@ func heldOutReport(t testing.TB, ap Approximator, p problem, z []float64) heldOu
 		states++
 		vStar := math.Inf(-1)
 		for a := 0; a < na; a++ {
-			e := math.Abs(dot(psi[(s*na+a)*d:(s*na+a+1)*d], z) - ex.Q(s, a, z))
+			e := math.Abs(vec.Dot(psi[(s*na+a)*d:(s*na+a+1)*d], z) - ex.Q(s, a, z))
 			r.MaxErr = math.Max(r.MaxErr, e)
 			r.MeanErr += e
 			pairs++

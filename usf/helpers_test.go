@@ -5,6 +5,7 @@ import (
 	"math/rand/v2"
 	"testing"
 
+	"github.com/successor-go/successor/internal/vec"
 	"github.com/successor-go/successor/mdp"
 	"github.com/successor-go/successor/sf"
 )
@@ -53,7 +54,7 @@ func exactUSF(t testing.TB, p problem, z []float64) (*sf.Table, mdp.Deterministi
 	buf := make([]float64, p.phi.Dim())
 	r := func(s, a, next int) float64 {
 		p.phi.Features(buf, s, a, next)
-		return dot(buf, z)
+		return vec.Dot(buf, z)
 	}
 	opt, err := mdp.Optimal(p.m, r, p.gamma)
 	if err != nil {

@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"math"
 
+	"github.com/successor-go/successor/internal/vec"
 	"github.com/successor-go/successor/sf"
 )
 
@@ -93,7 +94,7 @@ func (l *Linear) Err() error { return l.err }
 
 // rowDot returns sum_j w[j] z[j] (+ w[d] with Affine) for one row of W.
 func (l *Linear) rowDot(w, z []float64) float64 {
-	v := dot(z, w)
+	v := vec.Dot(z, w)
 	if l.e > l.d {
 		v += w[l.d]
 	}
@@ -107,13 +108,13 @@ func (l *Linear) psiState(dst []float64, s, a0, a1 int, z []float64) {
 	blk := l.W[((s*l.na+a0)*d)*e : ((s*l.na+a1)*d)*e]
 	if e == d {
 		for r := range dst {
-			dst[r] = dot(z, blk[r*e:(r+1)*e])
+			dst[r] = vec.Dot(z, blk[r*e:(r+1)*e])
 		}
 		return
 	}
 	for r := range dst {
 		row := blk[r*e : (r+1)*e]
-		dst[r] = dot(z, row) + row[d]
+		dst[r] = vec.Dot(z, row) + row[d]
 	}
 }
 

@@ -6,6 +6,7 @@ import (
 	"math/rand/v2"
 	"testing"
 
+	"github.com/successor-go/successor/internal/vec"
 	"github.com/successor-go/successor/sf"
 )
 
@@ -214,7 +215,7 @@ func rotate(rng *rand.Rand, vs [][]float64) [][]float64 {
 	for i, v := range vs {
 		z := make([]float64, len(v))
 		for r := range z {
-			z[r] = dot(q[r], v)
+			z[r] = vec.Dot(q[r], v)
 		}
 		out[i] = z
 	}
@@ -254,12 +255,12 @@ func orthonormal(rng *rand.Rand, n int) [][]float64 {
 				v[j] = rng.NormFloat64()
 			}
 			for _, u := range q[:i] {
-				c := dot(u, v)
+				c := vec.Dot(u, v)
 				for j := range v {
 					v[j] -= c * u[j]
 				}
 			}
-			if nv := math.Sqrt(dot(v, v)); nv > 1e-6 {
+			if nv := math.Sqrt(vec.Dot(v, v)); nv > 1e-6 {
 				for j := range v {
 					v[j] /= nv
 				}

@@ -7,6 +7,7 @@ import (
 	"testing"
 
 	"github.com/successor-go/successor/gpi"
+	"github.com/successor-go/successor/internal/vec"
 )
 
 // The GPI adapter is a gpi.Source.
@@ -56,7 +57,7 @@ func TestSourceFastAndGeneric(t *testing.T) {
 	for i, src := range []*Source{fast, src2} {
 		src.Psi(a, 3)
 		for k := 0; k < 3; k++ {
-			if q := dot(a[k*2:k*2+2], w); q > best {
+			if q := vec.Dot(a[k*2:k*2+2], w); q > best {
 				best, bi, ba = q, i, k
 			}
 		}
@@ -107,10 +108,10 @@ func TestVonMisesFisherMean(t *testing.T) {
 		var sum, sumSq float64
 		for range n {
 			VonMisesFisher(x, mu, tc.kappa, rng)
-			if math.Abs(dot(x, x)-1) > 1e-12 {
-				t.Fatalf("d %d: draw has norm^2 %v", tc.d, dot(x, x))
+			if math.Abs(vec.Dot(x, x)-1) > 1e-12 {
+				t.Fatalf("d %d: draw has norm^2 %v", tc.d, vec.Dot(x, x))
 			}
-			c := dot(mu, x)
+			c := vec.Dot(mu, x)
 			sum += c
 			sumSq += c * c
 		}
@@ -140,10 +141,10 @@ func TestCandidates(t *testing.T) {
 		}
 		var mean float64
 		for _, z := range c[1:] {
-			if math.Abs(dot(z, z)-1) > 1e-12 {
+			if math.Abs(vec.Dot(z, z)-1) > 1e-12 {
 				t.Fatal("candidate not on the unit sphere")
 			}
-			mean += dot(z, []float64{0.6, 0, 0.8}) / 50
+			mean += vec.Dot(z, []float64{0.6, 0, 0.8}) / 50
 		}
 		// kappa 50 in d 3: E[mu.x] = coth 50 - 1/50 = 0.98; sigma 0.1 is
 		// about as tight. Both well above 0.9.
