@@ -1,6 +1,8 @@
 package gpi
 
 import (
+	"github.com/successor-go/successor/internal/vec"
+
 	"fmt"
 	"math"
 
@@ -87,7 +89,7 @@ func PhiMax(m *mdp.Finite, phi sf.FeatureMap) float64 {
 			next, _ := m.Next(s, a)
 			for _, t := range next {
 				phi.Features(f, s, a, t)
-				best = max(best, math.Sqrt(dot(f, f)))
+				best = max(best, math.Sqrt(vec.Dot(f, f)))
 			}
 		}
 	}

@@ -1,6 +1,8 @@
 package gpi
 
 import (
+	"github.com/successor-go/successor/internal/vec"
+
 	"fmt"
 	"math"
 
@@ -219,7 +221,7 @@ func ExpectedReward(m *mdp.Finite, phi sf.FeatureMap, w []float64) []float64 {
 			var r float64
 			for j, t := range next {
 				phi.Features(f, s, a, t)
-				r += prob[j] * dot(f, w)
+				r += prob[j] * vec.Dot(f, w)
 			}
 			rbar[s*na+a] = r
 		}

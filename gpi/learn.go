@@ -1,6 +1,8 @@
 package gpi
 
 import (
+	"github.com/successor-go/successor/internal/vec"
+
 	"fmt"
 	"math"
 	"math/rand/v2"
@@ -412,7 +414,7 @@ func (g *qAgent) act(s int, rng *rand.Rand) (int, error) {
 func (g *qAgent) update(s, a, next int, terminal bool) error {
 	na := g.m.NumActions()
 	g.phi.Features(g.f, s, a, next)
-	target := dot(g.f, g.w)
+	target := vec.Dot(g.f, g.w)
 	if !terminal {
 		nq := g.q[next*na : (next+1)*na]
 		target += g.cfg.gamma * nq[argmax(nq)]
