@@ -318,7 +318,8 @@ func infer(ag *Agent, labelled []Transition, c AdaptConfig) (*Inference, error) 
 }
 
 // Policy is the acting policy after adaptation: GPI with the inferred w over
-// a candidate set C of task vectors (w itself and skills of the agent),
+// a candidate set C of skills of the agent (and, with FitModel, a fitted
+// Q(., ., w)),
 //
 //	pi(s) = argmax_a max_{z in C} psi(s, a, z) . w,
 //
@@ -327,8 +328,9 @@ func infer(ag *Agent, labelled []Transition, c AdaptConfig) (*Inference, error) 
 // and is safe for concurrent use.
 type Policy struct {
 	Inference
-	// Fitted reports whether the fitted Q(., ., w) is a candidate, and
-	// FitSweeps how many value-iteration sweeps the fit took.
+	// Fitted reports whether the model-based Q(., ., w) is a candidate
+	// (FitModel), and FitSweeps how many value-iteration sweeps the fit
+	// took.
 	Fitted    bool
 	FitSweeps int
 	// Candidates are the skill indices in C, most similar to w first.
@@ -344,19 +346,22 @@ func (p *Policy) Probs(dst []float64, s int) { p.Actions.Probs(dst, s) }
 func (p *Policy) Act(s int) int { return p.Actions[s] }
 
 // Adapt infers the task from the labelled transitions (InferTaskCV, or
-// InferTask with a fixed cfg.Ridge) and returns the GPI policy (Agent.Policy) over {w} and the
-// cfg.Candidates skills most similar to w.
+// InferTask with a fixed cfg.Ridge) and returns the acting policy
+// (Agent.Policy).
 //
-// The universal SFs are tabulated over the skill set, so psi(., ., w) is not
-// stored. Adapt computes Q(s, a, w) = psi(s, a, w) . w for the policy greedy
-// in it from the agent's reward-free replay buffer: value iteration on the
-// empirical transition model of the buffer with the intrinsic reward
-// phi(s') . w and the skills' discount (a certainty-equivalent fit of
-// psi(., ., w) . w; by linearity the SF vector itself is not needed to act).
-// This uses no environment step and no reward label. State-action pairs
+// By default (FitNone) this is successor-feature transfer proper: GPI over
+// the universal SFs tabulated at the cfg.Candidates skills nearest to w by
+// cosine, Q_k(s, a) = psi(s, a, z_k) . w; with GPI off (negative
+// cfg.Candidates) the policy is greedy in psi(s, ., z) . w for the single
+// nearest skill z.
+//
+// With cfg.Fit = FitModel a model-based candidate joins the set:
+// Q(s, a, w), the optimal action value of the inferred reward phi(s') . w
+// under the skills' discount, by value iteration on the empirical
+// transition model of the agent's reward-free replay buffer. This uses no
+// environment step and no reward label, but it is model-based evaluation
+// of the inferred task, not successor-feature transfer; state-action pairs
 // absent from the buffer have no fitted value and are left to the skills.
-// With a negative cfg.Fit the candidate set is the cfg.Candidates + 1
-// skills nearest to w (GPI over the stored library only).
 func Adapt(ag *Agent, labelled []Transition, cfg AdaptConfig) (*Policy, error) {
 	c, err := cfg.withDefaults()
 	if err != nil {
@@ -369,16 +374,17 @@ func Adapt(ag *Agent, labelled []Transition, cfg AdaptConfig) (*Policy, error) {
 	return ag.Policy(inf, cfg)
 }
 
-// Policy returns the GPI policy for an inferred task,
+// Policy returns the acting policy for an inferred task,
 //
 //	pi(s) = argmax_a max( Q_w(s, a), max_{k in C} psi(s, a, z_k) . w ),
 //
-// with Q_w fitted on the replay buffer (see Adapt; cfg.Fit > 0 after
-// defaults) and C the cfg.Candidates skills most similar to w; without a
-// fit, C is the cfg.Candidates + 1 most similar skills. Ties go to Q_w, then
-// to the most similar skill, then to the lowest action. Candidates = 0
-// switches GPI off. It returns an error wrapping ErrNoData if a fit is asked
-// for and the replay buffer is empty, ErrDiverged, or ErrConfig.
+// with C the cfg.Candidates skills most similar to w (cosine) and Q_w the
+// model-based fit of FitModel (absent with FitNone, the default). With GPI
+// off (negative cfg.Candidates), C is the single nearest skill under
+// FitNone and empty under FitModel. Ties go to Q_w, then to the most
+// similar skill, then to the lowest action. It returns an error wrapping
+// ErrNoData if a fit is asked for and the replay buffer is empty,
+// ErrDiverged, or ErrConfig.
 func (ag *Agent) Policy(inf *Inference, cfg AdaptConfig) (*Policy, error) {
 	c, err := cfg.withDefaults()
 	if err != nil {
@@ -395,10 +401,10 @@ func (ag *Agent) Policy(inf *Inference, cfg AdaptConfig) (*Policy, error) {
 	}
 	slices.SortStableFunc(sims, func(x, y sim) int { return cmp.Compare(y.c, x.c) })
 	pol := &Policy{Inference: *inf}
-	m := min(c.Candidates+1, ag.k)
+	m := min(max(c.Candidates, 1), ag.k)
 	var qw []float64
-	if c.Fit > 0 {
-		qw, pol.FitSweeps, err = ag.fitQ(inf.W, c.Fit)
+	if c.Fit == FitModel {
+		qw, pol.FitSweeps, err = ag.fitQ(inf.W, c.FitSweeps)
 		if err != nil {
 			return nil, err
 		}

@@ -58,18 +58,26 @@
 // cross-validation on the labelled transitions, in closed form; with 64
 // learned features a nearly unregularised fit extrapolated wildly to places
 // the labelled steps never reached, and the agent went there.
-// Adapt then acts by GPI (Barreto et al. 2017):
+// Adapt then acts by GPI (Barreto et al. 2017) over the universal SFs
+// tabulated at the skill set, the successor-feature method proper:
 //
 //	pi(s) = argmax_a max_{z in C} psi(s, a, z) . w,
 //
-// with C = {w} plus the N skills most similar to w; N = 0 switches GPI off.
-// The tables hold psi only at the skills, so psi(., ., w) . w is fitted
-// from the agent's reward-free replay buffer: value iteration on the
-// empirical transition model of the buffer with the intrinsic reward
-// phi(s') . w (no environment step, no reward label; O(sweeps x stored
-// pairs x A)). We first fitted psi(., ., w) by TD on the buffer; at the
-// skills' horizon (gamma = 0.99) tens of thousands of updates left it far
-// from converged, so value iteration replaced it.
+// with C the AdaptConfig.Candidates skills nearest to w (cosine). GPI off
+// (a negative Candidates) acts greedily in psi(s, ., z) . w for the single
+// nearest skill z. This is the default (FitNone).
+//
+// AdaptConfig.Fit = FitModel is an explicitly separate option: model-based
+// evaluation of the inferred task on the empirical model of the reward-free
+// data. The tables hold psi only at the skills, so FitModel computes
+// Q(., ., w) by value iteration on the empirical transition model of the
+// agent's reward-free replay buffer with the inferred reward phi(s') . w
+// (no environment step, no reward label; O(sweeps x stored pairs x A)) and
+// adds it to the GPI candidates. It is not successor-feature transfer:
+// where it wins, it measures the fit of the model of the reward-free data
+// rather than the successor features, and Experiment reports it as its own
+// variant (SuffixModelFit) beside the pure one (SuffixGPI) and the
+// no-GPI ablation (SuffixNoGPI).
 //
 // The labelled transitions are collected by Collect with a stated rule: the
 // agent follows its own skills from the task's start state, moving to the

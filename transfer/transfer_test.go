@@ -82,11 +82,12 @@ func TestExperimentDeterministic(t *testing.T) {
 	if !reflect.DeepEqual(r2.Records, r3.Records) {
 		t.Error("figures differ between two identical runs")
 	}
-	// Measured: vmf 0.74 (one seed 1.00, the other 0.49), given 1.00 (GPI
-	// on, 100 labelled steps); the uniform random policy scores 0 by
-	// construction. The threshold 0.5 states "well above random"; the run
-	// itself is exact and seeded.
-	for _, v := range []string{"vmf", "given"} {
+	// Measured: vmf and given both 1.00 with the pure successor-feature
+	// policy (GPI over the nearest skills, no model fit) at 100 labelled
+	// steps; the uniform random policy scores 0 by construction. The
+	// threshold 0.5 states "well above random"; the run itself is exact
+	// and seeded.
+	for _, v := range []string{"vmf" + transfer.SuffixGPI, "given" + transfer.SuffixGPI} {
 		s, ok := r1.Lookup(v, "mean", 100)
 		if !ok {
 			t.Fatalf("no summary for %s", v)
@@ -96,8 +97,8 @@ func TestExperimentDeterministic(t *testing.T) {
 			t.Errorf("%s: mean normalised return %.3f, want >= 0.5", v, s.Mean)
 		}
 	}
-	if len(r1.Records) != 2*2*2*(2*2+2) {
-		t.Errorf("%d records, want %d", len(r1.Records), 2*2*2*(2*2+2))
+	if len(r1.Records) != 2*2*2*(2*3+2) {
+		t.Errorf("%d records, want %d", len(r1.Records), 2*2*2*(2*3+2))
 	}
 }
 

@@ -375,6 +375,19 @@ func printTable(w io.Writer, e *transfer.Experiment, res *transfer.Results, elap
 		fmt.Fprintf(w, "pretraining %-11s %6.2f s per run, %8.0f env steps/s%s\n", p.Method, p.Seconds, p.StepsPerSecond, mi)
 	}
 	fmt.Fprintf(w, "total wall time %.1f s\n", elapsed.Seconds())
+	fmt.Fprintln(w, "\nVariants:")
+	seen := map[string]bool{}
+	for _, v := range res.VariantInfo {
+		suffix := strings.TrimPrefix(v.Name, v.Method)
+		if v.Method == "" || seen[suffix] {
+			if v.Method == "" {
+				fmt.Fprintf(w, "  %-15s %s\n", v.Name, v.Description)
+			}
+			continue
+		}
+		seen[suffix] = true
+		fmt.Fprintf(w, "  <method>%-15s %s\n", suffix, v.Description)
+	}
 	fmt.Fprintln(w, "\nJobs (invented):")
 	for _, j := range e.Jobs {
 		fmt.Fprintf(w, "  %-13s %s\n", j.Name, j.Description)

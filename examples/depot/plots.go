@@ -90,16 +90,21 @@ func drawReturns(path string, e *transfer.Experiment, res *transfer.Results) err
 		if err != nil {
 			return err
 		}
-		// One colour per method (dashed: GPI off), then one per baseline.
-		ci := i / 2
-		if i >= 2*len(e.Methods) {
-			ci = len(e.Methods) + i - 2*len(e.Methods)
+		// One colour per method (solid: USF + GPI, dashed: GPI off,
+		// dotted: model fit), then one per baseline.
+		info := res.VariantInfo[i]
+		ci := len(e.Methods) + i - 3*len(e.Methods)
+		if info.Method != "" {
+			ci = i / 3
 		}
 		c := lineColors[ci%len(lineColors)]
 		line.Color = c
 		line.Width = vg.Points(1.5)
-		if i%2 == 1 && i < 2*len(e.Methods) {
-			line.Dashes = []vg.Length{vg.Points(4), vg.Points(2)} // GPI off
+		switch {
+		case info.Method != "" && info.Fit == transfer.FitModel:
+			line.Dashes = []vg.Length{vg.Points(1), vg.Points(2)}
+		case info.Method != "" && !info.GPI:
+			line.Dashes = []vg.Length{vg.Points(4), vg.Points(2)}
 		}
 		sc.Color = c
 		sc.Shape = plotutil.Shape(i)
