@@ -65,12 +65,20 @@ func Collect(env mdp.Env, ag *Agent, reward mdp.Reward, k int, cfg AdaptConfig, 
 		return k
 	}
 	var pol *Policy
+	empty := 0
 	for len(out) < k {
 		var skill int
 		if c.Explore != ExploreUniform {
 			skill = nextSkill()
 		}
 		s := env.Reset(rng)
+		if startDone(env) {
+			if empty++; empty >= maxEmpty {
+				return nil, fmt.Errorf("transfer: collect: %d episodes in a row start at a terminal state: %w", empty, ErrConfig)
+			}
+			continue
+		}
+		empty = 0
 		for t := 0; t < c.EpisodeSteps && len(out) < k; t++ {
 			greedy := c.Explore == ExploreGreedy && len(out) >= c.Warmup
 			if greedy && (len(out)-c.Warmup)%c.SwitchEvery == 0 {
@@ -451,12 +459,12 @@ func (ag *Agent) Policy(inf *Inference, cfg AdaptConfig) (*Policy, error) {
 func (ag *Agent) fitQ(w []float64, sweeps int) ([]float64, int, error) {
 	mod := ag.model()
 	if mod == nil {
-		return nil, 0, fmt.Errorf("transfer: adapt: fit needs the replay buffer: %w", ErrNoData)
+		return nil, 0, fmt.Errorf("transfer: adapt: fit needs reward-free transitions: %w", ErrNoData)
 	}
 	n, na, d := ag.n, ag.a, ag.d
 	r := make([]float64, n)
 	for s := range n {
-		r[s] = dot(ag.phi[s*d:(s+1)*d], w)
+		r[s] = dot(ag.phiTab[s*d:(s+1)*d], w)
 	}
 	q := make([]float64, n*na)
 	v := make([]float64, n)
@@ -508,7 +516,7 @@ func (ag *Agent) fitQ(w []float64, sweeps int) ([]float64, int, error) {
 	return q, done, nil
 }
 
-// empirical is the empirical transition model of the replay buffer: for
+// empirical is the empirical transition model of the reward-free data: for
 // pair i = s*A + a the entries ptr[i]:ptr[i+1] of next, prob and term.
 type empirical struct {
 	ptr  []int
@@ -517,55 +525,42 @@ type empirical struct {
 	term []bool
 }
 
-// model returns the empirical model of the replay buffer (nil if it is
-// empty), built once after training and cached.
+// model returns the empirical model of every reward-free transition the
+// agent has taken (nil if none), built once after training and cached.
 func (ag *Agent) model() *empirical {
 	ag.modelMu.Lock()
 	defer ag.modelMu.Unlock()
-	if ag.emp != nil || ag.replay.count == 0 {
+	if ag.emp != nil || len(ag.counts) == 0 {
 		return ag.emp
 	}
-	rb := &ag.replay
-	na := ag.a
-	type key struct {
-		next int32
-		term bool
+	keys := sortedKeys(ag.counts)
+	npairs := ag.n * ag.a
+	e := &empirical{ptr: make([]int, npairs+1)}
+	tot := make([]int64, npairs)
+	for _, key := range keys {
+		tot[int(key>>1)/ag.n] += ag.counts[key]
 	}
-	counts := make([]map[key]int, ag.n*na)
-	for i := range rb.count {
-		p := int(rb.s[i])*na + int(rb.a[i])
-		if counts[p] == nil {
-			counts[p] = map[key]int{}
-		}
-		counts[p][key{rb.next[i], rb.term[i]}]++
-	}
-	e := &empirical{ptr: make([]int, len(counts)+1)}
-	for p, c := range counts {
-		keys := make([]key, 0, len(c))
-		tot := 0
-		for k, v := range c {
-			keys = append(keys, k)
-			tot += v
-		}
-		slices.SortFunc(keys, func(x, y key) int {
-			if x.next != y.next {
-				return cmp.Compare(x.next, y.next)
-			}
-			if x.term == y.term {
-				return 0
-			}
-			if !x.term {
-				return -1
-			}
-			return 1
-		})
-		for _, k := range keys {
-			e.next = append(e.next, int(k.next))
-			e.prob = append(e.prob, float64(c[k])/float64(tot))
-			e.term = append(e.term, k.term)
-		}
+	for _, key := range keys {
+		p, next := int(key>>1)/ag.n, int(key>>1)%ag.n
+		e.next = append(e.next, next)
+		e.prob = append(e.prob, float64(ag.counts[key])/float64(tot[p]))
+		e.term = append(e.term, key&1 == 1)
 		e.ptr[p+1] = len(e.next)
+	}
+	for p := range npairs {
+		e.ptr[p+1] = max(e.ptr[p+1], e.ptr[p])
 	}
 	ag.emp = e
 	return e
+}
+
+// sortedKeys returns the keys of m in increasing order: by pair, then next
+// state, then non-terminal before terminal.
+func sortedKeys(m map[uint64]int64) []uint64 {
+	keys := make([]uint64, 0, len(m))
+	for k := range m {
+		keys = append(keys, k)
+	}
+	slices.Sort(keys)
+	return keys
 }

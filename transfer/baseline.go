@@ -158,9 +158,16 @@ func runEpisodes(env Env, budgets []int, c BaselineConfig, rng *rand.Rand,
 		snap()
 		bi++
 	}
-	steps := 0
+	steps, empty := 0, 0
 	for steps < total {
 		s := env.Reset(rng)
+		if startDone(env) {
+			if empty++; empty >= maxEmpty {
+				return fmt.Errorf("transfer: baseline: %d episodes in a row start at a terminal state: %w", empty, ErrConfig)
+			}
+			continue
+		}
+		empty = 0
 		for t := 0; t < c.EpisodeSteps && steps < total; t++ {
 			var a int
 			if rng.Float64() < c.Epsilon {

@@ -8,7 +8,7 @@ import (
 
 // depotAgent returns a VMF agent on the demo depot, trained for a few
 // steps so that its replay buffer is not empty.
-func depotAgent(tb testing.TB, d, k int) (*Agent, *FiniteEnv) {
+func depotAgent(tb testing.TB, d, k int) (*Agent, *mdp.Sampler) {
 	tb.Helper()
 	g, err := mdp.Depot()
 	if err != nil {
@@ -18,7 +18,7 @@ func depotAgent(tb testing.TB, d, k int) (*Agent, *FiniteEnv) {
 	if err != nil {
 		tb.Fatal(err)
 	}
-	env := NewFiniteEnv(explore, 0)
+	env := mdp.NewSampler(explore, 0)
 	ag, err := Pretrain(env, PretrainConfig{Dim: d, Skills: k, Kappa: 10, Gamma: 0.99, Steps: 2000, EpisodeSteps: 50, Seed: 1})
 	if err != nil {
 		tb.Fatal(err)
@@ -70,7 +70,7 @@ func BenchmarkPretrain(b *testing.B) {
 	const steps = 20000
 	b.ReportAllocs()
 	for b.Loop() {
-		_, err := Pretrain(NewFiniteEnv(explore, 0), PretrainConfig{Dim: 64, Skills: 128, Kappa: 10, Gamma: 0.99, Steps: steps, EpisodeSteps: 50, Seed: 1})
+		_, err := Pretrain(mdp.NewSampler(explore, 0), PretrainConfig{Dim: 64, Skills: 128, Kappa: 10, Gamma: 0.99, Steps: steps, EpisodeSteps: 50, Seed: 1})
 		if err != nil {
 			b.Fatal(err)
 		}

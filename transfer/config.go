@@ -92,8 +92,10 @@ const MaxReplay = 1 << 24
 type PretrainConfig struct {
 	// Method selects the features; the zero value is VMF.
 	Method Method
-	// Dim is the feature dimension d (for Categorical, the number of skills
-	// K). 0 means 8. Ignored by Given, whose dimension is Features.Dim().
+	// Dim is the feature dimension d of the sphere methods; for
+	// Categorical, the number of skills K (the features then have K+1
+	// entries). 0 means 8. Ignored by Given, whose dimension is
+	// Features.Dim().
 	Dim int
 	// Kappa is the von Mises-Fisher concentration of the discriminator.
 	// 0 means 5.
@@ -130,7 +132,8 @@ type PretrainConfig struct {
 	Replay int
 	// LearnRate is the TD step size of the successor features. 0 means 0.2.
 	LearnRate float64
-	// DiscRate is the step size of the discriminator. 0 means 0.5.
+	// DiscRate is the Adam step size of the discriminator (skills.Optim
+	// LearnRate). 0 means 0.03.
 	DiscRate float64
 	// Seed determines the run: every random choice comes from it.
 	Seed uint64
@@ -197,7 +200,7 @@ func (cfg PretrainConfig) withDefaults() (PretrainConfig, error) {
 	setI(&c.Batch, 16)
 	setI(&c.Replay, 50000)
 	setF(&c.LearnRate, 0.2)
-	setF(&c.DiscRate, 0.5)
+	setF(&c.DiscRate, 0.03)
 	if c.ProgressEvery == 0 {
 		c.ProgressEvery = max(c.Steps/100, 1)
 	}

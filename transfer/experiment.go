@@ -378,7 +378,7 @@ func (e *Experiment) pretrain(m Method, seed uint64, addSteps func(int)) (*Agent
 		explore = e.Task
 	}
 	c, _ := cfg.withDefaults()
-	env := NewFiniteEnv(explore, c.EpisodeSteps)
+	env := mdp.NewSampler(explore, c.EpisodeSteps)
 	ag, err := Pretrain(env, cfg)
 	if err != nil {
 		return nil, 0, fmt.Errorf("pretrain %s: %w", m, err)
@@ -390,7 +390,7 @@ func (e *Experiment) pretrain(m Method, seed uint64, addSteps func(int)) (*Agent
 // of methodVariants.
 func (e *Experiment) adaptAll(ag *Agent, seed uint64, rewards []mdp.Reward, refs []*Reference) ([]Record, error) {
 	ac, _ := e.Adapt.withDefaults()
-	env := NewFiniteEnv(e.Task, ac.EpisodeSteps)
+	env := mdp.NewSampler(e.Task, ac.EpisodeSteps)
 	maxB := e.Budgets[len(e.Budgets)-1]
 	var recs []Record
 	vars := methodVariants(ag.Method(), e.Adapt.Candidates)
@@ -431,7 +431,7 @@ func (e *Experiment) runBaselines(seed uint64, rewards []mdp.Reward, refs []*Ref
 	bc.Gamma = e.gamma()
 	var recs []Record
 	for j, job := range e.Jobs {
-		env := NewFiniteEnv(e.Task, bc.EpisodeSteps)
+		env := mdp.NewSampler(e.Task, bc.EpisodeSteps)
 		qp, err := QLearning(env, rewards[j], e.Budgets, bc, DeriveSeed(seed, 2000+uint64(j)))
 		if err != nil {
 			return nil, err

@@ -168,7 +168,7 @@ func TestQLearningLearns(t *testing.T) {
 	g, _ := room(t)
 	w, _ := g.Weights(map[string]float64{"berry": 1})
 	r, _ := g.PlaceReward(w)
-	env := NewFiniteEnv(g.MDP, 0)
+	env := mdp.NewSampler(g.MDP, 0)
 	pols, err := QLearning(env, r, []int{20000}, BaselineConfig{Gamma: 0.9, EpisodeSteps: 30}, 1)
 	if err != nil {
 		t.Fatal(err)
@@ -197,7 +197,7 @@ func TestQLearningLearns(t *testing.T) {
 func TestGivenSkillsExact(t *testing.T) {
 	g, f := room(t)
 	explore, _ := WithStart(g.MDP, UniformStart(g.MDP))
-	ag, err := Pretrain(NewFiniteEnv(explore, 0), PretrainConfig{Method: Given, Features: f, Skills: 6, Steps: 20000, EpisodeSteps: 20, Gamma: 0.9, Seed: 4})
+	ag, err := Pretrain(mdp.NewSampler(explore, 0), PretrainConfig{Method: Given, Features: f, Skills: 6, Steps: 20000, EpisodeSteps: 20, Gamma: 0.9, Seed: 4})
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -54,6 +54,9 @@ type options struct {
 	cpuProfile string
 	noPlots    bool
 	explore    transfer.Explore
+	dim        int
+	skills     int
+	candidates int
 }
 
 // errUsage marks a bad command line (exit status 2).
@@ -85,6 +88,9 @@ func parseFlags(args []string, stderr io.Writer) (*options, error) {
 	fs.IntVar(&o.steps, "steps", 0, "pretraining steps per run (0: the default, 100000; -quick 8000)")
 	fs.StringVar(&o.cpuProfile, "cpuprofile", "", "write a CPU profile of the whole run to this file")
 	fs.BoolVar(&o.noPlots, "noplots", false, "skip the PNG figures")
+	fs.IntVar(&o.dim, "dim", 0, "feature dimension d of the sphere methods, and the number of categorical skills (0: the demo's default)")
+	fs.IntVar(&o.skills, "skills", 0, "number of skills K of the sphere methods (0: the demo's default)")
+	fs.IntVar(&o.candidates, "candidates", 0, "GPI candidates: the skills nearest the inferred task (0: transfer's default)")
 	var explore string
 	fs.StringVar(&explore, "explore", "skills", "how the agent collects its labelled steps: skills (follow its skills), greedy (skills, then act on the task inferred so far), uniform (random actions)")
 	fs.Usage = func() {
@@ -150,6 +156,8 @@ func parseFlags(args []string, stderr io.Writer) (*options, error) {
 		return nil, fmt.Errorf("%w: -steps %d: must be at least 1", errUsage, o.steps)
 	case o.workers < 0:
 		return nil, fmt.Errorf("%w: -workers %d: must not be negative", errUsage, o.workers)
+	case o.dim < 0 || o.dim == 1 || o.skills < 0 || o.candidates < 0:
+		return nil, fmt.Errorf("%w: -dim %d, -skills %d, -candidates %d: want 0 (default) or at least 2, 1 and 1", errUsage, o.dim, o.skills, o.candidates)
 	case o.out == "":
 		return nil, fmt.Errorf("%w: -out: empty folder name", errUsage)
 	}
@@ -246,8 +254,8 @@ func run(args []string, stdout, stderr io.Writer) error {
 		Budgets:    budgets(o.budget),
 		Baselines:  true,
 		Gamma:      0.95,
-		Pretrain:   defaultPretrain(o.steps),
-		Adapt:      transfer.AdaptConfig{Explore: o.explore},
+		Pretrain:   defaultPretrain(o),
+		Adapt:      transfer.AdaptConfig{Explore: o.explore, Candidates: o.candidates},
 		Workers:    o.workers,
 	}
 
@@ -303,15 +311,22 @@ func run(args []string, stdout, stderr io.Writer) error {
 }
 
 // defaultPretrain is the pretraining configuration of the demo.
-func defaultPretrain(steps int) transfer.PretrainConfig {
-	return transfer.PretrainConfig{
-		Dim:          64,   // phi on S^63: skills' places nearly orthogonal
+func defaultPretrain(o *options) transfer.PretrainConfig {
+	c := transfer.PretrainConfig{
+		Dim:          64,   // phi on S^63
 		Skills:       128,  // skill set of the tabulated universal SFs
 		Kappa:        10,   // discriminator concentration
 		Gamma:        0.99, // skill horizon: long enough to cross the floor
-		Steps:        steps,
+		Steps:        o.steps,
 		EpisodeSteps: 50,
 	}
+	if o.dim > 0 {
+		c.Dim = o.dim
+	}
+	if o.skills > 0 {
+		c.Skills = o.skills
+	}
+	return c
 }
 
 // progress returns a progress callback drawing a bar on stderr when it is a

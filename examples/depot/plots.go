@@ -266,7 +266,7 @@ func drawSuccessor(path string, g *mdp.Grid, e *transfer.Experiment, kept map[tr
 			}
 			return v
 		}
-		env := transfer.NewFiniteEnv(g.MDP, 100)
+		env := mdp.NewSampler(g.MDP, 100)
 		budget := e.Budgets[len(e.Budgets)-1]
 		lab, err := transfer.Collect(env, ag, reward, budget, e.Adapt, transfer.DeriveSeed(e.Seeds[0], 1000))
 		if err != nil {
