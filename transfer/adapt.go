@@ -9,6 +9,7 @@ import (
 
 	"github.com/successor-go/successor/gpi"
 	"github.com/successor-go/successor/mdp"
+	"github.com/successor-go/successor/sf"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -138,8 +139,11 @@ type Inference struct {
 //	sum_j (r_j - phi(s'_j) . w)^2 + lambda ||w||^2
 //
 // over the labelled transitions (ridge regression on the agent's features of
-// the next state), normalised to unit length for sphere-valued skills. It
-// returns an error wrapping ErrNoData if there are no transitions.
+// the next state, sf.InferTask), normalised to unit length for
+// sphere-valued skills. It returns an error wrapping ErrNoData if there are
+// no transitions, ErrConfig for a bad penalty, and ErrDiverged if the
+// regression fails (for example rank-deficient features with lambda = 0, or
+// a zero w to normalise).
 func InferTask(ag *Agent, labelled []Transition, lambda float64) (*Inference, error) {
 	if lambda < 0 || math.IsNaN(lambda) || math.IsInf(lambda, 0) {
 		return nil, fmt.Errorf("transfer: infer task: penalty %v: %w", lambda, ErrConfig)
@@ -148,67 +152,33 @@ func InferTask(ag *Agent, labelled []Transition, lambda float64) (*Inference, er
 		return nil, fmt.Errorf("transfer: infer task: %w", ErrNoData)
 	}
 	d := ag.d
-	var xtx mat.SymDense
-	xtx.ReuseAsSym(d)
-	xty := mat.NewVecDense(d, nil)
-	phi := make([]float64, d)
+	x := mat.NewDense(len(labelled), d, nil)
+	y := make([]float64, len(labelled))
 	var ysum, y2 float64
-	for _, t := range labelled {
-		ag.Phi(phi, t.Next)
-		for i := range d {
-			xty.SetVec(i, xty.AtVec(i)+phi[i]*t.Reward)
-			for j := i; j < d; j++ {
-				xtx.SetSym(i, j, xtx.At(i, j)+phi[i]*phi[j])
-			}
-		}
+	inf := &Inference{Lambda: lambda}
+	for j, t := range labelled {
+		ag.Phi(x.RawRowView(j), t.Next)
+		y[j] = t.Reward
 		ysum += t.Reward
 		y2 += t.Reward * t.Reward
-	}
-	for i := range d {
-		xtx.SetSym(i, i, xtx.At(i, i)+lambda)
-	}
-	var w mat.VecDense
-	var chol mat.Cholesky
-	if ok := chol.Factorize(&xtx); ok {
-		if err := chol.SolveVecTo(&w, xty); err != nil {
-			return nil, fmt.Errorf("transfer: infer task: %w", err)
-		}
-	} else {
-		// Rank-deficient without a penalty: the minimum-norm solution.
-		if err := w.SolveVec(&xtx, xty); err != nil {
-			return nil, fmt.Errorf("transfer: infer task: singular features (set a ridge penalty): %w", err)
-		}
-	}
-	raw := make([]float64, d)
-	copy(raw, w.RawVector().Data)
-	var sse float64
-	for _, t := range labelled {
-		ag.Phi(phi, t.Next)
-		e := t.Reward - dot(phi, raw)
-		sse += e * e
-	}
-	n := float64(len(labelled))
-	inf := &Inference{Raw: raw, W: append([]float64(nil), raw...), Residual: math.Sqrt(sse / n), Lambda: lambda}
-	sst := y2 - ysum*ysum/n
-	if sst > 1e-300 {
-		inf.RSquared = 1 - sse/sst
-	}
-	for _, t := range labelled {
 		if t.Reward != 0 {
 			inf.Rewarded++
 		}
 	}
-	if ag.cfg.Method.Sphere() {
-		nrm := math.Sqrt(dot(raw, raw))
-		if nrm > 0 {
-			for i := range inf.W {
-				inf.W[i] /= nrm
-			}
-		}
+	inf.Raw = make([]float64, d)
+	fit, err := sf.InferTask(inf.Raw, x, y, lambda, nil)
+	if err != nil {
+		return nil, fmt.Errorf("transfer: infer task: %w: %w", ErrDiverged, err)
 	}
-	for _, v := range raw {
-		if math.IsNaN(v) || math.IsInf(v, 0) {
-			return nil, fmt.Errorf("transfer: infer task: %w", ErrDiverged)
+	n := float64(len(labelled))
+	inf.Residual = fit.RMS
+	if sst := y2 - ysum*ysum/n; sst > 1e-300 {
+		inf.RSquared = 1 - fit.RSS/sst
+	}
+	inf.W = append([]float64(nil), inf.Raw...)
+	if ag.cfg.Method.Sphere() && fit.Norm > 0 {
+		for i := range inf.W {
+			inf.W[i] /= fit.Norm
 		}
 	}
 	return inf, nil

@@ -5,8 +5,6 @@ import (
 	"math/rand/v2"
 	"testing"
 
-	"gonum.org/v1/gonum/mat"
-
 	"github.com/successor-go/successor/mdp"
 	"github.com/successor-go/successor/sf"
 )
@@ -75,43 +73,6 @@ func mustDefaults(t testing.TB, c PretrainConfig) PretrainConfig {
 		t.Fatal(err)
 	}
 	return c
-}
-
-// TestRidgeSolve compares ridgeSolve with gonum's dense solve of the same
-// system (reference library).
-func TestRidgeSolve(t *testing.T) {
-	rng := rand.New(rand.NewPCG(3, 4))
-	for _, d := range []int{1, 3, 7} {
-		x := mat.NewDense(20, d, nil)
-		for i := range 20 {
-			for j := range d {
-				x.Set(i, j, rng.NormFloat64())
-			}
-		}
-		var a mat.Dense
-		a.Mul(x.T(), x)
-		b := make([]float64, d)
-		for i := range b {
-			b[i] = rng.NormFloat64()
-		}
-		const lambda = 0.3
-		got := make([]float64, d)
-		if err := ridgeSolve(got, a.RawMatrix().Data, b, lambda); err != nil {
-			t.Fatal(err)
-		}
-		for i := range d {
-			a.Set(i, i, a.At(i, i)+lambda)
-		}
-		var want mat.VecDense
-		if err := want.SolveVec(&a, mat.NewVecDense(d, b)); err != nil {
-			t.Fatal(err)
-		}
-		for i := range d {
-			if math.Abs(got[i]-want.AtVec(i)) > 1e-10 {
-				t.Errorf("d=%d: x[%d] = %v, want %v", d, i, got[i], want.AtVec(i))
-			}
-		}
-	}
 }
 
 // TestScoreEnds checks the normalisation: the optimal policy of mdp.Optimal
