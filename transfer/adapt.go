@@ -336,10 +336,11 @@ func (p *Policy) Act(s int) int { return p.Actions[s] }
 // With cfg.Fit = FitModel a model-based candidate joins the set:
 // Q(s, a, w), the optimal action value of the inferred reward phi(s') . w
 // under the skills' discount, by value iteration on the empirical
-// transition model of the agent's reward-free replay buffer. This uses no
-// environment step and no reward label, but it is model-based evaluation
-// of the inferred task, not successor-feature transfer; state-action pairs
-// absent from the buffer have no fitted value and are left to the skills.
+// transition model of every reward-free transition the agent took (counts
+// kept during pretraining). This uses no environment step and no reward
+// label, but it is model-based evaluation of the inferred task, not
+// successor-feature transfer; state-action pairs never tried have no
+// fitted value and are left to the skills.
 func Adapt(ag *Agent, labelled []Transition, cfg AdaptConfig) (*Policy, error) {
 	c, err := cfg.withDefaults()
 	if err != nil {
@@ -361,7 +362,7 @@ func Adapt(ag *Agent, labelled []Transition, cfg AdaptConfig) (*Policy, error) {
 // off (negative cfg.Candidates), C is the single nearest skill under
 // FitNone and empty under FitModel. Ties go to Q_w, then to the most
 // similar skill, then to the lowest action. It returns an error wrapping
-// ErrNoData if a fit is asked for and the replay buffer is empty,
+// ErrNoData if a fit is asked for and there are no reward-free transitions,
 // ErrDiverged, or ErrConfig.
 func (ag *Agent) Policy(inf *Inference, cfg AdaptConfig) (*Policy, error) {
 	c, err := cfg.withDefaults()
@@ -421,10 +422,10 @@ func (ag *Agent) Policy(inf *Inference, cfg AdaptConfig) (*Policy, error) {
 }
 
 // fitQ returns Q_w(s, a) = psi(s, a, w) . w of the policy greedy in it, by
-// Gauss-Seidel value iteration on the empirical model of the replay buffer
-// with reward phi(s') . w and discount gamma of the skills, for at most
-// sweeps sweeps or until the largest change is below 1e-9 (1 + max |Q|).
-// Pairs absent from the buffer get -Inf; states with no known action count
+// Gauss-Seidel value iteration on the empirical model of the reward-free
+// transitions with reward phi(s') . w and discount gamma of the skills, for
+// at most sweeps sweeps or until the largest change is below 1e-9
+// (1 + max |Q|). Pairs never tried get -Inf; states with no known action count
 // as value 0 when bootstrapped from.
 func (ag *Agent) fitQ(w []float64, sweeps int) ([]float64, int, error) {
 	mod := ag.model()

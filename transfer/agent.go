@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"math"
 	"math/rand/v2"
+	"slices"
 	"sync"
 
 	"github.com/successor-go/successor/gpi"
@@ -35,8 +36,9 @@ var _ Env = (*mdp.Sampler)(nil)
 //     skills.Categorical, with task vectors w_k = TaskVector(z_k) (w = z for
 //     the sphere methods, (e_k, 1) for Categorical);
 //   - the universal successor features psi(s, a, w_k), a usf.Tabular over
-//     the task vectors (one sf.Table per skill), learned by its TD(0)
-//     update with the greedy target of each skill's own task;
+//     the task vectors (one sf.Table per skill), each table learned by an
+//     sf.TD learner bootstrapping from the greedy action of the skill's own
+//     task (cached action values, see update);
 //   - a usf.Replay of the reward-free transitions.
 //
 // For any other z, Psi uses the skill most similar to z (largest cosine).
@@ -69,10 +71,16 @@ type Agent struct {
 	acc            accum
 
 	// Scratch of update.
-	smp    *usf.Batch // sampled transitions
-	td     *usf.Batch // the TD batch (with relabelled skills)
-	x, z   []float64  // discriminator minibatch
-	obs    []float64  // one-hot observation
+	smp   *usf.Batch     // sampled transitions
+	tds   []*sf.TD       // the TD(0) learner of every skill's table
+	index map[uint64]int // skill index by hash of its task vector
+	// q caches Q(s, a, w_k) = psi(s, a, w_k) . w_k at (k*n + s)*A + a,
+	// recomputed by a dot product after every update of the row (so it
+	// is a function of the tables and is rebuilt exactly on load).
+	q      []float64
+	rowBuf []float64
+	x, z   []float64 // discriminator minibatch
+	obs    []float64 // one-hot observation
 	phiBuf []float64
 	tr     usf.Transition
 	skillK []int
@@ -186,7 +194,14 @@ func (ag *Agent) Source(k int) gpi.Source { return ag.usf.Tables[k] }
 // actSkill returns argmax_a psi(s, a, w_k) . w_k, ties broken uniformly at
 // random with rng (nil rng: the lowest action).
 func (ag *Agent) actSkill(k, s int, rng *rand.Rand) int {
-	return argmaxRows(ag.usf.Tables[k].State(s), ag.usf.Z[k], ag.a, rng)
+	i := (k*ag.n + s) * ag.a
+	return argmaxRand(ag.q[i:i+ag.a], rng)
+}
+
+// greedy returns argmax_a psi(s, a, w_k) . w_k, ties to the lowest action.
+func (ag *Agent) greedy(k, s int) int {
+	i := (k*ag.n + s) * ag.a
+	return argmaxRand(ag.q[i:i+ag.a], nil)
 }
 
 // argmaxRows returns argmax_a rows[a] . w, with random tie-breaking when
@@ -306,10 +321,30 @@ func (ag *Agent) init(n, na, capacity int, tab *usf.Tabular, buf *usf.Replay) er
 		}
 	}
 	ag.buf = buf
-	b, r := ag.cfg.Batch, ag.cfg.Relabel
+	b := ag.cfg.Batch
 	ag.smp = usf.NewBatch(b, 0, d)
-	ag.td = usf.NewBatch(b*(1+r), 0, d)
-	ag.td.NextA = nil // greedy targets
+	ag.tds = make([]*sf.TD, ag.k)
+	ag.index = make(map[uint64]int, ag.k)
+	for k, w := range tab.Z {
+		td, err := sf.NewTD(tab.Tables[k], dimOnly(d), ag.cfg.Gamma, &sf.TDSettings{Target: sf.Sampled, Step: sf.StepSize{Alpha: ag.cfg.LearnRate}})
+		if err != nil {
+			return fmt.Errorf("transfer: %w: %w", ErrConfig, err)
+		}
+		ag.tds[k] = td
+		if _, dup := ag.index[hashVec(w)]; !dup {
+			ag.index[hashVec(w)] = k
+		}
+	}
+	ag.rowBuf = make([]float64, d)
+	ag.q = make([]float64, ag.k*n*na)
+	for k, w := range tab.Z {
+		t := tab.Tables[k]
+		for s := range n {
+			for a := range na {
+				ag.q[(k*n+s)*na+a] = dot(t.Row(s, a), w)
+			}
+		}
+	}
 	ag.x = make([]float64, b*n)
 	ag.z = make([]float64, b*len(ag.zs[0]))
 	ag.obs = make([]float64, n)
@@ -318,6 +353,26 @@ func (ag *Agent) init(n, na, capacity int, tab *usf.Tabular, buf *usf.Replay) er
 	ag.skillK = make([]int, b)
 	ag.tabulatePhi()
 	return nil
+}
+
+// hashVec returns an FNV-1a hash of the bits of v.
+func hashVec(v []float64) uint64 {
+	h := uint64(14695981039346656037)
+	for _, x := range v {
+		h ^= math.Float64bits(x)
+		h *= 1099511628211
+	}
+	return h
+}
+
+// skillOf returns the index of the skill whose task vector equals w
+// exactly, or -1: a hash lookup, checked, with usf.Tabular.Index as the
+// fallback (duplicate skills).
+func (ag *Agent) skillOf(w []float64) int {
+	if k, ok := ag.index[hashVec(w)]; ok && slices.Equal(ag.usf.Z[k], w) {
+		return k
+	}
+	return ag.usf.Index(w)
 }
 
 // taskVector writes the task vector of skill vector z.

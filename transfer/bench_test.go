@@ -79,7 +79,9 @@ func BenchmarkPretrain(b *testing.B) {
 }
 
 // BenchmarkAdapt is task inference from 1000 labelled transitions plus the
-// GPI policy with the fitted psi(., ., w) and 8 skills, on the depot.
+// acting policy on the depot: GPI over the USFs of the 8 nearest skills
+// (fit=none, the default), and the same with the model-based candidate
+// (fit=model, value iteration on the reward-free transitions).
 func BenchmarkAdapt(b *testing.B) {
 	ag, env := depotAgent(b, 64, 128)
 	g, _ := mdp.Depot()
@@ -89,10 +91,14 @@ func BenchmarkAdapt(b *testing.B) {
 	if err != nil {
 		b.Fatal(err)
 	}
-	b.ReportAllocs()
-	for b.Loop() {
-		if _, err := Adapt(ag, lab, AdaptConfig{}); err != nil {
-			b.Fatal(err)
-		}
+	for _, fit := range []FitMode{FitNone, FitModel} {
+		b.Run("fit="+fit.String(), func(b *testing.B) {
+			b.ReportAllocs()
+			for b.Loop() {
+				if _, err := Adapt(ag, lab, AdaptConfig{Fit: fit}); err != nil {
+					b.Fatal(err)
+				}
+			}
+		})
 	}
 }

@@ -84,7 +84,9 @@ func (m *Method) UnmarshalText(b []byte) error {
 	return nil
 }
 
-// MaxReplay is the largest replay capacity (about 300 MB of transitions).
+// MaxReplay is the largest replay capacity. A usf.Replay keeps the
+// features and the task vector of every transition, about (2d + 5) x 8
+// bytes each.
 const MaxReplay = 1 << 24
 
 // PretrainConfig configures the reward-free phase. The zero value means the
@@ -258,8 +260,8 @@ const (
 	// . w for the skills z_k nearest to w. The zero value.
 	FitNone FitMode = iota
 	// FitModel adds a model-based candidate: Q(., ., w) fitted by value
-	// iteration on the empirical transition model of the reward-free
-	// replay buffer with the inferred reward phi(s') . w. This is
+	// iteration on the empirical transition model of every reward-free
+	// transition with the inferred reward phi(s') . w. This is
 	// model-based evaluation of the inferred task on the empirical model of
 	// the reward-free data, not successor-feature transfer: no reward label
 	// and no environment step are used, but the result measures the model
@@ -307,7 +309,7 @@ type AdaptConfig struct {
 	// Fit selects whether a model-based candidate joins the GPI set. The
 	// zero value FitNone is the pure successor-feature method; FitModel
 	// adds Q(., ., w) fitted by value iteration on the empirical model of
-	// the reward-free replay buffer (see FitModel).
+	// the reward-free transitions (see FitModel).
 	Fit FitMode
 	// FitSweeps is the largest number of value-iteration sweeps of
 	// FitModel. 0 means 2000. Ignored with FitNone.

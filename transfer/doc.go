@@ -84,8 +84,9 @@
 // evaluation of the inferred task on the empirical model of the reward-free
 // data. The tables hold psi only at the skills, so FitModel computes
 // Q(., ., w) by value iteration on the empirical transition model of the
-// agent's reward-free replay buffer with the inferred reward phi(s') . w
-// (no environment step, no reward label; O(sweeps x stored pairs x A)) and
+// counts of every reward-free transition the agent took, with the inferred
+// reward phi(s') . w (no environment step, no reward label;
+// O(sweeps x distinct transitions)) and
 // adds it to the GPI candidates. It is not successor-feature transfer:
 // where it wins, it measures the fit of the model of the reward-free data
 // rather than the successor features, and Experiment reports it as its own

@@ -104,7 +104,7 @@ func methodVariants(m Method, candidates int) []VariantInfo {
 		{Name: m.String() + SuffixNoGPI, Method: m.String(), GPI: false, Fit: FitNone,
 			Description: "successor-feature transfer without GPI: greedy in psi(s, a, z) . w for the single skill z nearest the inferred w"},
 		{Name: m.String() + SuffixModelFit, Method: m.String(), GPI: true, Fit: FitModel,
-			Description: fmt.Sprintf("model-based evaluation of the inferred task on the empirical model of the reward-free data (value iteration on the replay buffer), GPI with the %d nearest skills' psi . w", max(n, 0))},
+			Description: fmt.Sprintf("model-based evaluation of the inferred task on the empirical model of the reward-free data (value iteration on the counts of every reward-free transition), GPI with the %d nearest skills' psi . w", max(n, 0))},
 	}
 }
 

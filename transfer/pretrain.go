@@ -9,19 +9,23 @@ import (
 
 // Pretrain runs the reward-free phase on env and returns the trained agent.
 //
-// Every episode draws a skill z from the prior and acts epsilon-greedily on
-// Q(s, a, z) = psi(s, a, z) . z; every transition (s, a, s', terminal, z) goes
-// to the replay buffer. After each environment step one minibatch of
-// cfg.Batch transitions is drawn from the buffer, and for each of them
+// Every episode draws one skill of the skill set uniformly (the set was
+// drawn from the prior) and acts epsilon-greedily on
+// Q(s, a, z) = psi(s, a, w_z) . w_z; every transition (s, a, s', terminal,
+// w_z) goes to the usf.Replay. After each environment step one minibatch of
+// cfg.Batch transitions is drawn from the replay, and
 //
-//   - the discriminator takes a gradient step on -log q(z | s')
-//     (VMF: log q = kappa phi(s').z + log C_d(kappa); Categorical:
+//   - the discriminator takes one Adam step (skills.VMF or skills.Softmax
+//     Update) on the mean of -log q(z | s') over the minibatch (VMF:
+//     log q = kappa phi(s').z + log C_d(kappa); Categorical:
 //     log q = log softmax(logits(s'))_z; Random and Given learn nothing);
-//   - the universal SFs take a TD(0) step towards
-//     phi(s') + gamma (1 - terminal) psi(s', a*, z),
-//     a* = argmax_a psi(s', a, z) . z (the policy of z), with the current
-//     phi, so that psi(., ., z) . z is the value of the intrinsic reward
-//     phi(s') . z (Hansen et al. 2020, Algorithm 1).
+//   - for every transition of the minibatch, the universal SFs of the
+//     acting skill and of cfg.Relabel skills drawn at random take a TD(0)
+//     step (sf.TD) towards
+//     phi(s') + gamma (1 - terminal) psi(s', a*, w),
+//     a* = argmax_a psi(s', a, w) . w (the policy of the skill), with the
+//     current phi, so that psi(., ., w) . w is the value of the intrinsic
+//     reward phi(s') . w (Hansen et al. 2020, Algorithm 1).
 //
 // Episodes end at a terminal state, at an environment truncation, or after
 // cfg.EpisodeSteps steps (a truncation: it bootstraps). The run stops at the
@@ -193,7 +197,7 @@ func (ag *Agent) update() error {
 	ag.buf.Sample(b, ag.rng)
 	nb, d, n := b.Len(), ag.d, ag.n
 	for i := range nb {
-		k := ag.usf.Index(b.Z[i*d : (i+1)*d])
+		k := ag.skillOf(b.Z[i*d : (i+1)*d])
 		if k < 0 {
 			panic("transfer: replayed skill not in the skill set")
 		}
@@ -226,28 +230,41 @@ func (ag *Agent) update() error {
 
 	// TD steps of psi(s, a, w_j) for the acting skill and c.Relabel skills
 	// drawn at random (off-policy relabelling: the intrinsic reward
-	// phi(s') . w_j is known for every j), with the current phi.
-	td := ag.td
-	r := 1 + c.Relabel
+	// phi(s') . w_j is known for every j), with the current phi: the sf.TD
+	// learner of skill j on skill j's table of the usf.Tabular, bootstrapping
+	// from the greedy action of w_j in s' (read from the cached values
+	// Q(s, a, w_j), so it costs A rather than A d operations; sf.TD's own
+	// Greedy target computes the same action from the table). The squared TD
+	// error is recovered from the change of the row,
+	// ||delta||^2 = ||change||^2 / alpha^2.
+	old := ag.rowBuf
+	inv := 1 / (c.LearnRate * c.LearnRate)
 	for i := range nb {
 		ag.features(ag.phiBuf, b.Next[i])
-		for j := range r {
-			row := i*r + j
+		s, a, next, term := b.S[i], b.A[i], b.Next[i], b.Terminal[i]
+		for j := 0; j <= c.Relabel; j++ {
 			kk := ag.skillK[i]
 			if j > 0 {
 				kk = ag.rng.IntN(ag.k)
 			}
-			td.S[row], td.Next[row], td.A[row], td.Terminal[row] = b.S[i], b.Next[i], b.A[i], b.Terminal[i]
-			copy(td.Phi[row*d:(row+1)*d], ag.phiBuf)
-			copy(td.Z[row*d:(row+1)*d], ag.usf.Z[kk])
+			row := ag.usf.Tables[kk].Row(s, a)
+			copy(old, row)
+			an := -1
+			if !term {
+				an = ag.greedy(kk, next)
+			}
+			if err := ag.tds[kk].UpdateFeatures(s, a, ag.phiBuf, next, term, an); err != nil {
+				return fmt.Errorf("transfer: pretrain: successor features of skill %d non-finite at step %d: %w: %w", kk, ag.steps, ErrDiverged, err)
+			}
+			ag.q[(kk*ag.n+s)*ag.a+a] = dot(row, ag.usf.Z[kk])
+			var sq float64
+			for m, v := range row {
+				e := v - old[m]
+				sq += e * e
+			}
+			ag.acc.td += sq * inv / float64(d)
+			ag.acc.nTD++
 		}
 	}
-	loss, err := ag.usf.Update(td)
-	if err != nil {
-		return fmt.Errorf("transfer: pretrain: successor features non-finite at step %d: %w: %w", ag.steps, ErrDiverged, err)
-	}
-	rows := float64(td.Len())
-	ag.acc.td += 2 * loss / float64(d) * rows
-	ag.acc.nTD += td.Len()
 	return nil
 }

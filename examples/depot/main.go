@@ -16,6 +16,14 @@
 // normalised return (0 = uniform random policy, 1 = optimal; mean +-
 // standard error over the seeds), and writes results.json, results.csv and
 // PNG figures into the output folder.
+//
+// Every method appears in three rows: <method>:usf+gpi is successor-feature
+// transfer proper (GPI over the universal SFs of the skills nearest the
+// inferred task), <method>:usf-no-gpi acts on the single nearest skill, and
+// <method>:model-fit+gpi adds a candidate fitted by value iteration on the
+// empirical model of the reward-free data, which is model-based planning
+// with the inferred reward rather than successor-feature transfer.
+// results.json states the variant of every row (results.variant_info).
 package main
 
 import (
