@@ -121,10 +121,10 @@ func drawReturns(path string, e *transfer.Experiment, res *transfer.Results) err
 	}
 	p.Y.Min = math.Min(p.Y.Min, -0.1)
 	p.Y.Max = 1.05
-	img := vgimg.New(24*vg.Centimeter, 13*vg.Centimeter)
+	img := vgimg.New(25*vg.Centimeter, 13*vg.Centimeter)
 	dc := draw.New(img)
-	left := draw.Crop(dc, 0, -6*vg.Centimeter, 0, 0)
-	right := draw.Crop(dc, 18*vg.Centimeter, 0, 0, 0)
+	left := draw.Crop(dc, 0, -7*vg.Centimeter, 0, 0)
+	right := draw.Crop(dc, 18.5*vg.Centimeter, 0, 0, 0)
 	p.Draw(left)
 	leg.Draw(right)
 	return writePNG(path, img)
