@@ -204,26 +204,6 @@ func (ag *Agent) greedy(k, s int) int {
 	return argmaxRand(ag.q[i:i+ag.a], nil)
 }
 
-// argmaxRows returns argmax_a rows[a] . w, with random tie-breaking when
-// rng is not nil.
-func argmaxRows(rows, w []float64, na int, rng *rand.Rand) int {
-	d := len(w)
-	best, arg, ties := math.Inf(-1), 0, 0
-	for a := range na {
-		q := dot(rows[a*d:(a+1)*d], w)
-		switch {
-		case q > best:
-			best, arg, ties = q, a, 1
-		case q == best && rng != nil:
-			ties++
-			if rng.IntN(ties) == 0 {
-				arg = a
-			}
-		}
-	}
-	return arg
-}
-
 func dot(x, y []float64) float64 {
 	var s float64
 	y = y[:len(x)]
