@@ -41,6 +41,10 @@ func NewSampler(m *Finite, maxSteps int) *Sampler {
 // NumActions returns the number of actions of the MDP.
 func (e *Sampler) NumActions() int { return e.m.a }
 
+// NumStates returns the number of states of the MDP, for learners that
+// tabulate over the integer states an Env returns.
+func (e *Sampler) NumStates() int { return e.m.n }
+
 // MDP returns the sampled MDP.
 func (e *Sampler) MDP() *Finite { return e.m }
 

@@ -327,3 +327,28 @@ func TestRandomConfig(t *testing.T) {
 		}
 	}
 }
+
+// TestSamplerNumStates: a sampler reports the size of the MDP it samples,
+// and every state it returns lies in [0, NumStates).
+func TestSamplerNumStates(t *testing.T) {
+	for _, tc := range []struct{ states, actions int }{{1, 1}, {3, 2}, {17, 4}} {
+		m, err := RandomFinite(rand.New(rand.NewPCG(uint64(tc.states), 1)), RandomConfig{States: tc.states, Actions: tc.actions, Branching: 2, SelfLoops: true})
+		if err != nil {
+			t.Fatal(err)
+		}
+		e := NewSampler(m, 10)
+		if e.NumStates() != tc.states || e.NumActions() != tc.actions {
+			t.Errorf("sizes %d x %d, want %d x %d", e.NumStates(), e.NumActions(), tc.states, tc.actions)
+		}
+		rng := rand.New(rand.NewPCG(1, 2))
+		for range 20 {
+			s := e.Reset(rng)
+			for !e.Done() {
+				if s < 0 || s >= e.NumStates() {
+					t.Fatalf("state %d outside [0, %d)", s, e.NumStates())
+				}
+				s, _, _ = e.Step(rng.IntN(tc.actions), rng)
+			}
+		}
+	}
+}

@@ -9,6 +9,7 @@ import (
 
 	"github.com/successor-go/successor/gpi"
 	"github.com/successor-go/successor/mdp"
+	"github.com/successor-go/successor/sf"
 	"gonum.org/v1/gonum/mat"
 )
 
@@ -65,12 +66,20 @@ func Collect(env mdp.Env, ag *Agent, reward mdp.Reward, k int, cfg AdaptConfig, 
 		return k
 	}
 	var pol *Policy
+	empty := 0
 	for len(out) < k {
 		var skill int
 		if c.Explore != ExploreUniform {
 			skill = nextSkill()
 		}
 		s := env.Reset(rng)
+		if startDone(env) {
+			if empty++; empty >= maxEmpty {
+				return nil, fmt.Errorf("transfer: collect: %d episodes in a row start at a terminal state: %w", empty, ErrConfig)
+			}
+			continue
+		}
+		empty = 0
 		for t := 0; t < c.EpisodeSteps && len(out) < k; t++ {
 			greedy := c.Explore == ExploreGreedy && len(out) >= c.Warmup
 			if greedy && (len(out)-c.Warmup)%c.SwitchEvery == 0 {
@@ -130,8 +139,11 @@ type Inference struct {
 //	sum_j (r_j - phi(s'_j) . w)^2 + lambda ||w||^2
 //
 // over the labelled transitions (ridge regression on the agent's features of
-// the next state), normalised to unit length for sphere-valued skills. It
-// returns an error wrapping ErrNoData if there are no transitions.
+// the next state, sf.InferTask), normalised to unit length for
+// sphere-valued skills. It returns an error wrapping ErrNoData if there are
+// no transitions, ErrConfig for a bad penalty, and ErrDiverged if the
+// regression fails (for example rank-deficient features with lambda = 0, or
+// a zero w to normalise).
 func InferTask(ag *Agent, labelled []Transition, lambda float64) (*Inference, error) {
 	if lambda < 0 || math.IsNaN(lambda) || math.IsInf(lambda, 0) {
 		return nil, fmt.Errorf("transfer: infer task: penalty %v: %w", lambda, ErrConfig)
@@ -140,67 +152,33 @@ func InferTask(ag *Agent, labelled []Transition, lambda float64) (*Inference, er
 		return nil, fmt.Errorf("transfer: infer task: %w", ErrNoData)
 	}
 	d := ag.d
-	var xtx mat.SymDense
-	xtx.ReuseAsSym(d)
-	xty := mat.NewVecDense(d, nil)
-	phi := make([]float64, d)
+	x := mat.NewDense(len(labelled), d, nil)
+	y := make([]float64, len(labelled))
 	var ysum, y2 float64
-	for _, t := range labelled {
-		ag.Phi(phi, t.Next)
-		for i := range d {
-			xty.SetVec(i, xty.AtVec(i)+phi[i]*t.Reward)
-			for j := i; j < d; j++ {
-				xtx.SetSym(i, j, xtx.At(i, j)+phi[i]*phi[j])
-			}
-		}
+	inf := &Inference{Lambda: lambda}
+	for j, t := range labelled {
+		ag.Phi(x.RawRowView(j), t.Next)
+		y[j] = t.Reward
 		ysum += t.Reward
 		y2 += t.Reward * t.Reward
-	}
-	for i := range d {
-		xtx.SetSym(i, i, xtx.At(i, i)+lambda)
-	}
-	var w mat.VecDense
-	var chol mat.Cholesky
-	if ok := chol.Factorize(&xtx); ok {
-		if err := chol.SolveVecTo(&w, xty); err != nil {
-			return nil, fmt.Errorf("transfer: infer task: %w", err)
-		}
-	} else {
-		// Rank-deficient without a penalty: the minimum-norm solution.
-		if err := w.SolveVec(&xtx, xty); err != nil {
-			return nil, fmt.Errorf("transfer: infer task: singular features (set a ridge penalty): %w", err)
-		}
-	}
-	raw := make([]float64, d)
-	copy(raw, w.RawVector().Data)
-	var sse float64
-	for _, t := range labelled {
-		ag.Phi(phi, t.Next)
-		e := t.Reward - dot(phi, raw)
-		sse += e * e
-	}
-	n := float64(len(labelled))
-	inf := &Inference{Raw: raw, W: append([]float64(nil), raw...), Residual: math.Sqrt(sse / n), Lambda: lambda}
-	sst := y2 - ysum*ysum/n
-	if sst > 1e-300 {
-		inf.RSquared = 1 - sse/sst
-	}
-	for _, t := range labelled {
 		if t.Reward != 0 {
 			inf.Rewarded++
 		}
 	}
-	if ag.cfg.Method.Sphere() {
-		nrm := math.Sqrt(dot(raw, raw))
-		if nrm > 0 {
-			for i := range inf.W {
-				inf.W[i] /= nrm
-			}
-		}
+	inf.Raw = make([]float64, d)
+	fit, err := sf.InferTask(inf.Raw, x, y, lambda, nil)
+	if err != nil {
+		return nil, fmt.Errorf("transfer: infer task: %w: %w", ErrDiverged, err)
 	}
-	for _, v := range raw {
-		if math.IsNaN(v) || math.IsInf(v, 0) {
-			return nil, fmt.Errorf("transfer: infer task: %w", ErrDiverged)
+	n := float64(len(labelled))
+	inf.Residual = fit.RMS
+	if sst := y2 - ysum*ysum/n; sst > 1e-300 {
+		inf.RSquared = 1 - fit.RSS/sst
+	}
+	inf.W = append([]float64(nil), inf.Raw...)
+	if ag.cfg.Method.Sphere() && fit.Norm > 0 {
+		for i := range inf.W {
+			inf.W[i] /= fit.Norm
 		}
 	}
 	return inf, nil
@@ -318,7 +296,8 @@ func infer(ag *Agent, labelled []Transition, c AdaptConfig) (*Inference, error) 
 }
 
 // Policy is the acting policy after adaptation: GPI with the inferred w over
-// a candidate set C of task vectors (w itself and skills of the agent),
+// a candidate set C of skills of the agent (and, with FitModel, a fitted
+// Q(., ., w)),
 //
 //	pi(s) = argmax_a max_{z in C} psi(s, a, z) . w,
 //
@@ -327,8 +306,9 @@ func infer(ag *Agent, labelled []Transition, c AdaptConfig) (*Inference, error) 
 // and is safe for concurrent use.
 type Policy struct {
 	Inference
-	// Fitted reports whether the fitted Q(., ., w) is a candidate, and
-	// FitSweeps how many value-iteration sweeps the fit took.
+	// Fitted reports whether the model-based Q(., ., w) is a candidate
+	// (FitModel), and FitSweeps how many value-iteration sweeps the fit
+	// took.
 	Fitted    bool
 	FitSweeps int
 	// Candidates are the skill indices in C, most similar to w first.
@@ -344,19 +324,23 @@ func (p *Policy) Probs(dst []float64, s int) { p.Actions.Probs(dst, s) }
 func (p *Policy) Act(s int) int { return p.Actions[s] }
 
 // Adapt infers the task from the labelled transitions (InferTaskCV, or
-// InferTask with a fixed cfg.Ridge) and returns the GPI policy (Agent.Policy) over {w} and the
-// cfg.Candidates skills most similar to w.
+// InferTask with a fixed cfg.Ridge) and returns the acting policy
+// (Agent.Policy).
 //
-// The universal SFs are tabulated over the skill set, so psi(., ., w) is not
-// stored. Adapt computes Q(s, a, w) = psi(s, a, w) . w for the policy greedy
-// in it from the agent's reward-free replay buffer: value iteration on the
-// empirical transition model of the buffer with the intrinsic reward
-// phi(s') . w and the skills' discount (a certainty-equivalent fit of
-// psi(., ., w) . w; by linearity the SF vector itself is not needed to act).
-// This uses no environment step and no reward label. State-action pairs
-// absent from the buffer have no fitted value and are left to the skills.
-// With a negative cfg.Fit the candidate set is the cfg.Candidates + 1
-// skills nearest to w (GPI over the stored library only).
+// By default (FitNone) this is successor-feature transfer proper: GPI over
+// the universal SFs tabulated at the cfg.Candidates skills nearest to w by
+// cosine, Q_k(s, a) = psi(s, a, z_k) . w; with GPI off (negative
+// cfg.Candidates) the policy is greedy in psi(s, ., z) . w for the single
+// nearest skill z.
+//
+// With cfg.Fit = FitModel a model-based candidate joins the set:
+// Q(s, a, w), the optimal action value of the inferred reward phi(s') . w
+// under the skills' discount, by value iteration on the empirical
+// transition model of every reward-free transition the agent took (counts
+// kept during pretraining). This uses no environment step and no reward
+// label, but it is model-based evaluation of the inferred task, not
+// successor-feature transfer; state-action pairs never tried have no
+// fitted value and are left to the skills.
 func Adapt(ag *Agent, labelled []Transition, cfg AdaptConfig) (*Policy, error) {
 	c, err := cfg.withDefaults()
 	if err != nil {
@@ -369,16 +353,17 @@ func Adapt(ag *Agent, labelled []Transition, cfg AdaptConfig) (*Policy, error) {
 	return ag.Policy(inf, cfg)
 }
 
-// Policy returns the GPI policy for an inferred task,
+// Policy returns the acting policy for an inferred task,
 //
 //	pi(s) = argmax_a max( Q_w(s, a), max_{k in C} psi(s, a, z_k) . w ),
 //
-// with Q_w fitted on the replay buffer (see Adapt; cfg.Fit > 0 after
-// defaults) and C the cfg.Candidates skills most similar to w; without a
-// fit, C is the cfg.Candidates + 1 most similar skills. Ties go to Q_w, then
-// to the most similar skill, then to the lowest action. Candidates = 0
-// switches GPI off. It returns an error wrapping ErrNoData if a fit is asked
-// for and the replay buffer is empty, ErrDiverged, or ErrConfig.
+// with C the cfg.Candidates skills most similar to w (cosine) and Q_w the
+// model-based fit of FitModel (absent with FitNone, the default). With GPI
+// off (negative cfg.Candidates), C is the single nearest skill under
+// FitNone and empty under FitModel. Ties go to Q_w, then to the most
+// similar skill, then to the lowest action. It returns an error wrapping
+// ErrNoData if a fit is asked for and there are no reward-free transitions,
+// ErrDiverged, or ErrConfig.
 func (ag *Agent) Policy(inf *Inference, cfg AdaptConfig) (*Policy, error) {
 	c, err := cfg.withDefaults()
 	if err != nil {
@@ -395,10 +380,10 @@ func (ag *Agent) Policy(inf *Inference, cfg AdaptConfig) (*Policy, error) {
 	}
 	slices.SortStableFunc(sims, func(x, y sim) int { return cmp.Compare(y.c, x.c) })
 	pol := &Policy{Inference: *inf}
-	m := min(c.Candidates+1, ag.k)
+	m := min(max(c.Candidates, 1), ag.k)
 	var qw []float64
-	if c.Fit > 0 {
-		qw, pol.FitSweeps, err = ag.fitQ(inf.W, c.Fit)
+	if c.Fit == FitModel {
+		qw, pol.FitSweeps, err = ag.fitQ(inf.W, c.FitSweeps)
 		if err != nil {
 			return nil, err
 		}
@@ -437,20 +422,20 @@ func (ag *Agent) Policy(inf *Inference, cfg AdaptConfig) (*Policy, error) {
 }
 
 // fitQ returns Q_w(s, a) = psi(s, a, w) . w of the policy greedy in it, by
-// Gauss-Seidel value iteration on the empirical model of the replay buffer
-// with reward phi(s') . w and discount gamma of the skills, for at most
-// sweeps sweeps or until the largest change is below 1e-9 (1 + max |Q|).
-// Pairs absent from the buffer get -Inf; states with no known action count
+// Gauss-Seidel value iteration on the empirical model of the reward-free
+// transitions with reward phi(s') . w and discount gamma of the skills, for
+// at most sweeps sweeps or until the largest change is below 1e-9
+// (1 + max |Q|). Pairs never tried get -Inf; states with no known action count
 // as value 0 when bootstrapped from.
 func (ag *Agent) fitQ(w []float64, sweeps int) ([]float64, int, error) {
 	mod := ag.model()
 	if mod == nil {
-		return nil, 0, fmt.Errorf("transfer: adapt: fit needs the replay buffer: %w", ErrNoData)
+		return nil, 0, fmt.Errorf("transfer: adapt: fit needs reward-free transitions: %w", ErrNoData)
 	}
 	n, na, d := ag.n, ag.a, ag.d
 	r := make([]float64, n)
 	for s := range n {
-		r[s] = dot(ag.phi[s*d:(s+1)*d], w)
+		r[s] = dot(ag.phiTab[s*d:(s+1)*d], w)
 	}
 	q := make([]float64, n*na)
 	v := make([]float64, n)
@@ -502,7 +487,7 @@ func (ag *Agent) fitQ(w []float64, sweeps int) ([]float64, int, error) {
 	return q, done, nil
 }
 
-// empirical is the empirical transition model of the replay buffer: for
+// empirical is the empirical transition model of the reward-free data: for
 // pair i = s*A + a the entries ptr[i]:ptr[i+1] of next, prob and term.
 type empirical struct {
 	ptr  []int
@@ -511,55 +496,42 @@ type empirical struct {
 	term []bool
 }
 
-// model returns the empirical model of the replay buffer (nil if it is
-// empty), built once after training and cached.
+// model returns the empirical model of every reward-free transition the
+// agent has taken (nil if none), built once after training and cached.
 func (ag *Agent) model() *empirical {
 	ag.modelMu.Lock()
 	defer ag.modelMu.Unlock()
-	if ag.emp != nil || ag.replay.count == 0 {
+	if ag.emp != nil || len(ag.counts) == 0 {
 		return ag.emp
 	}
-	rb := &ag.replay
-	na := ag.a
-	type key struct {
-		next int32
-		term bool
+	keys := sortedKeys(ag.counts)
+	npairs := ag.n * ag.a
+	e := &empirical{ptr: make([]int, npairs+1)}
+	tot := make([]int64, npairs)
+	for _, key := range keys {
+		tot[int(key>>1)/ag.n] += ag.counts[key]
 	}
-	counts := make([]map[key]int, ag.n*na)
-	for i := range rb.count {
-		p := int(rb.s[i])*na + int(rb.a[i])
-		if counts[p] == nil {
-			counts[p] = map[key]int{}
-		}
-		counts[p][key{rb.next[i], rb.term[i]}]++
-	}
-	e := &empirical{ptr: make([]int, len(counts)+1)}
-	for p, c := range counts {
-		keys := make([]key, 0, len(c))
-		tot := 0
-		for k, v := range c {
-			keys = append(keys, k)
-			tot += v
-		}
-		slices.SortFunc(keys, func(x, y key) int {
-			if x.next != y.next {
-				return cmp.Compare(x.next, y.next)
-			}
-			if x.term == y.term {
-				return 0
-			}
-			if !x.term {
-				return -1
-			}
-			return 1
-		})
-		for _, k := range keys {
-			e.next = append(e.next, int(k.next))
-			e.prob = append(e.prob, float64(c[k])/float64(tot))
-			e.term = append(e.term, k.term)
-		}
+	for _, key := range keys {
+		p, next := int(key>>1)/ag.n, int(key>>1)%ag.n
+		e.next = append(e.next, next)
+		e.prob = append(e.prob, float64(ag.counts[key])/float64(tot[p]))
+		e.term = append(e.term, key&1 == 1)
 		e.ptr[p+1] = len(e.next)
+	}
+	for p := range npairs {
+		e.ptr[p+1] = max(e.ptr[p+1], e.ptr[p])
 	}
 	ag.emp = e
 	return e
+}
+
+// sortedKeys returns the keys of m in increasing order: by pair, then next
+// state, then non-terminal before terminal.
+func sortedKeys(m map[uint64]int64) []uint64 {
+	keys := make([]uint64, 0, len(m))
+	for k := range m {
+		keys = append(keys, k)
+	}
+	slices.Sort(keys)
+	return keys
 }

@@ -4,69 +4,93 @@ import (
 	"fmt"
 	"math"
 	"math/rand/v2"
+	"slices"
 	"sync"
 
 	"github.com/successor-go/successor/gpi"
 	"github.com/successor-go/successor/mdp"
+	"github.com/successor-go/successor/sf"
 	"github.com/successor-go/successor/skills"
+	"github.com/successor-go/successor/usf"
 )
 
 // Env is a sampled environment with finitely many integer states; the agent
 // observes the state as a one-hot vector, so its discriminator and
-// universal successor features are tables over states.
+// universal successor features are tables over states. *mdp.Sampler
+// implements it.
 type Env interface {
 	mdp.Env
 	NumStates() int
 }
 
-// Agent is a pretrained agent: the features phi(s) of every state (learned
-// by a discriminator, random or given), a finite set of K skill vectors
-// z_1..z_K (for sphere methods drawn once, uniformly on the unit sphere,
-// from the run's seed; for Categorical the K one-hot vectors), and the
-// universal successor features tabulated over that set: for every skill k
-// a table psi(s, a, z_k) in R^d over state-action pairs, the SFs of the
-// policy greedy in psi(s, ., z_k) . z_k. For any other z, Psi uses the
-// skill most similar to z (largest cosine).
+var _ Env = (*mdp.Sampler)(nil)
+
+// Agent is a pretrained agent, composed of the library's pieces:
+//
+//   - the features phi(s): a skills.VMF or skills.Softmax discriminator,
+//     linear on the one-hot observation of s (f(x) = x W + b, so tabular),
+//     for VMF and Categorical; fixed rows (sf.NextState) for Random and
+//     Given;
+//   - a finite skill set z_1..z_K, drawn once from the prior
+//     skills.UniformSphere (VMF, Random, Given) or the K one-hot vectors of
+//     skills.Categorical, with task vectors w_k = TaskVector(z_k) (w = z for
+//     the sphere methods, (e_k, 1) for Categorical);
+//   - the universal successor features psi(s, a, w_k), a usf.Tabular over
+//     the task vectors (one sf.Table per skill), each table learned by an
+//     sf.TD learner bootstrapping from the greedy action of the skill's own
+//     task (cached action values, see update);
+//   - a usf.Replay of the reward-free transitions.
+//
+// For any other z, Psi uses the skill most similar to z (largest cosine).
 //
 // An Agent also carries its training state (replay buffer, random
 // generator, counters) so that a checkpoint resumes bit-identically. It is
 // not safe for concurrent use while training; after training its read
-// methods (Phi, Psi, Q, Skill, Source) may be called concurrently.
+// methods (Phi, Psi, Q, Skill, Source, Policy) may be called concurrently.
 type Agent struct {
 	cfg        PretrainConfig // with defaults applied
-	n, a, d, k int
+	n, a, d, k int            // states, actions, feature dimension, skills
 
-	// param holds the discriminator's parameters: f(s) for VMF, logits for
-	// Categorical, phi itself for Random and Given. n*d values.
-	param []float64
-	// phi caches the features of every state. n*d values.
-	phi []float64
-	// skills holds z_1..z_K, k*d values.
-	skills []float64
-	// usf holds psi(s, a, z_k) at [((k*n + s)*A + a)*d:][:d].
-	usf []float64
-	// q caches Q(s, a, z_k) = psi(s, a, z_k) . z_k at (k*n + s)*A + a,
-	// updated incrementally with every TD step (so the greedy action costs
-	// A, not A*d, operations; it agrees with the dot product to round-off).
-	q []float64
-	// logC is log C_d(kappa) for VMF; logArea the log area of S^{d-1}.
-	logC, logArea float64
+	disc  skills.Discriminator // VMF and Categorical; nil otherwise
+	prior skills.Prior
+	fixed *sf.NextState // Random and Given; nil otherwise
+	zs    [][]float64   // skill vectors z_k (prior space)
+	usf   *usf.Tabular  // psi(., ., w_k); usf.Z[k] = TaskVector(z_k)
+	buf   *usf.Replay
+	// counts holds the empirical model of the reward-free data: the
+	// number of transitions (s, a, s', terminal), keyed by modelKey.
+	counts map[uint64]int64
 
 	// Training state.
 	pcg            *rand.PCG
 	rng            *rand.Rand
-	replay         replay
 	steps          int
 	episodes       int
 	nextProgress   int
 	nextCheckpoint int
 	acc            accum
 
-	// Scratch.
-	target []float64
+	// Scratch of update.
+	smp   *usf.Batch     // sampled transitions
+	tds   []*sf.TD       // the TD(0) learner of every skill's table
+	index map[uint64]int // skill index by hash of its task vector
+	// q caches Q(s, a, w_k) = psi(s, a, w_k) . w_k at (k*n + s)*A + a,
+	// recomputed by a dot product after every update of the row (so it
+	// is a function of the tables and is rebuilt exactly on load).
+	q      []float64
+	rowBuf []float64
+	x, z   []float64 // discriminator minibatch
+	obs    []float64 // one-hot observation
+	phiBuf []float64
+	tr     usf.Transition
+	skillK []int
 
-	// The empirical model of the replay buffer, built on first use by
-	// Policy and dropped when training continues.
+	// phi of every state, tabulated when training stops, for the read
+	// methods.
+	phiTab []float64
+
+	// The empirical model, built on first use by Policy with FitModel and
+	// dropped when training continues.
 	modelMu sync.Mutex
 	emp     *empirical
 }
@@ -77,8 +101,9 @@ func (ag *Agent) NumStates() int { return ag.n }
 // NumActions returns the number of actions.
 func (ag *Agent) NumActions() int { return ag.a }
 
-// Dim returns the feature dimension d (the number of skills K for
-// Categorical).
+// Dim returns the feature dimension d: PretrainConfig.Dim for the sphere
+// methods, K+1 for Categorical with K skills (skills.Softmax's features
+// log q(. | s) and the constant log K).
 func (ag *Agent) Dim() int { return ag.d }
 
 // Method returns the pretraining method.
@@ -93,31 +118,42 @@ func (ag *Agent) Steps() int { return ag.steps }
 // Episodes returns the number of pretraining episodes finished so far.
 func (ag *Agent) Episodes() int { return ag.episodes }
 
+// Discriminator returns the learned discriminator (VMF and Categorical), or
+// nil. It must not be trained further while the agent is in use.
+func (ag *Agent) Discriminator() skills.Discriminator { return ag.disc }
+
+// USF returns the universal successor features, tabulated over the task
+// vectors of the skill set. It must not be modified.
+func (ag *Agent) USF() *usf.Tabular { return ag.usf }
+
 // Phi writes the features phi(s) into dst (len Dim). It panics if len(dst)
 // or s is out of range.
 func (ag *Agent) Phi(dst []float64, s int) {
 	if len(dst) != ag.d {
 		panic("transfer: phi: wrong length")
 	}
-	copy(dst, ag.phi[s*ag.d:(s+1)*ag.d])
+	copy(dst, ag.phiTab[s*ag.d:(s+1)*ag.d])
 }
 
 // NumSkills returns K, the size of the skill set.
 func (ag *Agent) NumSkills() int { return ag.k }
 
-// Skill returns a view of skill vector z_k. It must not be modified.
-func (ag *Agent) Skill(k int) []float64 { return ag.skills[k*ag.d : (k+1)*ag.d : (k+1)*ag.d] }
+// Skill returns a view of the task vector w_k = TaskVector(z_k) of skill k
+// (len Dim; for the sphere methods the skill vector z_k itself). It must
+// not be modified.
+func (ag *Agent) Skill(k int) []float64 { return ag.usf.Z[k] }
 
-// Nearest returns the index of the skill with the largest cosine
-// similarity to z (ties to the lowest index). It panics if len(z) != Dim.
-func (ag *Agent) Nearest(z []float64) int {
-	if len(z) != ag.d {
+// Nearest returns the index of the skill whose task vector has the largest
+// cosine similarity to w (ties to the lowest index). It panics if
+// len(w) != Dim.
+func (ag *Agent) Nearest(w []float64) int {
+	if len(w) != ag.d {
 		panic("transfer: nearest: wrong length")
 	}
 	best, arg := math.Inf(-1), 0
 	for k := range ag.k {
 		zk := ag.Skill(k)
-		c := dot(zk, z) / math.Sqrt(dot(zk, zk))
+		c := dot(zk, w) / math.Sqrt(dot(zk, zk))
 		if c > best {
 			best, arg = c, k
 		}
@@ -125,12 +161,9 @@ func (ag *Agent) Nearest(z []float64) int {
 	return arg
 }
 
-// SkillState returns a view of psi(s, ., z_k), action-major (A rows of d
+// SkillState returns a view of psi(s, ., w_k), action-major (A rows of d
 // values). It must not be modified.
-func (ag *Agent) SkillState(k, s int) []float64 {
-	i := (k*ag.n + s) * ag.a * ag.d
-	return ag.usf[i : i+ag.a*ag.d : i+ag.a*ag.d]
-}
+func (ag *Agent) SkillState(k, s int) []float64 { return ag.usf.Tables[k].State(s) }
 
 // Psi writes psi(s, a, z) for every action a into dst, action-major
 // (dst[a*Dim + k]), from the skill nearest to z. It panics if
@@ -154,63 +187,21 @@ func (ag *Agent) Q(dst []float64, s int, z, w []float64) {
 	}
 }
 
-// Source returns the successor features of skill k as a GPI source (a
-// gpi.Viewer reading the table in place).
-func (ag *Agent) Source(k int) gpi.Source { return skillSource{ag: ag, k: k} }
+// Source returns the successor features of skill k as a GPI source: the
+// skill's sf.Table, read in place.
+func (ag *Agent) Source(k int) gpi.Source { return ag.usf.Tables[k] }
 
-type skillSource struct {
-	ag *Agent
-	k  int
-}
-
-func (f skillSource) Shape() (int, int)        { return f.ag.a, f.ag.d }
-func (f skillSource) Psi(dst []float64, s int) { copy(dst, f.ag.SkillState(f.k, s)) }
-func (f skillSource) State(s int) []float64    { return f.ag.SkillState(f.k, s) }
-
-var _ gpi.Viewer = skillSource{}
-
-func sampleSphere(dst []float64, rng *rand.Rand) {
-	for {
-		var s float64
-		for i := range dst {
-			dst[i] = rng.NormFloat64()
-			s += dst[i] * dst[i]
-		}
-		if s > 1e-12 {
-			s = 1 / math.Sqrt(s)
-			for i := range dst {
-				dst[i] *= s
-			}
-			return
-		}
-	}
-}
-
-// actSkill returns argmax_a psi(s, a, z_k) . z_k, ties broken uniformly at
+// actSkill returns argmax_a psi(s, a, w_k) . w_k, ties broken uniformly at
 // random with rng (nil rng: the lowest action).
 func (ag *Agent) actSkill(k, s int, rng *rand.Rand) int {
 	i := (k*ag.n + s) * ag.a
 	return argmaxRand(ag.q[i:i+ag.a], rng)
 }
 
-// argmaxRows returns argmax_a rows[a] . w, with random tie-breaking when
-// rng is not nil.
-func argmaxRows(rows, w []float64, na int, rng *rand.Rand) int {
-	d := len(w)
-	best, arg, ties := math.Inf(-1), 0, 0
-	for a := range na {
-		q := dot(rows[a*d:(a+1)*d], w)
-		switch {
-		case q > best:
-			best, arg, ties = q, a, 1
-		case q == best && rng != nil:
-			ties++
-			if rng.IntN(ties) == 0 {
-				arg = a
-			}
-		}
-	}
-	return arg
+// greedy returns argmax_a psi(s, a, w_k) . w_k, ties to the lowest action.
+func (ag *Agent) greedy(k, s int) int {
+	i := (k*ag.n + s) * ag.a
+	return argmaxRand(ag.q[i:i+ag.a], nil)
 }
 
 func dot(x, y []float64) float64 {
@@ -228,52 +219,51 @@ func newAgent(n, na int, c PretrainConfig) (*Agent, error) {
 	if n <= 0 || na <= 0 {
 		return nil, fmt.Errorf("transfer: environment with %d states and %d actions: %w", n, na, ErrConfig)
 	}
-	d := c.Dim
-	ag := &Agent{cfg: c, n: n, a: na, d: d}
+	ag := &Agent{cfg: c, n: n, a: na}
 	ag.pcg = rand.NewPCG(c.Seed, streamPretrain)
 	ag.rng = rand.New(ag.pcg)
-	ag.param = make([]float64, n*d)
-	ag.phi = make([]float64, n*d)
-	ag.alloc()
+	var err error
+	opt := skills.Optim{LearnRate: c.DiscRate}
 	switch c.Method {
-	case VMF, Random:
-		for s := range n {
-			sampleSphere(ag.param[s*d:(s+1)*d], ag.rng)
-		}
+	case VMF:
+		ag.disc, err = skills.NewVMF(&skills.VMFConfig{In: n, Dim: c.Dim, Kappa: c.Kappa, Optim: opt}, ag.rng)
 	case Categorical:
-		// Small random logits so that skills are not all alike at the start.
-		for i := range ag.param {
-			ag.param[i] = 0.01 * ag.rng.NormFloat64()
-		}
+		ag.disc, err = skills.NewSoftmax(&skills.SoftmaxConfig{In: n, K: c.Dim, Optim: opt}, ag.rng)
+	case Random:
+		ag.fixed, err = sf.NewRandom(n, c.Dim, true, ag.rng)
 	case Given:
-		for s := range n {
-			c.Features.Features(ag.param[s*d:(s+1)*d], s, 0, s)
+		rows := make([][]float64, n)
+		for s := range rows {
+			rows[s] = make([]float64, c.Dim)
+			c.Features.Features(rows[s], s, 0, s)
 		}
-		for i, v := range ag.param {
-			if math.IsNaN(v) || math.IsInf(v, 0) {
-				return nil, fmt.Errorf("transfer: given feature %d of state %d is %v: %w", i%d, i/d, v, ErrConfig)
-			}
-		}
+		ag.fixed, err = sf.NewNextState(rows)
 	}
-	ag.k = c.Skills
+	if err != nil {
+		return nil, fmt.Errorf("transfer: %s features: %w: %w", c.Method, ErrConfig, err)
+	}
+	zdim := c.Dim
 	if c.Method == Categorical {
-		ag.k = d
-	}
-	ag.skills = make([]float64, ag.k*d)
-	for k := range ag.k {
-		if c.Method == Categorical {
-			ag.skills[k*d+k] = 1
-		} else {
-			sampleSphere(ag.skills[k*d:(k+1)*d], ag.rng)
+		ag.prior = skills.Categorical{K: c.Dim}
+		ag.k = c.Dim
+		for k := range ag.k {
+			z := make([]float64, zdim)
+			z[k] = 1 // the prior's support, e_k, in order
+			ag.zs = append(ag.zs, z)
+		}
+	} else {
+		ag.prior = skills.UniformSphere{D: c.Dim}
+		ag.k = c.Skills
+		for range ag.k {
+			z := make([]float64, zdim)
+			ag.prior.Sample(z, ag.rng)
+			ag.zs = append(ag.zs, z)
 		}
 	}
-	ag.usf = make([]float64, ag.k*n*na*d)
-	ag.q = make([]float64, ag.k*n*na)
-	ag.setConstants()
-	for s := range n {
-		ag.refreshPhi(s)
+	if err := ag.init(n, na, c.Replay, nil, nil); err != nil {
+		return nil, err
 	}
-	ag.replay = newReplay(c.Replay)
+	ag.counts = map[uint64]int64{}
 	ag.nextProgress = c.ProgressEvery
 	if c.CheckpointEvery > 0 {
 		ag.nextCheckpoint = c.CheckpointEvery
@@ -281,46 +271,128 @@ func newAgent(n, na int, c PretrainConfig) (*Agent, error) {
 	return ag, nil
 }
 
-func (ag *Agent) alloc() { ag.target = make([]float64, ag.d) }
-
-func (ag *Agent) setConstants() {
-	if ag.cfg.Method == VMF {
-		ag.logC = skills.VMFLogNorm(ag.d, ag.cfg.Kappa)
+// init sets the feature dimension and builds the USF over the task vectors
+// of ag.zs (or takes tab), the replay (or takes buf) and the scratch.
+func (ag *Agent) init(n, na, capacity int, tab *usf.Tabular, buf *usf.Replay) error {
+	if ag.disc != nil {
+		ag.d = ag.disc.FeatureDim()
+	} else {
+		ag.d = ag.fixed.Dim()
 	}
-	ag.logArea = skills.LogSphereArea(ag.d)
-}
-
-// refreshPhi recomputes the cached phi(s) from the parameters.
-func (ag *Agent) refreshPhi(s int) {
 	d := ag.d
-	p := ag.param[s*d : (s+1)*d]
-	out := ag.phi[s*d : (s+1)*d]
-	switch ag.cfg.Method {
-	case VMF:
-		nrm := math.Sqrt(dot(p, p))
-		for i, v := range p {
-			out[i] = v / nrm
+	if tab == nil {
+		ws := make([][]float64, ag.k)
+		for k, z := range ag.zs {
+			ws[k] = make([]float64, d)
+			ag.taskVector(ws[k], z)
 		}
-	case Categorical:
-		logSoftmax(out, p)
-	default:
-		copy(out, p)
+		var err error
+		tab, err = usf.NewTabular(n, na, ws, ag.cfg.Gamma, &usf.TabularConfig{Step: sf.StepSize{Alpha: ag.cfg.LearnRate}})
+		if err != nil {
+			return fmt.Errorf("transfer: %w: %w", ErrConfig, err)
+		}
+	}
+	ag.usf = tab
+	if buf == nil {
+		var err error
+		buf, err = usf.NewReplay(capacity, 0, d)
+		if err != nil {
+			return fmt.Errorf("transfer: %w: %w", ErrConfig, err)
+		}
+	}
+	ag.buf = buf
+	b := ag.cfg.Batch
+	ag.smp = usf.NewBatch(b, 0, d)
+	ag.tds = make([]*sf.TD, ag.k)
+	ag.index = make(map[uint64]int, ag.k)
+	for k, w := range tab.Z {
+		td, err := sf.NewTD(tab.Tables[k], dimOnly(d), ag.cfg.Gamma, &sf.TDSettings{Target: sf.Sampled, Step: sf.StepSize{Alpha: ag.cfg.LearnRate}})
+		if err != nil {
+			return fmt.Errorf("transfer: %w: %w", ErrConfig, err)
+		}
+		ag.tds[k] = td
+		if _, dup := ag.index[hashVec(w)]; !dup {
+			ag.index[hashVec(w)] = k
+		}
+	}
+	ag.rowBuf = make([]float64, d)
+	ag.q = make([]float64, ag.k*n*na)
+	for k, w := range tab.Z {
+		t := tab.Tables[k]
+		for s := range n {
+			for a := range na {
+				ag.q[(k*n+s)*na+a] = dot(t.Row(s, a), w)
+			}
+		}
+	}
+	ag.x = make([]float64, b*n)
+	ag.z = make([]float64, b*len(ag.zs[0]))
+	ag.obs = make([]float64, n)
+	ag.phiBuf = make([]float64, d)
+	ag.tr = usf.Transition{Phi: make([]float64, d), Z: make([]float64, d), NextA: -1}
+	ag.skillK = make([]int, b)
+	ag.tabulatePhi()
+	return nil
+}
+
+// hashVec returns an FNV-1a hash of the bits of v.
+func hashVec(v []float64) uint64 {
+	h := uint64(14695981039346656037)
+	for _, x := range v {
+		h ^= math.Float64bits(x)
+		h *= 1099511628211
+	}
+	return h
+}
+
+// skillOf returns the index of the skill whose task vector equals w
+// exactly, or -1: a hash lookup, checked, with usf.Tabular.Index as the
+// fallback (duplicate skills).
+func (ag *Agent) skillOf(w []float64) int {
+	if k, ok := ag.index[hashVec(w)]; ok && slices.Equal(ag.usf.Z[k], w) {
+		return k
+	}
+	return ag.usf.Index(w)
+}
+
+// taskVector writes the task vector of skill vector z.
+func (ag *Agent) taskVector(dst, z []float64) {
+	if ag.disc != nil {
+		ag.disc.TaskVector(dst, z)
+		return
+	}
+	copy(dst, z)
+}
+
+// features writes phi(s) from the live discriminator or the fixed rows.
+// Not safe for concurrent use.
+func (ag *Agent) features(dst []float64, s int) {
+	if ag.disc == nil {
+		copy(dst, ag.fixed.Row(s))
+		return
+	}
+	ag.obs[s] = 1
+	ag.disc.Features(dst, ag.obs)
+	ag.obs[s] = 0
+}
+
+// tabulatePhi fills phiTab from the current features.
+func (ag *Agent) tabulatePhi() {
+	if len(ag.phiTab) != ag.n*ag.d {
+		ag.phiTab = make([]float64, ag.n*ag.d)
+	}
+	for s := range ag.n {
+		ag.features(ag.phiTab[s*ag.d:(s+1)*ag.d], s)
 	}
 }
 
-func logSoftmax(dst, logits []float64) {
-	m := math.Inf(-1)
-	for _, v := range logits {
-		m = max(m, v)
+// modelKey packs a transition (s, a, s', terminal) into a map key.
+func (ag *Agent) modelKey(s, a, next int, term bool) uint64 {
+	k := (uint64(s*ag.a+a)*uint64(ag.n) + uint64(next)) << 1
+	if term {
+		k |= 1
 	}
-	var s float64
-	for _, v := range logits {
-		s += math.Exp(v - m)
-	}
-	lse := m + math.Log(s)
-	for i, v := range logits {
-		dst[i] = v - lse
-	}
+	return k
 }
 
 // Stream identifiers of the generators derived from one seed.

@@ -74,28 +74,40 @@ func QLearning(env Env, r mdp.Reward, budgets []int, cfg BaselineConfig, seed ui
 }
 
 // SFQLearning runs SF Q-learning from scratch with the given features phi
-// (Barreto et al. 2017, section 5, with a single task): the task vector w is
-// re-fitted by ridge regression (lambda 1e-6) of the rewards seen so far on
-// phi(s, a, s') after every transition, the agent acts epsilon-greedily on
-// psi(s, a) . w, and psi learns by TD towards phi + gamma psi(s', a*) with
-// a* greedy in psi(s', .) . w. It returns the greedy policy after each
-// budget (ascending).
+// (Barreto et al. 2017, section 5, with a single task), composed of the sf
+// package's pieces: the task vector w is re-fitted after every transition
+// by recursive least squares (sf.TaskEstimator, ridge lambda 1e-6, the
+// exact ridge solution of the rewards seen so far), the agent acts
+// epsilon-greedily on psi(s, a) . w (an sf.Table), and psi learns by
+// sf.TD with the Greedy target for the current w (phi + gamma psi(s', a*),
+// a* greedy in psi(s', .) . w, ties to the lowest action) and the constant
+// step cfg.Alpha. It returns the greedy policy after each budget
+// (ascending).
 func SFQLearning(env Env, phi sf.FeatureMap, r mdp.Reward, budgets []int, cfg BaselineConfig, seed uint64) ([]mdp.Deterministic, error) {
 	c, err := cfg.withDefaults()
 	if err != nil {
 		return nil, err
 	}
 	n, na, d := env.NumStates(), env.NumActions(), phi.Dim()
-	psi := make([]float64, n*na*d)
+	tab, err := sf.NewTable(n, na, d)
+	if err != nil {
+		return nil, fmt.Errorf("transfer: sf q-learning: %w", err)
+	}
 	w := make([]float64, d)
-	xtx := make([]float64, d*d)
-	xty := make([]float64, d)
+	td, err := sf.NewTD(tab, phi, c.Gamma, &sf.TDSettings{Target: sf.Greedy, Task: w, Step: sf.StepSize{Alpha: c.Alpha}})
+	if err != nil {
+		return nil, fmt.Errorf("transfer: sf q-learning: %w", err)
+	}
+	est, err := sf.NewTaskEstimator(d, 1e-6, nil)
+	if err != nil {
+		return nil, fmt.Errorf("transfer: sf q-learning: %w", err)
+	}
 	f := make([]float64, d)
 	q := make([]float64, na)
 	rng := rand.New(rand.NewPCG(seed, streamBaseline))
 	qs := func(s int) []float64 {
 		for a := range na {
-			q[a] = dot(psi[(s*na+a)*d:(s*na+a+1)*d], w)
+			q[a] = tab.Q(s, a, w)
 		}
 		return q
 	}
@@ -104,31 +116,17 @@ func SFQLearning(env Env, phi sf.FeatureMap, r mdp.Reward, budgets []int, cfg Ba
 		return argmaxRand(qs(s), rng)
 	}, func(s, a, next int, term bool) error {
 		phi.Features(f, s, a, next)
-		rew := r(s, a, next)
-		for i := range d {
-			xty[i] += f[i] * rew
-			for j := range d {
-				xtx[i*d+j] += f[i] * f[j]
-			}
-		}
-		if err := ridgeSolve(w, xtx, xty, 1e-6); err != nil {
+		if err := est.Observe(f, r(s, a, next)); err != nil {
 			return fmt.Errorf("transfer: sf q-learning: %w", err)
 		}
-		row := psi[(s*na+a)*d : (s*na+a+1)*d]
-		var nb []float64
-		if !term {
-			b := argmaxRand(qs(next), nil)
-			nb = psi[(next*na+b)*d : (next*na+b+1)*d]
+		if err := est.Task(w); err != nil {
+			return fmt.Errorf("transfer: sf q-learning: %w", err)
 		}
-		for i := range d {
-			t := f[i]
-			if nb != nil {
-				t += c.Gamma * nb[i]
-			}
-			row[i] += c.Alpha * (t - row[i])
-			if math.IsNaN(row[i]) || math.IsInf(row[i], 0) {
-				return fmt.Errorf("transfer: sf q-learning: %w", ErrDiverged)
-			}
+		if err := td.SetTask(w); err != nil {
+			return fmt.Errorf("transfer: sf q-learning: %w", err)
+		}
+		if err := td.Update(s, a, next, term, -1); err != nil {
+			return fmt.Errorf("transfer: sf q-learning: %w: %w", ErrDiverged, err)
 		}
 		return nil
 	}, func() {
@@ -158,9 +156,16 @@ func runEpisodes(env Env, budgets []int, c BaselineConfig, rng *rand.Rand,
 		snap()
 		bi++
 	}
-	steps := 0
+	steps, empty := 0, 0
 	for steps < total {
 		s := env.Reset(rng)
+		if startDone(env) {
+			if empty++; empty >= maxEmpty {
+				return fmt.Errorf("transfer: baseline: %d episodes in a row start at a terminal state: %w", empty, ErrConfig)
+			}
+			continue
+		}
+		empty = 0
 		for t := 0; t < c.EpisodeSteps && steps < total; t++ {
 			var a int
 			if rng.Float64() < c.Epsilon {
@@ -210,46 +215,4 @@ func maxOf(q []float64) float64 {
 		m = max(m, v)
 	}
 	return m
-}
-
-// ridgeSolve solves (A + lambda I) x = b for a symmetric positive
-// semi-definite d x d matrix A (row-major) by Cholesky factorisation in
-// place of a copy.
-func ridgeSolve(x, a, b []float64, lambda float64) error {
-	d := len(b)
-	l := make([]float64, d*d)
-	for i := range d {
-		for j := 0; j <= i; j++ {
-			s := a[i*d+j]
-			if i == j {
-				s += lambda
-			}
-			for k := range j {
-				s -= l[i*d+k] * l[j*d+k]
-			}
-			if i == j {
-				if s <= 0 {
-					return fmt.Errorf("ridge system not positive definite: %w", ErrDiverged)
-				}
-				l[i*d+i] = math.Sqrt(s)
-			} else {
-				l[i*d+j] = s / l[j*d+j]
-			}
-		}
-	}
-	for i := range d {
-		s := b[i]
-		for k := range i {
-			s -= l[i*d+k] * x[k]
-		}
-		x[i] = s / l[i*d+i]
-	}
-	for i := d - 1; i >= 0; i-- {
-		s := x[i]
-		for k := i + 1; k < d; k++ {
-			s -= l[k*d+i] * x[k]
-		}
-		x[i] = s / l[i*d+i]
-	}
-	return nil
 }

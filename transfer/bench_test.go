@@ -8,7 +8,7 @@ import (
 
 // depotAgent returns a VMF agent on the demo depot, trained for a few
 // steps so that its replay buffer is not empty.
-func depotAgent(tb testing.TB, d, k int) (*Agent, *FiniteEnv) {
+func depotAgent(tb testing.TB, d, k int) (*Agent, *mdp.Sampler) {
 	tb.Helper()
 	g, err := mdp.Depot()
 	if err != nil {
@@ -18,7 +18,7 @@ func depotAgent(tb testing.TB, d, k int) (*Agent, *FiniteEnv) {
 	if err != nil {
 		tb.Fatal(err)
 	}
-	env := NewFiniteEnv(explore, 0)
+	env := mdp.NewSampler(explore, 0)
 	ag, err := Pretrain(env, PretrainConfig{Dim: d, Skills: k, Kappa: 10, Gamma: 0.99, Steps: 2000, EpisodeSteps: 50, Seed: 1})
 	if err != nil {
 		tb.Fatal(err)
@@ -70,7 +70,7 @@ func BenchmarkPretrain(b *testing.B) {
 	const steps = 20000
 	b.ReportAllocs()
 	for b.Loop() {
-		_, err := Pretrain(NewFiniteEnv(explore, 0), PretrainConfig{Dim: 64, Skills: 128, Kappa: 10, Gamma: 0.99, Steps: steps, EpisodeSteps: 50, Seed: 1})
+		_, err := Pretrain(mdp.NewSampler(explore, 0), PretrainConfig{Dim: 64, Skills: 128, Kappa: 10, Gamma: 0.99, Steps: steps, EpisodeSteps: 50, Seed: 1})
 		if err != nil {
 			b.Fatal(err)
 		}
@@ -79,7 +79,9 @@ func BenchmarkPretrain(b *testing.B) {
 }
 
 // BenchmarkAdapt is task inference from 1000 labelled transitions plus the
-// GPI policy with the fitted psi(., ., w) and 8 skills, on the depot.
+// acting policy on the depot: GPI over the USFs of the 8 nearest skills
+// (fit=none, the default), and the same with the model-based candidate
+// (fit=model, value iteration on the reward-free transitions).
 func BenchmarkAdapt(b *testing.B) {
 	ag, env := depotAgent(b, 64, 128)
 	g, _ := mdp.Depot()
@@ -89,10 +91,14 @@ func BenchmarkAdapt(b *testing.B) {
 	if err != nil {
 		b.Fatal(err)
 	}
-	b.ReportAllocs()
-	for b.Loop() {
-		if _, err := Adapt(ag, lab, AdaptConfig{}); err != nil {
-			b.Fatal(err)
-		}
+	for _, fit := range []FitMode{FitNone, FitModel} {
+		b.Run("fit="+fit.String(), func(b *testing.B) {
+			b.ReportAllocs()
+			for b.Loop() {
+				if _, err := Adapt(ag, lab, AdaptConfig{Fit: fit}); err != nil {
+					b.Fatal(err)
+				}
+			}
+		})
 	}
 }

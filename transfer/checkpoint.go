@@ -2,6 +2,7 @@ package transfer
 
 import (
 	"bytes"
+	"encoding"
 	"encoding/binary"
 	"fmt"
 	"hash/crc32"
@@ -9,6 +10,12 @@ import (
 	"math"
 	"math/rand/v2"
 	"os"
+	"slices"
+
+	"github.com/successor-go/successor/internal/fileio"
+	"github.com/successor-go/successor/sf"
+	"github.com/successor-go/successor/skills"
+	"github.com/successor-go/successor/usf"
 )
 
 // Checkpoint file format (our own, little-endian):
@@ -16,13 +23,18 @@ import (
 //	magic    8 bytes  "SFXFER\x00\x01"
 //	version  uint32   checkpointVersion
 //	length   uint64   payload length in bytes
-//	payload  length bytes (see encode)
+//	payload  length bytes (see marshal)
 //	crc      uint32   CRC-32 (Castagnoli) of everything before it
 //
-// The payload holds the configuration, the discriminator's parameters, the
-// universal SFs, the replay buffer, the PCG state (its MarshalBinary form)
-// and the counters, so a loaded agent continues bit-identically.
-const checkpointVersion = 1
+// The payload holds, as little-endian 8-byte integers and floats and
+// length-prefixed byte strings: the configuration; the sizes; the
+// discriminator in skills.Marshal form (VMF, Categorical) or the fixed
+// feature rows (Random, Given); the skill vectors; usf.Tabular and
+// usf.Replay in their MarshalBinary forms (each with its own checksum);
+// the PCG state (its MarshalBinary form); the counts of the empirical
+// model in increasing key order; and the counters, so a loaded agent
+// continues bit-identically.
+const checkpointVersion = 2
 
 var checkpointMagic = [8]byte{'S', 'F', 'X', 'F', 'E', 'R', 0, 1}
 
@@ -32,7 +44,7 @@ var crcTable = crc32.MakeTable(crc32.Castagnoli)
 // a temporary file in the same folder is written, synced and renamed over
 // path, so a crash leaves either the old file or the new one.
 func (ag *Agent) Save(path string) error {
-	if err := writeAtomic(path, ag.marshal()); err != nil {
+	if err := fileio.WriteAtomic(path, ag.marshal(), 0o600); err != nil {
 		return fmt.Errorf("transfer: save: %w", err)
 	}
 	return nil
@@ -78,32 +90,38 @@ func (ag *Agent) marshal() []byte {
 	e.i(int64(c.ProgressEvery))
 	e.i(int64(ag.n))
 	e.i(int64(ag.a))
-	e.i(int64(ag.d))
 	e.i(int64(ag.k))
 	e.i(int64(c.Relabel))
-	e.fs(ag.param)
-	e.fs(ag.skills)
-	e.fs(ag.usf)
-	e.fs(ag.q)
-	st, err := ag.pcg.MarshalBinary()
-	if err != nil {
-		panic("transfer: pcg marshal: " + err.Error()) // cannot fail for *rand.PCG
-	}
-	e.bs(st)
-	rb := &ag.replay
-	e.i(int64(rb.cap))
-	e.i(int64(rb.pos))
-	e.i(int64(rb.count))
-	for i := range rb.count {
-		e.i(int64(rb.s[i]))
-		e.i(int64(rb.a[i]))
-		e.i(int64(rb.next[i]))
-		t := int64(0)
-		if rb.term[i] {
-			t = 1
+	// The discriminator (skills.Marshal) or the fixed feature rows.
+	if ag.disc != nil {
+		b, err := skills.Marshal(ag.disc)
+		if err != nil {
+			panic("transfer: discriminator marshal: " + err.Error()) // cannot fail for VMF and Softmax
 		}
-		e.i(t)
-		e.i(int64(rb.k[i]))
+		e.bs(b)
+		e.fs(nil)
+	} else {
+		e.bs(nil)
+		rows := make([]float64, 0, ag.n*ag.d)
+		for s := range ag.n {
+			rows = append(rows, ag.fixed.Row(s)...)
+		}
+		e.fs(rows)
+	}
+	zs := make([]float64, 0, ag.k*len(ag.zs[0]))
+	for _, z := range ag.zs {
+		zs = append(zs, z...)
+	}
+	e.i(int64(len(ag.zs[0])))
+	e.fs(zs)
+	e.bs(mustMarshal(ag.usf))
+	e.bs(mustMarshal(ag.buf))
+	e.bs(mustMarshal(ag.pcg))
+	keys := sortedKeys(ag.counts)
+	e.i(int64(len(keys)))
+	for _, k := range keys {
+		e.u(k)
+		e.i(ag.counts[k])
 	}
 	e.i(int64(ag.steps))
 	e.i(int64(ag.episodes))
@@ -123,6 +141,14 @@ func (ag *Agent) marshal() []byte {
 	out.Write(e.b)
 	binary.Write(&out, binary.LittleEndian, crc32.Checksum(out.Bytes(), crcTable))
 	return out.Bytes()
+}
+
+func mustMarshal(m encoding.BinaryMarshaler) []byte {
+	b, err := m.MarshalBinary()
+	if err != nil {
+		panic("transfer: marshal: " + err.Error()) // cannot fail for the library types
+	}
+	return b
 }
 
 // Unmarshal decodes a checkpoint produced by Save or WriteTo. Errors wrap
@@ -162,8 +188,7 @@ func Unmarshal(data []byte) (*Agent, error) {
 	c.Seed = d.u()
 	c.CheckpointEvery = int(d.i())
 	c.ProgressEvery = int(d.i())
-	ns, na, nd := int(d.i()), int(d.i()), int(d.i())
-	nk := int(d.i())
+	ns, na, nk := int(d.i()), int(d.i()), int(d.i())
 	c.Relabel = int(d.i())
 	c.Skills = nk
 	if d.err != nil {
@@ -173,56 +198,124 @@ func Unmarshal(data []byte) (*Agent, error) {
 		return fmt.Errorf("transfer: checkpoint: %s: %w", what, ErrCheckpoint)
 	}
 	if c.Method == Given {
-		// Given features live in the parameter table; a placeholder map
+		// Given features live in the saved rows; a placeholder map
 		// satisfies the configuration check.
-		c.Features = dimOnly(nd)
-	}
-	if err := c.validate(); err != nil || c.Steps < 0 || c.EpisodeSteps < 1 || c.Batch < 1 || c.Replay < 1 {
-		return nil, bad("invalid configuration")
-	}
-	if ns <= 0 || na <= 0 || nd != c.Dim || ns > len(data) || na > len(data) {
-		return nil, bad("invalid sizes")
+		c.Features = dimOnly(c.Dim)
 	}
 	if c.Method == Categorical {
 		c.Skills = 32 // not used by Categorical; any valid value
 	}
-	if nk < 1 || nk > len(data) || c.Method == Categorical && nk != nd {
-		return nil, bad("skill count")
+	if err := c.validate(); err != nil || c.Steps < 0 || c.EpisodeSteps < 1 || c.Batch < 1 || c.Replay < 1 {
+		return nil, bad("invalid configuration")
 	}
-	param := d.fs()
-	skills := d.fs()
-	usf := d.fs()
-	q := d.fs()
-	st := d.bs()
+	if ns <= 0 || na <= 0 || ns > len(data) || na > len(data) || nk < 1 || nk > len(data) || c.Method == Categorical && nk != c.Dim {
+		return nil, bad("invalid sizes")
+	}
+	if c.Method == Given {
+		c.Features = nil
+	}
+	ag := &Agent{cfg: c, n: ns, a: na, k: nk}
+	discBytes := d.bs()
+	rows := d.fs()
+	zdim := int(d.i())
+	zs := d.fs()
+	tabBytes := d.bs()
+	bufBytes := d.bs()
+	pcgBytes := d.bs()
 	if d.err != nil {
 		return nil, d.err
 	}
-	if len(param) != ns*nd || len(skills) != nk*nd || len(usf) != nk*ns*na*nd || len(q) != nk*ns*na {
-		return nil, bad("table sizes")
+	switch c.Method {
+	case VMF, Categorical:
+		disc, err := skills.Unmarshal(discBytes)
+		if err != nil {
+			return nil, fmt.Errorf("transfer: checkpoint: discriminator: %w: %w", ErrCheckpoint, err)
+		}
+		_, isVMF := disc.(*skills.VMF)
+		if isVMF != (c.Method == VMF) || disc.InDim() != ns || disc.ZDim() != c.Dim || len(rows) != 0 {
+			return nil, bad("discriminator does not match the configuration")
+		}
+		ag.disc = disc
+	default:
+		if len(discBytes) != 0 || len(rows) != ns*c.Dim {
+			return nil, bad("feature table sizes")
+		}
+		rr := make([][]float64, ns)
+		for s := range rr {
+			rr[s] = rows[s*c.Dim : (s+1)*c.Dim]
+		}
+		f, err := sf.NewNextState(rr)
+		if err != nil {
+			return nil, fmt.Errorf("transfer: checkpoint: features: %w: %w", ErrCheckpoint, err)
+		}
+		ag.fixed = f
 	}
-	ag := &Agent{cfg: c, n: ns, a: na, d: nd, k: nk, param: param, skills: skills, usf: usf, q: q}
-	ag.phi = make([]float64, ns*nd)
+	if zdim != c.Dim || len(zs) != nk*zdim {
+		return nil, bad("skill sizes")
+	}
+	for k := range nk {
+		z := zs[k*zdim : (k+1)*zdim : (k+1)*zdim]
+		for _, v := range z {
+			if math.IsNaN(v) || math.IsInf(v, 0) {
+				return nil, bad("non-finite skill")
+			}
+		}
+		ag.zs = append(ag.zs, z)
+	}
+	if c.Method == Categorical {
+		ag.prior = skills.Categorical{K: c.Dim}
+	} else {
+		ag.prior = skills.UniformSphere{D: c.Dim}
+	}
+	tab := new(usf.Tabular)
+	if err := tab.UnmarshalBinary(tabBytes); err != nil {
+		return nil, fmt.Errorf("transfer: checkpoint: successor features: %w: %w", ErrCheckpoint, err)
+	}
+	buf := new(usf.Replay)
+	if err := buf.UnmarshalBinary(bufBytes); err != nil {
+		return nil, fmt.Errorf("transfer: checkpoint: replay: %w: %w", ErrCheckpoint, err)
+	}
 	ag.pcg = new(rand.PCG)
-	if err := ag.pcg.UnmarshalBinary(st); err != nil {
+	if err := ag.pcg.UnmarshalBinary(pcgBytes); err != nil {
 		return nil, bad("random state")
 	}
 	ag.rng = rand.New(ag.pcg)
-	rcap, pos, count := int(d.i()), int(d.i()), int(d.i())
+	fd := c.Dim
+	if ag.disc != nil {
+		fd = ag.disc.FeatureDim()
+	}
+	if ts, ta, td := tab.Shape(); ts != ns || ta != na || td != fd || len(tab.Z) != nk {
+		return nil, bad("successor feature sizes")
+	}
+	w := make([]float64, fd)
+	for k, z := range ag.zs {
+		ag.taskVector(w, z)
+		if !slices.Equal(w, tab.Z[k]) {
+			return nil, bad("successor features of another skill set")
+		}
+	}
+	if bo, bd := buf.Shape(); bo != 0 || bd != fd || buf.Cap() != c.Replay {
+		return nil, bad("replay sizes")
+	}
+	nc := d.i()
 	if d.err != nil {
 		return nil, d.err
 	}
-	if rcap != c.Replay || count < 0 || count > rcap || pos < 0 || pos >= rcap || count < rcap && pos != count || count*5*8 > d.left() {
-		return nil, bad("replay sizes")
+	if nc < 0 || nc > int64(d.left()/16) {
+		return nil, bad("model size")
 	}
-	ag.replay = newReplay(rcap)
-	rb := &ag.replay
-	rb.pos, rb.count = pos, count
-	for i := range count {
-		s, a, nx, t, k := d.i(), d.i(), d.i(), d.i(), d.i()
-		if s < 0 || s >= int64(ns) || a < 0 || a >= int64(na) || nx < 0 || nx >= int64(ns) || t < 0 || t > 1 || k < 0 || k >= int64(nk) {
-			return nil, bad("replay entry")
+	ag.counts = make(map[uint64]int64, nc)
+	var prev uint64
+	for i := range nc {
+		key, cnt := d.u(), d.i()
+		if d.err != nil {
+			return nil, d.err
 		}
-		rb.s[i], rb.a[i], rb.next[i], rb.term[i], rb.k[i] = int32(s), int32(a), int32(nx), t == 1, int32(k)
+		if i > 0 && key <= prev || key>>1 >= uint64(ns*na*ns) || cnt < 1 {
+			return nil, bad("model entry")
+		}
+		prev = key
+		ag.counts[key] = cnt
 	}
 	ag.steps = int(d.i())
 	ag.episodes = int(d.i())
@@ -240,45 +333,15 @@ func Unmarshal(data []byte) (*Agent, error) {
 	if d.left() != 0 {
 		return nil, bad("trailing bytes")
 	}
-	if ag.steps < 0 || ag.episodes < 0 {
+	if ag.steps < 0 || ag.episodes < 0 || buf.Len() > ag.steps {
 		return nil, bad("counters")
 	}
-	for _, v := range param {
-		if math.IsNaN(v) || math.IsInf(v, 0) {
-			return nil, bad("non-finite parameter")
-		}
+	if buf.Len() == 0 && ag.steps > 0 {
+		return nil, bad("empty replay")
 	}
-	for _, v := range usf {
-		if math.IsNaN(v) || math.IsInf(v, 0) {
-			return nil, bad("non-finite successor feature")
-		}
+	if err := ag.init(ns, na, c.Replay, tab, buf); err != nil {
+		return nil, fmt.Errorf("transfer: checkpoint: %w: %w", ErrCheckpoint, err)
 	}
-	for _, v := range q {
-		if math.IsNaN(v) || math.IsInf(v, 0) {
-			return nil, bad("non-finite value")
-		}
-	}
-	if c.Method == Given {
-		ag.cfg.Features = nil
-	}
-	for _, v := range skills {
-		if math.IsNaN(v) || math.IsInf(v, 0) {
-			return nil, bad("non-finite skill")
-		}
-	}
-	ag.setConstants()
-	if c.Method == VMF {
-		for s := range ns {
-			p := param[s*nd : (s+1)*nd]
-			if dot(p, p) == 0 {
-				return nil, bad("zero discriminator row")
-			}
-		}
-	}
-	for s := range ns {
-		ag.refreshPhi(s)
-	}
-	ag.alloc()
 	return ag, nil
 }
 

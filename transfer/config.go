@@ -84,7 +84,9 @@ func (m *Method) UnmarshalText(b []byte) error {
 	return nil
 }
 
-// MaxReplay is the largest replay capacity (about 300 MB of transitions).
+// MaxReplay is the largest replay capacity. A usf.Replay keeps the
+// features and the task vector of every transition, about (2d + 5) x 8
+// bytes each.
 const MaxReplay = 1 << 24
 
 // PretrainConfig configures the reward-free phase. The zero value means the
@@ -92,8 +94,10 @@ const MaxReplay = 1 << 24
 type PretrainConfig struct {
 	// Method selects the features; the zero value is VMF.
 	Method Method
-	// Dim is the feature dimension d (for Categorical, the number of skills
-	// K). 0 means 8. Ignored by Given, whose dimension is Features.Dim().
+	// Dim is the feature dimension d of the sphere methods; for
+	// Categorical, the number of skills K (the features then have K+1
+	// entries). 0 means 8. Ignored by Given, whose dimension is
+	// Features.Dim().
 	Dim int
 	// Kappa is the von Mises-Fisher concentration of the discriminator.
 	// 0 means 5.
@@ -130,7 +134,8 @@ type PretrainConfig struct {
 	Replay int
 	// LearnRate is the TD step size of the successor features. 0 means 0.2.
 	LearnRate float64
-	// DiscRate is the step size of the discriminator. 0 means 0.5.
+	// DiscRate is the Adam step size of the discriminator (skills.Optim
+	// LearnRate). 0 means 0.03.
 	DiscRate float64
 	// Seed determines the run: every random choice comes from it.
 	Seed uint64
@@ -197,7 +202,7 @@ func (cfg PretrainConfig) withDefaults() (PretrainConfig, error) {
 	setI(&c.Batch, 16)
 	setI(&c.Replay, 50000)
 	setF(&c.LearnRate, 0.2)
-	setF(&c.DiscRate, 0.5)
+	setF(&c.DiscRate, 0.03)
 	if c.ProgressEvery == 0 {
 		c.ProgressEvery = max(c.Steps/100, 1)
 	}
@@ -246,6 +251,48 @@ const (
 	ExploreGreedy
 )
 
+// FitMode selects how the acting policy evaluates the inferred task w.
+type FitMode int
+
+const (
+	// FitNone is the pure successor-feature method: GPI over the
+	// universal SFs tabulated at the skill set, Q_k(s, a) = psi(s, a, z_k)
+	// . w for the skills z_k nearest to w. The zero value.
+	FitNone FitMode = iota
+	// FitModel adds a model-based candidate: Q(., ., w) fitted by value
+	// iteration on the empirical transition model of every reward-free
+	// transition with the inferred reward phi(s') . w. This is
+	// model-based evaluation of the inferred task on the empirical model of
+	// the reward-free data, not successor-feature transfer: no reward label
+	// and no environment step are used, but the result measures the model
+	// fit as much as the successor features.
+	FitModel
+)
+
+var fitNames = [...]string{"none", "model"}
+
+// String returns "none" or "model".
+func (f FitMode) String() string {
+	if f < 0 || int(f) >= len(fitNames) {
+		return fmt.Sprintf("FitMode(%d)", int(f))
+	}
+	return fitNames[f]
+}
+
+// MarshalText implements encoding.TextMarshaler (used by results.json).
+func (f FitMode) MarshalText() ([]byte, error) { return []byte(f.String()), nil }
+
+// UnmarshalText implements encoding.TextUnmarshaler.
+func (f *FitMode) UnmarshalText(b []byte) error {
+	for i, n := range fitNames {
+		if strings.EqualFold(strings.TrimSpace(string(b)), n) {
+			*f = FitMode(i)
+			return nil
+		}
+	}
+	return fmt.Errorf("transfer: unknown fit %q (want none or model): %w", b, ErrConfig)
+}
+
 // AdaptConfig configures task inference and the acting policy. The zero
 // value means the documented defaults.
 type AdaptConfig struct {
@@ -253,15 +300,20 @@ type AdaptConfig struct {
 	// by leave-one-state-out cross-validation over RidgeGrid (InferTaskCV);
 	// a negative value means plain least squares (lambda = 0).
 	Ridge float64
-	// Candidates is the number N of skills, the most similar to w, that
-	// join w in the GPI candidate set. 0 means 8; a negative value means 0,
-	// which switches GPI off (the policy greedy in psi(s, ., w) . w).
+	// Candidates is the number N of skills, the most similar to w by
+	// cosine, whose successor features form the GPI candidate set. 0 means
+	// 8; a negative value switches GPI off: the policy is greedy in
+	// psi(s, ., z) . w for the single skill z nearest to w (with
+	// FitModel, greedy in the fitted Q(., ., w) alone).
 	Candidates int
-	// Fit is the largest number of value-iteration sweeps that fit
-	// Q(., ., w) on the replay buffer (see Adapt). 0 means 2000; a negative
-	// value means no fit: the candidate set is then the Candidates + 1
-	// skills most similar to w.
-	Fit int
+	// Fit selects whether a model-based candidate joins the GPI set. The
+	// zero value FitNone is the pure successor-feature method; FitModel
+	// adds Q(., ., w) fitted by value iteration on the empirical model of
+	// the reward-free transitions (see FitModel).
+	Fit FitMode
+	// FitSweeps is the largest number of value-iteration sweeps of
+	// FitModel. 0 means 2000. Ignored with FitNone.
+	FitSweeps int
 	// Explore is the rule that collects labelled transitions.
 	Explore Explore
 	// Epsilon is the random-action rate while collecting with
@@ -289,10 +341,7 @@ func (cfg AdaptConfig) withDefaults() (AdaptConfig, error) {
 	if c.Candidates < 0 {
 		c.Candidates = 0
 	}
-	setI(&c.Fit, 2000)
-	if c.Fit < 0 {
-		c.Fit = 0
-	}
+	setI(&c.FitSweeps, 2000)
 	setF(&c.Epsilon, 0.2)
 	if c.Epsilon < 0 {
 		c.Epsilon = 0
@@ -311,6 +360,10 @@ func (cfg AdaptConfig) withDefaults() (AdaptConfig, error) {
 		return c, fmt.Errorf("transfer: epsilon %v: %w", c.Epsilon, ErrConfig)
 	case c.EpisodeSteps < 0:
 		return c, fmt.Errorf("transfer: episode steps %d: %w", c.EpisodeSteps, ErrConfig)
+	case c.Fit < FitNone || c.Fit > FitModel:
+		return c, fmt.Errorf("transfer: fit %d: %w", int(c.Fit), ErrConfig)
+	case c.FitSweeps < 1:
+		return c, fmt.Errorf("transfer: fit sweeps %d: %w", c.FitSweeps, ErrConfig)
 	case c.Explore < ExploreSkills || c.Explore > ExploreGreedy:
 		return c, fmt.Errorf("transfer: explore rule %d: %w", int(c.Explore), ErrConfig)
 	}

@@ -27,22 +27,35 @@
 //	a* = argmax_a psi(s', a, z) . z.
 //
 // Method selects the feature source: VMF (above), Categorical (one-hot z,
-// phi = log softmax of the logits, Eysenbach et al. 2019), Random (fixed
-// random unit vectors, no mutual-information term) and Given (features
-// handed in, e.g. place labels: the upper reference).
+// skills.Softmax: phi = (log q(. | s), log K) and w = (z, 1), so that
+// phi(s') . w = log q(z | s') - log p(z), Eysenbach et al. 2019), Random
+// (fixed random unit vectors, sf.NewRandom; no mutual-information term)
+// and Given (features handed in, e.g. place labels: the upper reference).
 //
-// # Representation
+// # Composition and representation
 //
-// Observations are one-hot states, so the discriminator is a table f(s) and
-// the universal SFs are tabulated over a finite skill set z_1..z_K drawn
-// once uniformly on the unit sphere (for Categorical, the K one-hot vectors):
-// one table psi(s, a, z_k) per skill. Every replayed transition updates the
-// acting skill's table and Relabel more skills drawn at random (off-policy
-// relabelling: phi(s') . z_k is known for every k). We first tried the
-// linear approximator psi(s, a, z) = M_{s,a} z (+ b_{s,a}) over the joint
-// feature x(s) outer z; on the depot it could not represent the policies of
-// distant skills (it failed even with the given place features), so the
-// tabular form is used.
+// The job is assembled from the library's pieces. The environment is an
+// Env such as *mdp.Sampler (termination and truncation kept apart). The
+// skill set z_1..z_K is drawn once from the prior, skills.UniformSphere
+// (for Categorical, the K one-hot vectors of skills.Categorical's support);
+// every episode acts with one of them, uniformly. Observations are one-hot
+// states, and the discriminators are skills.NewVMF and skills.NewSoftmax
+// with the linear map f(x) = x W + b, which on a one-hot x is a table
+// plus a shared bias; each environment step takes one skills Update (an Adam
+// step, Kingma & Ba 2015) on a minibatch of (s', z) drawn from a
+// usf.Replay of the reward-free transitions. The universal SFs are a
+// usf.Tabular over the task vectors w_k = TaskVector(z_k): one sf.Table per
+// skill, updated by usf's online TD(0) with the greedy target of each
+// skill's own task. Every replayed transition updates the acting skill's
+// table and Relabel more skills drawn at random (off-policy relabelling:
+// phi(s') . w_k is known for every k), always with the current phi (the
+// features stored in the replay are not used by the learned methods). GPI
+// reads the skills' sf.Tables as gpi sources.
+//
+// We first tried the linear approximator psi(s, a, z) = M_{s,a} z
+// (+ b_{s,a}) over the joint feature x(s) outer z (usf.Linear); on the depot
+// it could not represent the policies of distant skills (it failed even
+// with the given place features), so the tabular form is used.
 //
 // # Task inference and acting
 //
@@ -58,18 +71,27 @@
 // cross-validation on the labelled transitions, in closed form; with 64
 // learned features a nearly unregularised fit extrapolated wildly to places
 // the labelled steps never reached, and the agent went there.
-// Adapt then acts by GPI (Barreto et al. 2017):
+// Adapt then acts by GPI (Barreto et al. 2017) over the universal SFs
+// tabulated at the skill set, the successor-feature method proper:
 //
 //	pi(s) = argmax_a max_{z in C} psi(s, a, z) . w,
 //
-// with C = {w} plus the N skills most similar to w; N = 0 switches GPI off.
-// The tables hold psi only at the skills, so psi(., ., w) . w is fitted
-// from the agent's reward-free replay buffer: value iteration on the
-// empirical transition model of the buffer with the intrinsic reward
-// phi(s') . w (no environment step, no reward label; O(sweeps x stored
-// pairs x A)). We first fitted psi(., ., w) by TD on the buffer; at the
-// skills' horizon (gamma = 0.99) tens of thousands of updates left it far
-// from converged, so value iteration replaced it.
+// with C the AdaptConfig.Candidates skills nearest to w (cosine). GPI off
+// (a negative Candidates) acts greedily in psi(s, ., z) . w for the single
+// nearest skill z. This is the default (FitNone).
+//
+// AdaptConfig.Fit = FitModel is an explicitly separate option: model-based
+// evaluation of the inferred task on the empirical model of the reward-free
+// data. The tables hold psi only at the skills, so FitModel computes
+// Q(., ., w) by value iteration on the empirical transition model of the
+// counts of every reward-free transition the agent took, with the inferred
+// reward phi(s') . w (no environment step, no reward label;
+// O(sweeps x distinct transitions)) and
+// adds it to the GPI candidates. It is not successor-feature transfer:
+// where it wins, it measures the fit of the model of the reward-free data
+// rather than the successor features, and Experiment reports it as its own
+// variant (SuffixModelFit) beside the pure one (SuffixGPI) and the
+// no-GPI ablation (SuffixNoGPI).
 //
 // The labelled transitions are collected by Collect with a stated rule: the
 // agent follows its own skills from the task's start state, moving to the
@@ -99,8 +121,10 @@
 // full configuration, every figure) and results.csv, atomically.
 //
 // Pretraining writes checkpoints atomically (temporary file, fsync, rename)
-// at episode ends: configuration, discriminator, skills, SF tables, replay
-// buffer, PCG state and counters, framed by a magic number, a version and a
-// CRC-32 (Castagnoli) checksum. Resume continues bit-identically: a run
+// at episode ends: the configuration, the library types' own encodings
+// (skills.Marshal of the discriminator, usf.Tabular and usf.Replay
+// MarshalBinary, the PCG state), the skill vectors, the empirical model's
+// counts and the counters, framed by a magic number, a version and a CRC-32
+// (Castagnoli) checksum. Resume continues bit-identically: a run
 // saved at step N and resumed to 2N equals an uninterrupted 2N run.
 package transfer

@@ -97,7 +97,7 @@ func MonteCarlo(env mdp.Env, act func(s int) int, r mdp.Reward, gamma float64, e
 	for range episodes {
 		s := env.Reset(rng)
 		var g, disc float64 = 0, 1
-		for range maxSteps {
+		for t := 0; t < maxSteps && !startDone(env); t++ {
 			a := act(s)
 			next, term, trunc := env.Step(a, rng)
 			g += disc * r(s, a, next)
@@ -117,70 +117,6 @@ func MonteCarlo(env mdp.Env, act func(s int) int, r mdp.Reward, gamma float64, e
 	mean = sum / n
 	v := (sum2 - n*mean*mean) / (n - 1)
 	return mean, math.Sqrt(max(v, 0) / n), nil
-}
-
-// FiniteEnv samples a finite MDP: Reset draws from the start distribution,
-// Step from P(. | s, a); a terminal next state ends the episode; after
-// MaxSteps steps the episode is truncated (0 means no time limit).
-type FiniteEnv struct {
-	M        *mdp.Finite
-	MaxSteps int
-	s, t     int
-}
-
-// NewFiniteEnv returns an environment sampling m with a time limit.
-func NewFiniteEnv(m *mdp.Finite, maxSteps int) *FiniteEnv {
-	return &FiniteEnv{M: m, MaxSteps: maxSteps}
-}
-
-// NumStates returns the number of states of the MDP.
-func (e *FiniteEnv) NumStates() int { return e.M.NumStates() }
-
-// NumActions returns the number of actions of the MDP.
-func (e *FiniteEnv) NumActions() int { return e.M.NumActions() }
-
-// Reset draws a start state.
-func (e *FiniteEnv) Reset(rng *rand.Rand) int {
-	e.s = sampleIndex(rng, e.M.Start())
-	e.t = 0
-	return e.s
-}
-
-// Step samples the next state of (current state, a).
-func (e *FiniteEnv) Step(a int, rng *rand.Rand) (next int, terminal, truncated bool) {
-	nx, p := e.M.Next(e.s, a)
-	if len(nx) == 1 {
-		next = nx[0]
-	} else {
-		next = nx[sampleIndex(rng, p)]
-	}
-	e.s = next
-	e.t++
-	terminal = e.M.Terminal(next)
-	truncated = !terminal && e.MaxSteps > 0 && e.t >= e.MaxSteps
-	return next, terminal, truncated
-}
-
-// sampleIndex draws i with probability p[i]; a distribution with a single
-// entry draws nothing.
-func sampleIndex(rng *rand.Rand, p []float64) int {
-	if len(p) == 1 {
-		return 0
-	}
-	u := rng.Float64()
-	var c float64
-	for i, v := range p {
-		c += v
-		if u < c {
-			return i
-		}
-	}
-	for i := len(p) - 1; i >= 0; i-- {
-		if p[i] > 0 {
-			return i
-		}
-	}
-	return len(p) - 1
 }
 
 // WithStart returns a copy of m with another start distribution (for

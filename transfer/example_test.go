@@ -23,7 +23,7 @@ func Example() {
 	}
 	// Reward-free pretraining, dropped anywhere in the room.
 	explore, _ := transfer.WithStart(g.MDP, transfer.UniformStart(g.MDP))
-	agent, err := transfer.Pretrain(transfer.NewFiniteEnv(explore, 0), transfer.PretrainConfig{
+	agent, err := transfer.Pretrain(mdp.NewSampler(explore, 0), transfer.PretrainConfig{
 		Dim: 8, Skills: 16, Steps: 4000, EpisodeSteps: 20, Gamma: 0.95, Seed: 1,
 	})
 	if err != nil {
@@ -34,13 +34,11 @@ func Example() {
 	// A new job: go to the berry, away from the apple.
 	w, _ := g.Weights(map[string]float64{"berry": 1, "apple": -0.5})
 	reward, _ := g.PlaceReward(w)
-	env := transfer.NewFiniteEnv(g.MDP, 0)
-	// A fixed small ridge penalty: by default Adapt chooses it by
-	// leave-one-state-out cross-validation (InferTaskCV), which in this
-	// 15-cell room with 8 features prefers heavy shrinkage that spreads the
-	// inferred reward over the room (it scores -0.03 here; on the depot it
-	// scores better than a fixed penalty).
-	cfg := transfer.AdaptConfig{EpisodeSteps: 50, SwitchEvery: 10, Ridge: 1e-3}
+	env := mdp.NewSampler(g.MDP, 0)
+	// The ridge penalty of task inference is chosen by leave-one-state-out
+	// cross-validation (InferTaskCV); the policy is GPI over the universal
+	// SFs of the 8 skills nearest the inferred task.
+	cfg := transfer.AdaptConfig{EpisodeSteps: 50, SwitchEvery: 10}
 	labelled, err := transfer.Collect(env, agent, reward, 200, cfg, 2)
 	if err != nil {
 		fmt.Println(err)
@@ -59,6 +57,6 @@ func Example() {
 	fmt.Printf("labelled steps with a reward: %d\n", policy.Rewarded)
 	fmt.Printf("normalised return: %.2f\n", score.Normalised)
 	// Output:
-	// labelled steps with a reward: 25
+	// labelled steps with a reward: 53
 	// normalised return: 1.00
 }

@@ -37,7 +37,8 @@ type Experiment struct {
 	// PlaceNames names the dimensions of Places (for the results file).
 	PlaceNames []string `json:"place_names"`
 	Jobs       []Job    `json:"jobs"`
-	// Methods are pretrained and adapted with GPI on and off.
+	// Methods are pretrained and each scored in three variants (see
+	// SuffixGPI, SuffixNoGPI, SuffixModelFit).
 	Methods []Method `json:"methods"`
 	// Seeds are the runs; each determines its run completely.
 	Seeds []uint64 `json:"seeds"`
@@ -66,12 +67,51 @@ type Experiment struct {
 	Keep func(m Method, seed uint64, ag *Agent) `json:"-"`
 }
 
-// Variant names: a method with GPI is its name; "/no-gpi" marks GPI off.
+// Variant names. A pretrained method m is scored in three variants, named
+// m + one of the suffixes: SuffixGPI (the pure successor-feature method:
+// GPI over the universal SFs at the skills nearest w), SuffixNoGPI (greedy
+// on the single nearest skill's psi . w) and SuffixModelFit (GPI with the
+// model-based Q(., ., w) of FitModel added to the candidates). The
+// baselines are named VariantQLearning and VariantSFQLearning.
 const (
 	VariantQLearning   = "q-learning"
 	VariantSFQLearning = "sf-q-learning"
-	noGPISuffix        = "/no-gpi"
+	SuffixGPI          = ":usf+gpi"
+	SuffixNoGPI        = ":usf-no-gpi"
+	SuffixModelFit     = ":model-fit+gpi"
 )
+
+// VariantInfo states what a variant of the results is.
+type VariantInfo struct {
+	Name string `json:"name"`
+	// Method is the pretraining method; empty for the baselines.
+	Method string `json:"method,omitempty"`
+	// GPI reports whether the policy takes GPI over several candidates,
+	// and Fit whether the model-based candidate is among them.
+	GPI         bool    `json:"gpi"`
+	Fit         FitMode `json:"fit"`
+	Description string  `json:"description"`
+}
+
+func methodVariants(m Method, candidates int) []VariantInfo {
+	n := candidates
+	if n == 0 {
+		n = 8
+	}
+	return []VariantInfo{
+		{Name: m.String() + SuffixGPI, Method: m.String(), GPI: n > 0, Fit: FitNone,
+			Description: fmt.Sprintf("successor-feature transfer: GPI over psi(s, a, z) . w for the %d skills z nearest the inferred w (cosine)", max(n, 1))},
+		{Name: m.String() + SuffixNoGPI, Method: m.String(), GPI: false, Fit: FitNone,
+			Description: "successor-feature transfer without GPI: greedy in psi(s, a, z) . w for the single skill z nearest the inferred w"},
+		{Name: m.String() + SuffixModelFit, Method: m.String(), GPI: true, Fit: FitModel,
+			Description: fmt.Sprintf("model-based evaluation of the inferred task on the empirical model of the reward-free data (value iteration on the counts of every reward-free transition), GPI with the %d nearest skills' psi . w", max(n, 0))},
+	}
+}
+
+var baselineVariants = []VariantInfo{
+	{Name: VariantQLearning, Description: "tabular Q-learning from scratch on the labelled budget"},
+	{Name: VariantSFQLearning, Description: "SF Q-learning from scratch with the given place features on the labelled budget"},
+}
 
 // Record is one scored policy.
 type Record struct {
@@ -123,8 +163,10 @@ type Results struct {
 	Records  []Record        `json:"records"`
 	Summary  []Summary       `json:"summary"`
 	Pretrain []PretrainStats `json:"pretrain"`
-	// Variants lists the variants in table order.
-	Variants []string `json:"variants"`
+	// Variants lists the variants in table order, and VariantInfo says
+	// what each is.
+	Variants    []string      `json:"variants"`
+	VariantInfo []VariantInfo `json:"variant_info"`
 }
 
 // Run runs the experiment. Work is split into units (one pretrained method
@@ -227,10 +269,13 @@ func (e *Experiment) Run() (*Results, error) {
 
 	res := &Results{}
 	for _, m := range e.Methods {
-		res.Variants = append(res.Variants, m.String(), m.String()+noGPISuffix)
+		res.VariantInfo = append(res.VariantInfo, methodVariants(m, e.Adapt.Candidates)...)
 	}
 	if e.Baselines {
-		res.Variants = append(res.Variants, VariantQLearning, VariantSFQLearning)
+		res.VariantInfo = append(res.VariantInfo, baselineVariants...)
+	}
+	for _, v := range res.VariantInfo {
+		res.Variants = append(res.Variants, v.Name)
 	}
 	for _, recs := range out {
 		res.Records = append(res.Records, recs...)
@@ -333,7 +378,7 @@ func (e *Experiment) pretrain(m Method, seed uint64, addSteps func(int)) (*Agent
 		explore = e.Task
 	}
 	c, _ := cfg.withDefaults()
-	env := NewFiniteEnv(explore, c.EpisodeSteps)
+	env := mdp.NewSampler(explore, c.EpisodeSteps)
 	ag, err := Pretrain(env, cfg)
 	if err != nil {
 		return nil, 0, fmt.Errorf("pretrain %s: %w", m, err)
@@ -341,13 +386,14 @@ func (e *Experiment) pretrain(m Method, seed uint64, addSteps func(int)) (*Agent
 	return ag, lastMI, nil
 }
 
-// adaptAll scores agent ag on every job and budget, GPI on and off.
+// adaptAll scores agent ag on every job and budget in the three variants
+// of methodVariants.
 func (e *Experiment) adaptAll(ag *Agent, seed uint64, rewards []mdp.Reward, refs []*Reference) ([]Record, error) {
 	ac, _ := e.Adapt.withDefaults()
-	env := NewFiniteEnv(e.Task, ac.EpisodeSteps)
+	env := mdp.NewSampler(e.Task, ac.EpisodeSteps)
 	maxB := e.Budgets[len(e.Budgets)-1]
 	var recs []Record
-	name := ag.Method().String()
+	vars := methodVariants(ag.Method(), e.Adapt.Candidates)
 	for j, job := range e.Jobs {
 		lab, err := Collect(env, ag, rewards[j], maxB, e.Adapt, DeriveSeed(seed, 1000+uint64(j)))
 		if err != nil {
@@ -358,12 +404,12 @@ func (e *Experiment) adaptAll(ag *Agent, seed uint64, rewards []mdp.Reward, refs
 			if err != nil {
 				return nil, fmt.Errorf("job %q: %w", job.Name, err)
 			}
-			for _, v := range []struct {
-				name string
-				n    int
-			}{{name, e.Adapt.Candidates}, {name + noGPISuffix, -1}} {
+			for _, v := range vars {
 				cfg := e.Adapt
-				cfg.Candidates = v.n
+				cfg.Fit = v.Fit
+				if !v.GPI {
+					cfg.Candidates = -1
+				}
 				pol, err := ag.Policy(inf, cfg)
 				if err != nil {
 					return nil, fmt.Errorf("job %q: %w", job.Name, err)
@@ -372,7 +418,7 @@ func (e *Experiment) adaptAll(ag *Agent, seed uint64, rewards []mdp.Reward, refs
 				if err != nil {
 					return nil, fmt.Errorf("job %q: %w", job.Name, err)
 				}
-				recs = append(recs, Record{Variant: v.name, Job: job.Name, Budget: b, Seed: seed,
+				recs = append(recs, Record{Variant: v.Name, Job: job.Name, Budget: b, Seed: seed,
 					Normalised: sc.Normalised, Value: sc.Value, RSquared: inf.RSquared, Residual: inf.Residual, Rewarded: inf.Rewarded, Lambda: inf.Lambda})
 			}
 		}
@@ -385,7 +431,7 @@ func (e *Experiment) runBaselines(seed uint64, rewards []mdp.Reward, refs []*Ref
 	bc.Gamma = e.gamma()
 	var recs []Record
 	for j, job := range e.Jobs {
-		env := NewFiniteEnv(e.Task, bc.EpisodeSteps)
+		env := mdp.NewSampler(e.Task, bc.EpisodeSteps)
 		qp, err := QLearning(env, rewards[j], e.Budgets, bc, DeriveSeed(seed, 2000+uint64(j)))
 		if err != nil {
 			return nil, err

@@ -5,8 +5,6 @@ import (
 	"math/rand/v2"
 	"testing"
 
-	"gonum.org/v1/gonum/mat"
-
 	"github.com/successor-go/successor/mdp"
 	"github.com/successor-go/successor/sf"
 )
@@ -77,43 +75,6 @@ func mustDefaults(t testing.TB, c PretrainConfig) PretrainConfig {
 	return c
 }
 
-// TestRidgeSolve compares ridgeSolve with gonum's dense solve of the same
-// system (reference library).
-func TestRidgeSolve(t *testing.T) {
-	rng := rand.New(rand.NewPCG(3, 4))
-	for _, d := range []int{1, 3, 7} {
-		x := mat.NewDense(20, d, nil)
-		for i := range 20 {
-			for j := range d {
-				x.Set(i, j, rng.NormFloat64())
-			}
-		}
-		var a mat.Dense
-		a.Mul(x.T(), x)
-		b := make([]float64, d)
-		for i := range b {
-			b[i] = rng.NormFloat64()
-		}
-		const lambda = 0.3
-		got := make([]float64, d)
-		if err := ridgeSolve(got, a.RawMatrix().Data, b, lambda); err != nil {
-			t.Fatal(err)
-		}
-		for i := range d {
-			a.Set(i, i, a.At(i, i)+lambda)
-		}
-		var want mat.VecDense
-		if err := want.SolveVec(&a, mat.NewVecDense(d, b)); err != nil {
-			t.Fatal(err)
-		}
-		for i := range d {
-			if math.Abs(got[i]-want.AtVec(i)) > 1e-10 {
-				t.Errorf("d=%d: x[%d] = %v, want %v", d, i, got[i], want.AtVec(i))
-			}
-		}
-	}
-}
-
 // TestScoreEnds checks the normalisation: the optimal policy of mdp.Optimal
 // scores 1 and the uniform random policy 0 (by construction of the score).
 func TestScoreEnds(t *testing.T) {
@@ -168,7 +129,7 @@ func TestQLearningLearns(t *testing.T) {
 	g, _ := room(t)
 	w, _ := g.Weights(map[string]float64{"berry": 1})
 	r, _ := g.PlaceReward(w)
-	env := NewFiniteEnv(g.MDP, 0)
+	env := mdp.NewSampler(g.MDP, 0)
 	pols, err := QLearning(env, r, []int{20000}, BaselineConfig{Gamma: 0.9, EpisodeSteps: 30}, 1)
 	if err != nil {
 		t.Fatal(err)
@@ -197,7 +158,7 @@ func TestQLearningLearns(t *testing.T) {
 func TestGivenSkillsExact(t *testing.T) {
 	g, f := room(t)
 	explore, _ := WithStart(g.MDP, UniformStart(g.MDP))
-	ag, err := Pretrain(NewFiniteEnv(explore, 0), PretrainConfig{Method: Given, Features: f, Skills: 6, Steps: 20000, EpisodeSteps: 20, Gamma: 0.9, Seed: 4})
+	ag, err := Pretrain(mdp.NewSampler(explore, 0), PretrainConfig{Method: Given, Features: f, Skills: 6, Steps: 20000, EpisodeSteps: 20, Gamma: 0.9, Seed: 4})
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -3,23 +3,29 @@ package transfer
 import (
 	"fmt"
 	"math"
+
+	"github.com/successor-go/successor/mdp"
 )
 
 // Pretrain runs the reward-free phase on env and returns the trained agent.
 //
-// Every episode draws a skill z from the prior and acts epsilon-greedily on
-// Q(s, a, z) = psi(s, a, z) . z; every transition (s, a, s', terminal, z) goes
-// to the replay buffer. After each environment step one minibatch of
-// cfg.Batch transitions is drawn from the buffer, and for each of them
+// Every episode draws one skill of the skill set uniformly (the set was
+// drawn from the prior) and acts epsilon-greedily on
+// Q(s, a, z) = psi(s, a, w_z) . w_z; every transition (s, a, s', terminal,
+// w_z) goes to the usf.Replay. After each environment step one minibatch of
+// cfg.Batch transitions is drawn from the replay, and
 //
-//   - the discriminator takes a gradient step on -log q(z | s')
-//     (VMF: log q = kappa phi(s').z + log C_d(kappa); Categorical:
+//   - the discriminator takes one Adam step (skills.VMF or skills.Softmax
+//     Update) on the mean of -log q(z | s') over the minibatch (VMF:
+//     log q = kappa phi(s').z + log C_d(kappa); Categorical:
 //     log q = log softmax(logits(s'))_z; Random and Given learn nothing);
-//   - the universal SFs take a TD(0) step towards
-//     phi(s') + gamma (1 - terminal) psi(s', a*, z),
-//     a* = argmax_a psi(s', a, z) . z (the policy of z), with the current
-//     phi, so that psi(., ., z) . z is the value of the intrinsic reward
-//     phi(s') . z (Hansen et al. 2020, Algorithm 1).
+//   - for every transition of the minibatch, the universal SFs of the
+//     acting skill and of cfg.Relabel skills drawn at random take a TD(0)
+//     step (sf.TD) towards
+//     phi(s') + gamma (1 - terminal) psi(s', a*, w),
+//     a* = argmax_a psi(s', a, w) . w (the policy of the skill), with the
+//     current phi, so that psi(., ., w) . w is the value of the intrinsic
+//     reward phi(s') . w (Hansen et al. 2020, Algorithm 1).
 //
 // Episodes end at a terminal state, at an environment truncation, or after
 // cfg.EpisodeSteps steps (a truncation: it bootstraps). The run stops at the
@@ -78,17 +84,33 @@ func Resume(env Env, path string, cfg PretrainConfig) (*Agent, error) {
 	return ag, ag.train(env)
 }
 
+// maxEmpty is the number of consecutive episodes without a step (a
+// terminal start state) after which a loop gives up.
+const maxEmpty = 1000
+
+// startDone reports whether env's episode ended at Reset (a terminal start
+// state), for environments that can tell (such as *mdp.Sampler).
+func startDone(env mdp.Env) bool {
+	d, ok := env.(interface{ Done() bool })
+	return ok && d.Done()
+}
+
 // train runs episodes until ag.cfg.Steps.
 func (ag *Agent) train(env Env) error {
 	ag.modelMu.Lock()
 	ag.emp = nil
 	ag.modelMu.Unlock()
+	defer ag.tabulatePhi()
 	c := &ag.cfg
 	eps := c.Epsilon
+	tr := &ag.tr
+	empty := 0
 	for ag.steps < c.Steps {
 		k := ag.rng.IntN(ag.k)
+		copy(tr.Z, ag.usf.Z[k])
 		s := env.Reset(ag.rng)
-		for t := 0; t < c.EpisodeSteps; t++ {
+		took := 0
+		for t := 0; t < c.EpisodeSteps && !startDone(env); t++ {
 			var a int
 			if eps > 0 && ag.rng.Float64() < eps {
 				a = ag.rng.IntN(ag.a)
@@ -96,8 +118,12 @@ func (ag *Agent) train(env Env) error {
 				a = ag.actSkill(k, s, ag.rng)
 			}
 			next, term, trunc := env.Step(a, ag.rng)
-			ag.replay.add(s, a, next, term, k)
+			tr.S, tr.A, tr.Next, tr.Terminal = s, a, next, term
+			ag.features(tr.Phi, next)
+			ag.buf.Add(tr)
+			ag.counts[ag.modelKey(s, a, next, term)]++
 			ag.steps++
+			took++
 			if err := ag.update(); err != nil {
 				return err
 			}
@@ -105,6 +131,13 @@ func (ag *Agent) train(env Env) error {
 				break
 			}
 			s = next
+		}
+		if took == 0 {
+			if empty++; empty >= maxEmpty {
+				return fmt.Errorf("transfer: pretrain: %d episodes in a row start at a terminal state: %w", empty, ErrConfig)
+			}
+		} else {
+			empty = 0
 		}
 		ag.episodes++
 		if ag.steps >= ag.nextProgress || ag.steps >= c.Steps {
@@ -143,7 +176,7 @@ func (ag *Agent) report() {
 	if acc.nTD > 0 {
 		p.TDError = acc.td / float64(acc.nTD)
 	}
-	if (ag.cfg.Method == VMF || ag.cfg.Method == Categorical) && acc.n > 0 {
+	if ag.disc != nil && acc.n > 0 {
 		n := float64(acc.n)
 		p.HasMI = true
 		p.DiscLoss = acc.loss / n
@@ -156,115 +189,82 @@ func (ag *Agent) report() {
 	ag.cfg.Progress(p)
 }
 
-// update draws one minibatch and updates the discriminator and the USF.
+// update draws one minibatch from the replay and updates the
+// discriminator and the USF.
 func (ag *Agent) update() error {
 	c := &ag.cfg
-	rb := &ag.replay
-	for range c.Batch {
-		i := rb.sample(ag.rng)
-		s, a, next, term, k := int(rb.s[i]), int(rb.a[i]), int(rb.next[i]), rb.term[i], int(rb.k[i])
-
-		// Discriminator step on (s', z_k) with the skill that acted.
-		switch c.Method {
-		case VMF:
-			ag.stepVMF(next, ag.Skill(k))
-		case Categorical:
-			ag.stepCategorical(next, k)
+	b := ag.smp
+	ag.buf.Sample(b, ag.rng)
+	nb, d, n := b.Len(), ag.d, ag.n
+	for i := range nb {
+		k := ag.skillOf(b.Z[i*d : (i+1)*d])
+		if k < 0 {
+			panic("transfer: replayed skill not in the skill set")
 		}
+		ag.skillK[i] = k
+	}
 
-		// TD steps of psi(s, a, z_j) for the acting skill and c.Relabel
-		// skills drawn at random (off-policy relabelling: the intrinsic
-		// reward phi(s') . z_j is known for every j).
-		for r := 0; r <= c.Relabel; r++ {
-			j := k
-			if r > 0 {
-				j = ag.rng.IntN(ag.k)
+	// One optimiser step of the discriminator on the minibatch of
+	// (s', z) pairs of the skills that acted.
+	if ag.disc != nil {
+		zd := len(ag.zs[0])
+		for i := range nb {
+			ag.x[i*n+b.Next[i]] = 1
+			copy(ag.z[i*zd:(i+1)*zd], ag.zs[ag.skillK[i]])
+		}
+		loss, err := ag.disc.Update(ag.x, ag.z)
+		for i := range nb {
+			ag.x[i*n+b.Next[i]] = 0
+		}
+		if err != nil {
+			return fmt.Errorf("transfer: pretrain: discriminator at step %d: %w: %w", ag.steps, ErrDiverged, err)
+		}
+		// MI lower bound of the minibatch: E[log q(z|s')] - log p(z), the
+		// prior's density being the same for every z.
+		mi := -loss - ag.prior.LogProb(ag.zs[ag.skillK[0]])
+		ag.acc.loss += loss
+		ag.acc.mi += mi
+		ag.acc.mi2 += mi * mi
+		ag.acc.n++
+	}
+
+	// TD steps of psi(s, a, w_j) for the acting skill and c.Relabel skills
+	// drawn at random (off-policy relabelling: the intrinsic reward
+	// phi(s') . w_j is known for every j), with the current phi: the sf.TD
+	// learner of skill j on skill j's table of the usf.Tabular, bootstrapping
+	// from the greedy action of w_j in s' (read from the cached values
+	// Q(s, a, w_j), so it costs A rather than A d operations; sf.TD's own
+	// Greedy target computes the same action from the table). The squared TD
+	// error is recovered from the change of the row,
+	// ||delta||^2 = ||change||^2 / alpha^2.
+	old := ag.rowBuf
+	inv := 1 / (c.LearnRate * c.LearnRate)
+	for i := range nb {
+		ag.features(ag.phiBuf, b.Next[i])
+		s, a, next, term := b.S[i], b.A[i], b.Next[i], b.Terminal[i]
+		for j := 0; j <= c.Relabel; j++ {
+			kk := ag.skillK[i]
+			if j > 0 {
+				kk = ag.rng.IntN(ag.k)
 			}
-			if err := ag.tdStep(j, s, a, next, term); err != nil {
-				return err
+			row := ag.usf.Tables[kk].Row(s, a)
+			copy(old, row)
+			an := -1
+			if !term {
+				an = ag.greedy(kk, next)
 			}
+			if err := ag.tds[kk].UpdateFeatures(s, a, ag.phiBuf, next, term, an); err != nil {
+				return fmt.Errorf("transfer: pretrain: successor features of skill %d non-finite at step %d: %w: %w", kk, ag.steps, ErrDiverged, err)
+			}
+			ag.q[(kk*ag.n+s)*ag.a+a] = dot(row, ag.usf.Z[kk])
+			var sq float64
+			for m, v := range row {
+				e := v - old[m]
+				sq += e * e
+			}
+			ag.acc.td += sq * inv / float64(d)
+			ag.acc.nTD++
 		}
 	}
 	return nil
-}
-
-// tdStep moves psi(s, a, z_j) towards phi(s') + gamma psi(s', a*, z_j), with
-// a* = argmax_a psi(s', a, z_j) . z_j (no bootstrap from a terminal s').
-func (ag *Agent) tdStep(j, s, a, next int, term bool) error {
-	d, na := ag.d, ag.a
-	tgt := ag.target
-	copy(tgt, ag.phi[next*d:(next+1)*d])
-	if !term {
-		qi := (j*ag.n + next) * na
-		b := argmaxRand(ag.q[qi:qi+na], nil)
-		off := ((j*ag.n+next)*na + b) * d
-		g := ag.cfg.Gamma
-		for i, v := range ag.usf[off : off+d : off+d] {
-			tgt[i] += g * v
-		}
-	}
-	row := (j*ag.n+s)*na + a
-	p := ag.usf[row*d : (row+1)*d : (row+1)*d]
-	z := ag.skills[j*d : (j+1)*d : (j+1)*d]
-	lr := ag.cfg.LearnRate
-	var sq, dq float64
-	for i, v := range tgt {
-		delta := v - p[i]
-		sq += delta * delta
-		step := lr * delta
-		p[i] += step
-		dq += step * z[i]
-	}
-	ag.q[row] += dq
-	if math.IsNaN(sq) || math.IsInf(sq, 0) {
-		return fmt.Errorf("transfer: pretrain: successor features non-finite at step %d: %w", ag.steps, ErrDiverged)
-	}
-	ag.acc.td += sq / float64(d)
-	ag.acc.nTD++
-	return nil
-}
-
-// stepVMF takes a gradient step on -log q(z|s) = -(kappa phi(s).z + log C)
-// with phi = f/||f||: the gradient in f is -kappa (z - (phi.z) phi)/||f||.
-func (ag *Agent) stepVMF(s int, z []float64) {
-	d := ag.d
-	f := ag.param[s*d : (s+1)*d]
-	phi := ag.phi[s*d : (s+1)*d]
-	c := dot(phi, z)
-	lq := ag.cfg.Kappa*c + ag.logC
-	ag.acc.loss -= lq
-	mi := lq + ag.logArea
-	ag.acc.mi += mi
-	ag.acc.mi2 += mi * mi
-	ag.acc.n++
-	nrm := math.Sqrt(dot(f, f))
-	g := ag.cfg.DiscRate * ag.cfg.Kappa / nrm
-	for i := range f {
-		f[i] += g * (z[i] - c*phi[i])
-	}
-	ag.refreshPhi(s)
-}
-
-// stepCategorical takes a gradient step on the cross-entropy -log q(z|s):
-// logits += rate (onehot(z) - q).
-func (ag *Agent) stepCategorical(s, k int) {
-	d := ag.d
-	l := ag.param[s*d : (s+1)*d]
-	phi := ag.phi[s*d : (s+1)*d] // log q(. | s)
-	lq := phi[k]
-	ag.acc.loss -= lq
-	mi := lq + math.Log(float64(d))
-	ag.acc.mi += mi
-	ag.acc.mi2 += mi * mi
-	ag.acc.n++
-	r := ag.cfg.DiscRate
-	for i := range l {
-		q := math.Exp(phi[i])
-		if i == k {
-			l[i] += r * (1 - q)
-		} else {
-			l[i] -= r * q
-		}
-	}
-	ag.refreshPhi(s)
 }

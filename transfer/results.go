@@ -5,12 +5,11 @@ import (
 	"encoding/csv"
 	"encoding/json"
 	"fmt"
-	"os"
-	"path/filepath"
 	"runtime"
 	"strconv"
 
 	"github.com/successor-go/successor"
+	"github.com/successor-go/successor/internal/fileio"
 )
 
 // Report is the content of results.json: the library and Go versions, the
@@ -55,7 +54,10 @@ func (rep *Report) WriteJSON(path string) error {
 	if err != nil {
 		return fmt.Errorf("transfer: results json: %w", err)
 	}
-	return writeAtomic(path, append(b, '\n'))
+	if err := fileio.WriteAtomic(path, append(b, '\n'), 0o644); err != nil {
+		return fmt.Errorf("transfer: results json: %w", err)
+	}
+	return nil
 }
 
 // WriteCSV writes one line per scored policy (variant, job, budget, seed,
@@ -75,29 +77,8 @@ func (rep *Report) WriteCSV(path string) error {
 	if err := w.Error(); err != nil {
 		return fmt.Errorf("transfer: results csv: %w", err)
 	}
-	return writeAtomic(path, buf.Bytes())
-}
-
-// writeAtomic writes data to a temporary file in path's folder, syncs it
-// and renames it over path.
-func writeAtomic(path string, data []byte) error {
-	f, err := os.CreateTemp(filepath.Dir(path), filepath.Base(path)+".tmp*")
-	if err != nil {
-		return fmt.Errorf("transfer: write %s: %w", path, err)
-	}
-	tmp := f.Name()
-	if _, err = f.Write(data); err == nil {
-		err = f.Sync()
-	}
-	if cerr := f.Close(); err == nil {
-		err = cerr
-	}
-	if err == nil {
-		err = os.Rename(tmp, path)
-	}
-	if err != nil {
-		os.Remove(tmp)
-		return fmt.Errorf("transfer: write %s: %w", path, err)
+	if err := fileio.WriteAtomic(path, buf.Bytes(), 0o644); err != nil {
+		return fmt.Errorf("transfer: results csv: %w", err)
 	}
 	return nil
 }

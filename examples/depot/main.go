@@ -16,6 +16,14 @@
 // normalised return (0 = uniform random policy, 1 = optimal; mean +-
 // standard error over the seeds), and writes results.json, results.csv and
 // PNG figures into the output folder.
+//
+// Every method appears in three rows: <method>:usf+gpi is successor-feature
+// transfer proper (GPI over the universal SFs of the skills nearest the
+// inferred task), <method>:usf-no-gpi acts on the single nearest skill, and
+// <method>:model-fit+gpi adds a candidate fitted by value iteration on the
+// empirical model of the reward-free data, which is model-based planning
+// with the inferred reward rather than successor-feature transfer.
+// results.json states the variant of every row (results.variant_info).
 package main
 
 import (
@@ -54,6 +62,9 @@ type options struct {
 	cpuProfile string
 	noPlots    bool
 	explore    transfer.Explore
+	dim        int
+	skills     int
+	candidates int
 }
 
 // errUsage marks a bad command line (exit status 2).
@@ -85,6 +96,9 @@ func parseFlags(args []string, stderr io.Writer) (*options, error) {
 	fs.IntVar(&o.steps, "steps", 0, "pretraining steps per run (0: the default, 100000; -quick 8000)")
 	fs.StringVar(&o.cpuProfile, "cpuprofile", "", "write a CPU profile of the whole run to this file")
 	fs.BoolVar(&o.noPlots, "noplots", false, "skip the PNG figures")
+	fs.IntVar(&o.dim, "dim", 0, "feature dimension d of the sphere methods, and the number of categorical skills (0: the demo's default)")
+	fs.IntVar(&o.skills, "skills", 0, "number of skills K of the sphere methods (0: the demo's default)")
+	fs.IntVar(&o.candidates, "candidates", 0, "GPI candidates: the skills nearest the inferred task (0: transfer's default)")
 	var explore string
 	fs.StringVar(&explore, "explore", "skills", "how the agent collects its labelled steps: skills (follow its skills), greedy (skills, then act on the task inferred so far), uniform (random actions)")
 	fs.Usage = func() {
@@ -150,6 +164,8 @@ func parseFlags(args []string, stderr io.Writer) (*options, error) {
 		return nil, fmt.Errorf("%w: -steps %d: must be at least 1", errUsage, o.steps)
 	case o.workers < 0:
 		return nil, fmt.Errorf("%w: -workers %d: must not be negative", errUsage, o.workers)
+	case o.dim < 0 || o.dim == 1 || o.skills < 0 || o.candidates < 0:
+		return nil, fmt.Errorf("%w: -dim %d, -skills %d, -candidates %d: want 0 (default) or at least 2, 1 and 1", errUsage, o.dim, o.skills, o.candidates)
 	case o.out == "":
 		return nil, fmt.Errorf("%w: -out: empty folder name", errUsage)
 	}
@@ -246,8 +262,8 @@ func run(args []string, stdout, stderr io.Writer) error {
 		Budgets:    budgets(o.budget),
 		Baselines:  true,
 		Gamma:      0.95,
-		Pretrain:   defaultPretrain(o.steps),
-		Adapt:      transfer.AdaptConfig{Explore: o.explore},
+		Pretrain:   defaultPretrain(o),
+		Adapt:      transfer.AdaptConfig{Explore: o.explore, Candidates: o.candidates},
 		Workers:    o.workers,
 	}
 
@@ -303,15 +319,22 @@ func run(args []string, stdout, stderr io.Writer) error {
 }
 
 // defaultPretrain is the pretraining configuration of the demo.
-func defaultPretrain(steps int) transfer.PretrainConfig {
-	return transfer.PretrainConfig{
-		Dim:          64,   // phi on S^63: skills' places nearly orthogonal
+func defaultPretrain(o *options) transfer.PretrainConfig {
+	c := transfer.PretrainConfig{
+		Dim:          64,   // phi on S^63
 		Skills:       128,  // skill set of the tabulated universal SFs
 		Kappa:        10,   // discriminator concentration
 		Gamma:        0.99, // skill horizon: long enough to cross the floor
-		Steps:        steps,
+		Steps:        o.steps,
 		EpisodeSteps: 50,
 	}
+	if o.dim > 0 {
+		c.Dim = o.dim
+	}
+	if o.skills > 0 {
+		c.Skills = o.skills
+	}
+	return c
 }
 
 // progress returns a progress callback drawing a bar on stderr when it is a
@@ -375,6 +398,19 @@ func printTable(w io.Writer, e *transfer.Experiment, res *transfer.Results, elap
 		fmt.Fprintf(w, "pretraining %-11s %6.2f s per run, %8.0f env steps/s%s\n", p.Method, p.Seconds, p.StepsPerSecond, mi)
 	}
 	fmt.Fprintf(w, "total wall time %.1f s\n", elapsed.Seconds())
+	fmt.Fprintln(w, "\nVariants:")
+	seen := map[string]bool{}
+	for _, v := range res.VariantInfo {
+		suffix := strings.TrimPrefix(v.Name, v.Method)
+		if v.Method == "" || seen[suffix] {
+			if v.Method == "" {
+				fmt.Fprintf(w, "  %-15s %s\n", v.Name, v.Description)
+			}
+			continue
+		}
+		seen[suffix] = true
+		fmt.Fprintf(w, "  <method>%-15s %s\n", suffix, v.Description)
+	}
 	fmt.Fprintln(w, "\nJobs (invented):")
 	for _, j := range e.Jobs {
 		fmt.Fprintf(w, "  %-13s %s\n", j.Name, j.Description)

@@ -90,16 +90,21 @@ func drawReturns(path string, e *transfer.Experiment, res *transfer.Results) err
 		if err != nil {
 			return err
 		}
-		// One colour per method (dashed: GPI off), then one per baseline.
-		ci := i / 2
-		if i >= 2*len(e.Methods) {
-			ci = len(e.Methods) + i - 2*len(e.Methods)
+		// One colour per method (solid: USF + GPI, dashed: GPI off,
+		// dotted: model fit), then one per baseline.
+		info := res.VariantInfo[i]
+		ci := len(e.Methods) + i - 3*len(e.Methods)
+		if info.Method != "" {
+			ci = i / 3
 		}
 		c := lineColors[ci%len(lineColors)]
 		line.Color = c
 		line.Width = vg.Points(1.5)
-		if i%2 == 1 && i < 2*len(e.Methods) {
-			line.Dashes = []vg.Length{vg.Points(4), vg.Points(2)} // GPI off
+		switch {
+		case info.Method != "" && info.Fit == transfer.FitModel:
+			line.Dashes = []vg.Length{vg.Points(1), vg.Points(2)}
+		case info.Method != "" && !info.GPI:
+			line.Dashes = []vg.Length{vg.Points(4), vg.Points(2)}
 		}
 		sc.Color = c
 		sc.Shape = plotutil.Shape(i)
@@ -116,10 +121,10 @@ func drawReturns(path string, e *transfer.Experiment, res *transfer.Results) err
 	}
 	p.Y.Min = math.Min(p.Y.Min, -0.1)
 	p.Y.Max = 1.05
-	img := vgimg.New(24*vg.Centimeter, 13*vg.Centimeter)
+	img := vgimg.New(25*vg.Centimeter, 13*vg.Centimeter)
 	dc := draw.New(img)
-	left := draw.Crop(dc, 0, -6*vg.Centimeter, 0, 0)
-	right := draw.Crop(dc, 18*vg.Centimeter, 0, 0, 0)
+	left := draw.Crop(dc, 0, -7*vg.Centimeter, 0, 0)
+	right := draw.Crop(dc, 18.5*vg.Centimeter, 0, 0, 0)
 	p.Draw(left)
 	leg.Draw(right)
 	return writePNG(path, img)
@@ -261,7 +266,7 @@ func drawSuccessor(path string, g *mdp.Grid, e *transfer.Experiment, kept map[tr
 			}
 			return v
 		}
-		env := transfer.NewFiniteEnv(g.MDP, 100)
+		env := mdp.NewSampler(g.MDP, 100)
 		budget := e.Budgets[len(e.Budgets)-1]
 		lab, err := transfer.Collect(env, ag, reward, budget, e.Adapt, transfer.DeriveSeed(e.Seeds[0], 1000))
 		if err != nil {
