@@ -15,7 +15,9 @@ func TestZeroAllocs(t *testing.T) {
 	vn, _ := NewVMF(&VMFConfig{In: ns, Dim: 8, Net: Net{Hidden: []int{16}, MaxBatch: 32}}, rng)
 	s, _ := NewSoftmax(&SoftmaxConfig{In: ns, K: 8}, rng)
 	sn, _ := NewSoftmax(&SoftmaxConfig{In: ns, K: 8, Net: Net{Hidden: []int{16}}}, rng)
-	ds = append(ds, v, vn, s, sn)
+	vs, _ := NewVMF(&VMFConfig{In: ns, Dim: 8, Optim: Optim{Method: OptimSparseAdam, ClipNorm: 1}}, rng)
+	ss, _ := NewSoftmax(&SoftmaxConfig{In: ns, K: 8, Optim: Optim{Method: OptimSparseAdam}}, rng)
+	ds = append(ds, v, vn, s, sn, vs, ss)
 	for _, d := range ds {
 		var p Prior = Categorical{K: 8}
 		if _, ok := d.(*VMF); ok {

@@ -50,6 +50,30 @@ func BenchmarkUpdate(b *testing.B) {
 	})
 }
 
+// BenchmarkUpdateSparse compares dense and sparse Adam at the depot's size
+// (105 one-hot states, d = 64; invented demo data) for minibatches of 1 and
+// 64 states.
+func BenchmarkUpdateSparse(b *testing.B) {
+	const states, d = 105, 64
+	for _, batch := range []int{1, 64} {
+		for _, m := range []OptimMethod{OptimAdam, OptimSparseAdam} {
+			rng := rand.New(rand.NewPCG(1, 7))
+			v, _ := NewVMF(&VMFConfig{In: states, Dim: d, Optim: Optim{Method: m}}, rng)
+			x, z := make([]float64, batch*states), make([]float64, batch*d)
+			for i := range batch {
+				OneHot(x[i*states:(i+1)*states], rng.IntN(states))
+				UniformSphere{D: d}.Sample(z[i*d:(i+1)*d], rng)
+			}
+			b.Run(fmt.Sprintf("vmf/n=%d/d=%d/batch=%d/%v", states, d, batch, m), func(b *testing.B) {
+				b.ReportAllocs()
+				for b.Loop() {
+					v.Update(x, z)
+				}
+			})
+		}
+	}
+}
+
 func BenchmarkReward(b *testing.B) {
 	for _, d := range []int{8, 32} {
 		rng := rand.New(rand.NewPCG(1, 3))

@@ -181,9 +181,20 @@ func (c *core) lossGrad(l chunkLosser, x, z []float64, n, zdim int) (float64, []
 	return loss * inv, c.acc
 }
 
-// step clips g and takes one Adam step, or reports divergence.
+// step clips g and takes one Adam step, dense or sparse, or reports
+// divergence. The sparse step needs a linear encoder and g its own
+// gradient, which the configuration checks guarantee.
 func (c *core) step(loss float64, g []float64) error {
 	c.steps++
+	if c.opt.Method == OptimSparseAdam {
+		e := c.enc.(*linear)
+		norm := sparseClipNorm(g, e.rows, e.out, c.opt.ClipNorm)
+		if !isFinite(loss) || !isFinite(norm) {
+			return &DivergedError{Step: c.steps, Loss: loss}
+		}
+		sparseAdamStep(c.adam, e.p, g, e.rows, e.out)
+		return nil
+	}
 	norm := nn.ClipNorm(g, c.opt.ClipNorm)
 	if !isFinite(loss) || !isFinite(norm) {
 		return &DivergedError{Step: c.steps, Loss: loss}

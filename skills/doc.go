@@ -47,7 +47,11 @@
 // themselves must do the same.
 //
 // Update takes one Adam step (Kingma & Ba 2015) on the mean negative
-// log-likelihood of a minibatch of (x, z) pairs,
+// log-likelihood of a minibatch of (x, z) pairs (dense Adam by default;
+// Optim.Method = OptimSparseAdam, for a linear f, updates only the rows of
+// W whose input is non-zero in the minibatch and the bias, which makes a
+// one-hot minibatch of r distinct states cost O((r + 1) d) instead of
+// O(n d) for n states; it is a different optimiser, see OptimSparseAdam),
 //
 //	L = -(1/n) sum_i log q(z_i | x_i),
 //

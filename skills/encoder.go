@@ -3,6 +3,7 @@ package skills
 import (
 	"math"
 	"math/rand/v2"
+	"slices"
 )
 
 // encoder is the map f: R^in -> R^out inside a discriminator: the vMF
@@ -33,6 +34,11 @@ type linear struct {
 	y       []float64 // output buffer, grown on demand
 	x       []float64 // input of the last forward (the caller's slice)
 	n       int
+	// rows lists, ascending, the inputs j that are non-zero in some row of
+	// the last backward's minibatch; only those rows of the W part of g,
+	// and the bias part, can be non-zero. mark[j] is true for j in rows.
+	rows []int
+	mark []bool
 }
 
 // newLinear returns a linear encoder with W uniform on [-a, a],
@@ -78,10 +84,23 @@ func (e *linear) forward(x []float64, n int) []float64 {
 	return y
 }
 
+// backward writes the gradient into g. Only the rows of W touched by the
+// previous backward (and the bias) can hold non-zero values, so only those
+// are cleared: with one-hot inputs the cost is O((n + r) out) for r touched
+// rows, not O(in out).
 func (e *linear) backward(dy []float64) {
 	in, out, n := e.in, e.out, e.n
-	clear(e.g)
 	gw, gb := e.g[:in*out], e.g[in*out:]
+	if e.mark == nil {
+		e.mark = make([]bool, in)
+		e.rows = make([]int, 0, in)
+	}
+	for _, j := range e.rows {
+		clear(gw[j*out : (j+1)*out])
+		e.mark[j] = false
+	}
+	e.rows = e.rows[:0]
+	clear(gb)
 	dy = dy[:n*out]
 	for i := 0; i < n; i++ {
 		di := dy[i*out : (i+1)*out]
@@ -92,12 +111,17 @@ func (e *linear) backward(dy []float64) {
 			if v == 0 {
 				continue
 			}
+			if !e.mark[j] {
+				e.mark[j] = true
+				e.rows = append(e.rows, j)
+			}
 			gj := gw[j*out : (j+1)*out]
 			for k, d := range di {
 				gj[k] += v * d
 			}
 		}
 	}
+	slices.Sort(e.rows)
 }
 
 func (e *linear) clone() encoder {

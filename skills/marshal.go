@@ -11,10 +11,11 @@ import (
 	"github.com/successor-go/successor/internal/fileio"
 )
 
-// Binary format of a discriminator (version 1), little-endian throughout:
+// Binary format of a discriminator (versions 1 and 2), little-endian
+// throughout:
 //
 //	magic      4 bytes "SKDS"
-//	version    uint32 = 1
+//	version    uint32: 1 for dense Adam, 2 for any other optimiser
 //	kind       uint8: 1 = VMF, 2 = Softmax
 //	in         uint32   observation length
 //	zdim       uint32   d (VMF) or K (Softmax)
@@ -23,6 +24,7 @@ import (
 //	tanh       uint8 (0 or 1)
 //	maxBatch   uint32   Net.MaxBatch as configured
 //	optim      5 x float64: learn rate, beta1, beta2, eps, clip norm
+//	method     version 2 only: uint8 OptimMethod, never 0 (OptimAdam)
 //	steps      uint64   updates taken
 //	VMF only:  learnKappa uint8 (0 or 1), maxKappa float64, kappa float64
 //	           (log kappa when learned), kappa Adam step uint64, moments
@@ -33,11 +35,16 @@ import (
 //
 // Floats are stored as their IEEE-754 bits, so a round trip is bit-exact;
 // the loader accepts only finite values and rejects trailing bytes, so
-// MarshalBinary of a loaded value reproduces its input.
+// MarshalBinary of a loaded value reproduces its input. Dense Adam is
+// written as version 1, unchanged, so files written before sparse Adam
+// existed load as they are and discriminators that do not use it write the
+// same bytes as before; version 2 adds the method byte, and a version 2
+// file naming dense Adam is rejected (its encoding is version 1). The sparse
+// optimiser keeps the same state as dense Adam (global step, moments).
 
 const (
 	fileMagic   = "SKDS"
-	fileVersion = 1
+	fileVersion = 2
 	kindVMF     = 1
 	kindSoftmax = 2
 )
@@ -94,13 +101,20 @@ func (d *dec) floats(dst []float64) {
 
 func appendHeader(b enc, kind uint8, c *core, in, zdim int, net *Net) enc {
 	b = append(b, fileMagic...)
-	b = b.u32(fileVersion).u8(kind).u32(in).u32(zdim).u32(len(net.Hidden))
+	version := 1
+	if c.opt.Method != OptimAdam {
+		version = 2
+	}
+	b = b.u32(version).u8(kind).u32(in).u32(zdim).u32(len(net.Hidden))
 	for _, h := range net.Hidden {
 		b = b.u32(h)
 	}
 	b = b.flag(net.Tanh).u32(net.MaxBatch)
 	o := c.opt
 	b = b.f64(o.LearnRate).f64(o.Beta1).f64(o.Beta2).f64(o.Eps).f64(o.ClipNorm)
+	if version == 2 {
+		b = b.u8(uint8(o.Method))
+	}
 	return b.u64(uint64(c.steps))
 }
 
@@ -162,8 +176,9 @@ func openData(data []byte) (*header, error) {
 		return nil, fmt.Errorf("crc %08x, computed %08x: %w", got, want, ErrChecksum)
 	}
 	d := &dec{b: body[len(fileMagic):]}
-	if v := d.u32(); v != fileVersion {
-		return nil, fmt.Errorf("version %d: %w", v, ErrVersion)
+	version := d.u32()
+	if version < 1 || version > fileVersion {
+		return nil, fmt.Errorf("version %d (this code reads 1 to %d): %w", version, fileVersion, ErrVersion)
 	}
 	h := &header{remaining: d}
 	h.kind = d.u8()
@@ -181,6 +196,12 @@ func openData(data []byte) (*header, error) {
 	h.net.Tanh = d.flag()
 	h.net.MaxBatch = d.u32()
 	h.opt = Optim{LearnRate: d.f64(), Beta1: d.f64(), Beta2: d.f64(), Eps: d.f64(), ClipNorm: d.f64()}
+	if version == 2 {
+		h.opt.Method = OptimMethod(d.u8())
+		if !d.bad && h.opt.Method == OptimAdam {
+			return nil, fmt.Errorf("version 2 with dense adam, which is written as version 1: %w", ErrFormat)
+		}
+	}
 	h.steps = d.u64()
 	if h.kind == kindVMF {
 		h.learn = d.flag()

@@ -22,6 +22,7 @@ func trained(t testing.TB) []Discriminator {
 		{In: 6, Dim: 3},
 		{In: 6, Dim: 4, Kappa: 3, LearnKappa: true, MaxKappa: 50, Optim: Optim{LearnRate: 0.01, ClipNorm: 5}},
 		{In: 6, Dim: 3, Net: Net{Hidden: []int{5, 4}, Tanh: true, MaxBatch: 3}},
+		{In: 6, Dim: 3, LearnKappa: true, Optim: Optim{Method: OptimSparseAdam, ClipNorm: 2}},
 	} {
 		v, err := NewVMF(&c, rng)
 		if err != nil {
@@ -32,6 +33,7 @@ func trained(t testing.TB) []Discriminator {
 	for _, c := range []SoftmaxConfig{
 		{In: 6, K: 3, Optim: Optim{Beta1: 0.5}},
 		{In: 6, K: 4, Net: Net{Hidden: []int{7}}},
+		{In: 6, K: 3, Optim: Optim{Method: OptimSparseAdam}},
 	} {
 		s, err := NewSoftmax(&c, rng)
 		if err != nil {
@@ -138,7 +140,7 @@ func TestUnmarshalErrors(t *testing.T) {
 	flip := append([]byte(nil), good...)
 	flip[40] ^= 1
 	version := append([]byte(nil), good...)
-	version[4] = 2
+	version[4] = 3
 	kind := append([]byte(nil), good...)
 	kind[8] = 9
 	magic := append([]byte(nil), good...)
@@ -162,7 +164,7 @@ func TestUnmarshalErrors(t *testing.T) {
 		}
 	}
 	// Typed loaders reject the other kind and leave the receiver alone.
-	soft, _ := Marshal(ds[3])
+	soft, _ := Marshal(ds[4])
 	v := ds[0].(*VMF)
 	before, _ := v.MarshalBinary()
 	if err := v.UnmarshalBinary(soft); !errors.Is(err, ErrFormat) {

@@ -75,6 +75,9 @@ func buildSoftmax(c *SoftmaxConfig, rng *rand.Rand) (*Softmax, error) {
 	if err := c.Optim.check(); err != nil {
 		return nil, err
 	}
+	if err := c.Optim.checkNet(&c.Net); err != nil {
+		return nil, err
+	}
 	if err := c.check(); err != nil {
 		return nil, err
 	}

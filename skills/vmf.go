@@ -98,6 +98,9 @@ func buildVMF(c *VMFConfig, rng *rand.Rand) (*VMF, error) {
 	if err := c.Optim.check(); err != nil {
 		return nil, err
 	}
+	if err := c.Optim.checkNet(&c.Net); err != nil {
+		return nil, err
+	}
 	if err := c.check(); err != nil {
 		return nil, err
 	}
