@@ -62,6 +62,12 @@ var (
 // Next with X and NextX nil. Tabular reads S and Next when they are set and
 // X and NextX otherwise; Linear and Neural read X and NextX when they are
 // set and S and Next otherwise.
+//
+// K optionally gives, instead of the vectors z, their indices into the
+// finite set of a Tabular (z_i = Tabular.Z[K[i]]): Tabular reads K when it
+// is not nil (Z is then not read and may be nil) and Z otherwise, so a
+// caller that knows the index skips the look-up. Linear and Neural ignore
+// K and always read Z. NewBatch leaves K nil.
 type Batch struct {
 	S, Next  []int     // states of s and s' (one-hot observations), or nil
 	X, NextX []float64 // observations of s and s', n*obs, or nil
@@ -73,6 +79,7 @@ type Batch struct {
 	Phi      []float64 // features phi(s, a, s'), n*d
 	Z        []float64 // task or skill vectors, n*d
 	Terminal []bool    // s' is terminal: no bootstrap (truncation is not)
+	K        []int     // indices of z in a Tabular's set, or nil
 }
 
 // NewBatch returns a batch of n transitions with every slice allocated:
@@ -100,9 +107,9 @@ func NewBatch(n, obs, dim int) *Batch {
 // Len returns the number of transitions, len(b.A).
 func (b *Batch) Len() int { return len(b.A) }
 
-// check panics unless b is well formed for obs, dim; indexed says the
-// approximator can read S and Next instead of X and NextX.
-func (b *Batch) check(name string, obs, actions, dim int) {
+// check panics unless b is well formed for obs, dim. With byIndex (a
+// Tabular given K) Z may be nil.
+func (b *Batch) check(name string, obs, actions, dim int, byIndex bool) {
 	n := len(b.A)
 	bad := func(what string, got, want int) {
 		panic(fmt.Sprintf("usf: %s: batch %s has length %d, want %d", name, what, got, want))
@@ -110,8 +117,11 @@ func (b *Batch) check(name string, obs, actions, dim int) {
 	if len(b.Phi) != n*dim {
 		bad("Phi", len(b.Phi), n*dim)
 	}
-	if len(b.Z) != n*dim {
+	if len(b.Z) != n*dim && !(byIndex && b.Z == nil) {
 		bad("Z", len(b.Z), n*dim)
+	}
+	if byIndex && len(b.K) != n {
+		bad("K", len(b.K), n)
 	}
 	if len(b.Terminal) != n {
 		bad("Terminal", len(b.Terminal), n)

@@ -41,11 +41,13 @@
 // T_k[s, a]); observations must be one-hot. Updates are online TD(0) with
 // the per-(z, s, a) step schedule of sf.StepSize.
 //
-// Cost per transition: Tabular O(K d + A d) (the z lookup and the greedy
-// next action), Linear with one-hot x O(A d e) with e = d (+1 with Affine),
-// and O(nnz(x) A d e) with a dense x; Neural one forward pass of the target
-// network and one forward and backward pass of the online network per
-// minibatch (about 2 n sum_l in_l out_l flops each).
+// Cost per transition: Tabular O(A d) (the greedy next action) plus the
+// look-up of z in the set, O(d) expected by a hash table whatever K is, or
+// none when the Batch gives the set index K; Linear with one-hot x
+// O(A d e) with e = d (+1 with Affine), and O(nnz(x) A d e) with a dense
+// x; Neural one forward pass of the target network and one forward and
+// backward pass of the online network per minibatch (about
+// 2 n sum_l in_l out_l flops each).
 //
 // Linear is linear in the joint feature x(s) (outer) z:
 //

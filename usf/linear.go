@@ -169,7 +169,7 @@ func (l *Linear) Update(b *Batch) (float64, error) {
 	if l.err != nil {
 		return 0, l.err
 	}
-	b.check("linear", l.obs, l.na, l.d)
+	b.check("linear", l.obs, l.na, l.d, false)
 	n := b.Len()
 	d, na := l.d, l.na
 	dense := b.X != nil

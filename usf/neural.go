@@ -233,7 +233,7 @@ func (u *Neural) Update(b *Batch) (float64, error) {
 	if n < 1 || n > u.net.MaxBatch() {
 		panic(fmt.Sprintf("usf: neural: batch of %d, want 1..%d", n, u.net.MaxBatch()))
 	}
-	b.check("neural", u.obs, u.na, u.d)
+	b.check("neural", u.obs, u.na, u.d, false)
 	w, d, ad := u.obs+u.d, u.d, u.na*u.d
 
 	u.inputs(u.inNext[:n*w], b, true)

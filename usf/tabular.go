@@ -19,10 +19,23 @@ type TabularConfig struct {
 // Tabular is a universal SF over a finite set of vectors z_1..z_K: one
 // sf.Table per z, psi(s, a, z_k) = Tables[k] at (s, a). Observations are
 // one-hot states. A z passed to Psi or in a Batch must equal one of the set
-// exactly (the same float64 values).
+// exactly: the same float64 values, compared with == (so 0 and -0 match).
+// A z is found by a hash table built from Z by NewTabular and
+// UnmarshalBinary, in O(d) expected time whatever the size K of the set;
+// a Batch may instead give the index k of each z in K.
+//
+// Z and Tables are exported for reading; the set is fixed, so Z must not
+// be modified (the hash table would not see the change).
 type Tabular struct {
-	Z      [][]float64 // the set (copied at construction)
+	Z      [][]float64 // the set (copied at construction); read only
 	Tables []*sf.Table // Tables[k] holds psi(., ., Z[k])
+
+	// slots is an open-addressing (linear probing) hash table of the set:
+	// entry k+1 for Z[k], 0 for empty; len a power of two >= 2K. hashes
+	// holds hashZ of the entry in each slot.
+	slots  []int32
+	hashes []uint64
+	keys   []int // the positions of z that the hash reads
 
 	gamma  float64
 	alpha  float64
@@ -72,7 +85,96 @@ func NewTabular(states, actions int, zs [][]float64, gamma float64, cfg *Tabular
 	if power > 0 {
 		t.visits = make([]float64, len(zs)*states*actions)
 	}
+	t.buildIndex()
 	return t, nil
+}
+
+// buildIndex fills the hash table of the set. A duplicate z is entered
+// once, as its lowest k, so that Index returns the first match in Z.
+//
+// The hash reads only the key positions of z: scanning the positions in
+// order, a position is kept if it separates more vectors of the set (more
+// distinct partial hashes), until the partial hashes are as many as the
+// distinct vectors (of the full hashes). For vectors in general position
+// that is one position; for the standard basis, d-1. The key positions
+// only decide the speed: Index compares every component of a candidate.
+func (t *Tabular) buildIndex() {
+	d := len(t.Z[0])
+	seen := make(map[uint64]struct{}, len(t.Z))
+	distinct := func(hs []uint64) int {
+		clear(seen)
+		for _, h := range hs {
+			seen[h] = struct{}{}
+		}
+		return len(seen)
+	}
+	part := make([]uint64, len(t.Z))
+	cand := make([]uint64, len(t.Z))
+	for k, z := range t.Z {
+		h := uint64(fnvOffset)
+		for _, v := range z {
+			h = fnvStep(h, v)
+		}
+		cand[k] = h
+		part[k] = fnvOffset
+	}
+	target := distinct(cand)
+	t.keys = nil
+	for j, have := 0, 1; j < d && have < target; j++ {
+		for k, z := range t.Z {
+			cand[k] = fnvStep(part[k], z[j])
+		}
+		if n := distinct(cand); n > have {
+			have = n
+			t.keys = append(t.keys, j)
+			copy(part, cand)
+		}
+	}
+
+	n := 2
+	for n < 2*len(t.Z) {
+		n *= 2
+	}
+	t.slots, t.hashes = make([]int32, n), make([]uint64, n)
+	mask := uint64(n - 1)
+	for k, z := range t.Z {
+		if t.Index(z) >= 0 {
+			continue
+		}
+		h := t.hashZ(z)
+		i := h & mask
+		for t.slots[i] != 0 {
+			i = (i + 1) & mask
+		}
+		t.slots[i], t.hashes[i] = int32(k+1), h
+	}
+}
+
+const (
+	fnvOffset = 14695981039346656037 // FNV-1a 64-bit offset basis
+	fnvPrime  = 1099511628211        // FNV 64-bit prime
+)
+
+// fnvStep is one word-wise FNV-1a step on the bits of v, with -0 read as 0
+// (v+0 is +0 for v = -0; the two compare equal, so they must hash alike).
+func fnvStep(h uint64, v float64) uint64 {
+	return (h ^ math.Float64bits(v+0)) * fnvPrime
+}
+
+// hashZ hashes the key positions of z (see buildIndex) by fnvStep and
+// finishes with the 64-bit finaliser of MurmurHash3 (fmix64), so that the
+// low bits used for the slot depend on every input bit.
+func (t *Tabular) hashZ(z []float64) uint64 {
+	h := uint64(fnvOffset)
+	for _, j := range t.keys {
+		h = fnvStep(h, z[j])
+	}
+	h ^= h >> 33
+	h *= 0xff51afd7ed558ccd
+	h ^= h >> 33
+	h *= 0xc4ceb9fe1a85ec53
+	h ^= h >> 33
+	return h
 }
 
 // resolveStep applies the defaults of sf.StepSize.
@@ -100,24 +202,39 @@ func (t *Tabular) Shape() (obs, actions, dim int) {
 	return tab.S, tab.A, tab.D
 }
 
-// Index returns k with Z[k] equal to z, or -1.
+// Index returns the lowest k with Z[k] equal to z (every component ==),
+// or -1. It looks z up in a hash table: O(d) expected time for a z of
+// length d, whatever the size of the set. It does not allocate.
 func (t *Tabular) Index(z []float64) int {
-	for k, zk := range t.Z {
-		if len(zk) != len(z) {
-			return -1
+	if len(t.slots) == 0 || len(z) != len(t.Z[0]) {
+		return -1
+	}
+	h := t.hashZ(z)
+	mask := uint64(len(t.slots) - 1)
+	for i := h & mask; t.slots[i] != 0; i = (i + 1) & mask {
+		if t.hashes[i] != h {
+			continue
 		}
-		eq := true
-		for j, v := range zk {
-			if v != z[j] {
-				eq = false
-				break
-			}
-		}
-		if eq {
+		k := int(t.slots[i] - 1)
+		if equalVec(t.Z[k], z) {
 			return k
 		}
 	}
 	return -1
+}
+
+// equalVec reports whether a and b have the same length and equal
+// components.
+func equalVec(a, b []float64) bool {
+	if len(a) != len(b) {
+		return false
+	}
+	for j, v := range a {
+		if v != b[j] {
+			return false
+		}
+	}
+	return true
 }
 
 func (t *Tabular) mustIndex(z []float64) int {
@@ -153,9 +270,11 @@ func (t *Tabular) Err() error { return t.err }
 //	psi(s,a,z) += alpha (phi + gamma (1-terminal) psi(s',a',z) - psi(s,a,z))
 //
 // with a' the given next action or argmax_a' psi(s',a',z) . z. It reads S
-// and Next if set, else the one-hot X and NextX. The returned loss is
+// and Next if set, else the one-hot X and NextX; and the set indices K if
+// set, else Z (looked up as by Index). The returned loss is
 // (1/(2n)) sum ||delta||^2 of the deltas as they were applied. It panics if
-// b is malformed or a z is not in the set. It does not allocate.
+// b is malformed, a z is not in the set or an index of K is outside
+// [0, len(Z)). It does not allocate.
 func (t *Tabular) Update(b *Batch) (float64, error) {
 	if t.err != nil {
 		return 0, t.err
@@ -163,15 +282,21 @@ func (t *Tabular) Update(b *Batch) (float64, error) {
 	ns, na, d := t.Shape()
 	n := b.Len()
 	indexed := b.S != nil && b.Next != nil
+	byIndex := b.K != nil
 	if indexed {
 		if len(b.S) != n || len(b.Next) != n {
 			panic("usf: tabular: batch S and Next must have one entry per transition")
 		}
 		bb := *b
 		bb.X, bb.NextX = nil, nil
-		bb.check("tabular", ns, na, d)
+		bb.check("tabular", ns, na, d, byIndex)
 	} else {
-		b.check("tabular", ns, na, d)
+		b.check("tabular", ns, na, d, byIndex)
+	}
+	for _, k := range b.K {
+		if uint(k) >= uint(len(t.Z)) {
+			panic(fmt.Sprintf("usf: tabular: set index %d out of range [0, %d)", k, len(t.Z)))
+		}
 	}
 	var loss float64
 	for i := 0; i < n; i++ {
@@ -185,8 +310,15 @@ func (t *Tabular) Update(b *Batch) (float64, error) {
 		if uint(s) >= uint(ns) || uint(next) >= uint(ns) {
 			panic(fmt.Sprintf("usf: tabular: state %d or %d out of range [0, %d)", s, next, ns))
 		}
-		z := b.Z[i*d : (i+1)*d]
-		k := t.mustIndex(z)
+		var k int
+		var z []float64
+		if byIndex {
+			k = b.K[i]
+			z = t.Z[k]
+		} else {
+			z = b.Z[i*d : (i+1)*d]
+			k = t.mustIndex(z)
+		}
 		tab := t.Tables[k]
 		a := b.A[i]
 		phi := b.Phi[i*d : (i+1)*d]
