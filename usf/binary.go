@@ -411,8 +411,9 @@ func (u *Neural) UnmarshalBinary(data []byte) error {
 
 // MarshalBinary encodes r exactly: magic "USRP", version, capacity, obs, d,
 // size, head, added, then the stored part (the first size slots) of the
-// states, actions, next states, next actions, terminal flags,
-// observations, next observations, features and z, CRC-32.
+// states, actions, next states, next actions, terminal flags, the set
+// indices (only when d = 0), observations, next observations, features
+// and z (empty when d = 0), CRC-32.
 func (r *Replay) MarshalBinary() ([]byte, error) {
 	e := newEncoder(replayMagic)
 	e.int(r.capacity)
@@ -427,6 +428,9 @@ func (r *Replay) MarshalBinary() ([]byte, error) {
 	e.ints(r.next[:n])
 	e.ints(r.nextA[:n])
 	e.bools(r.term[:n])
+	if r.d == 0 {
+		e.ints(r.k[:n])
+	}
 	e.floats(r.x[:n*r.obs])
 	e.floats(r.nx[:n*r.obs])
 	e.floats(r.phi[:n*r.d])
@@ -443,7 +447,7 @@ func (r *Replay) UnmarshalBinary(data []byte) error {
 	if err != nil {
 		return err
 	}
-	c, obs, d := dec.size(1), dec.size(0), dec.size(1)
+	c, obs, d := dec.size(1), dec.size(0), dec.size(0)
 	size, head, added := dec.int(), dec.int(), dec.int()
 	if dec.bad || size < 0 || size > c || head < 0 || head >= c || added < size ||
 		(size < c && head != size) || !fits(c, max(obs, d)) {
@@ -451,12 +455,17 @@ func (r *Replay) UnmarshalBinary(data []byte) error {
 	}
 	s, a, next, nextA := dec.ints(), dec.ints(), dec.ints(), dec.ints()
 	term := dec.bools()
+	var k []int
+	if d == 0 {
+		k = dec.ints()
+	}
 	x, nx, phi, z := dec.floats(), dec.floats(), dec.floats(), dec.floats()
 	if err := dec.done(what); err != nil {
 		return err
 	}
 	if len(s) != size || len(a) != size || len(next) != size || len(nextA) != size || len(term) != size ||
-		len(x) != size*obs || len(nx) != size*obs || len(phi) != size*d || len(z) != size*d {
+		len(x) != size*obs || len(nx) != size*obs || len(phi) != size*d || len(z) != size*d ||
+		(d == 0 && len(k) != size) {
 		return corrupt(what, "lengths do not match the size")
 	}
 	n := &Replay{capacity: c, obs: obs, d: d, size: size, head: head, added: added}
@@ -466,6 +475,7 @@ func (r *Replay) UnmarshalBinary(data []byte) error {
 	copy(n.next, next)
 	copy(n.nextA, nextA)
 	copy(n.term, term)
+	copy(n.k, k)
 	copy(n.x, x)
 	copy(n.nx, nx)
 	copy(n.phi, phi)

@@ -167,6 +167,7 @@ func TestLoadCorrupt(t *testing.T) {
 	}{
 		{"neural", mustMarshal(t, x.u), func() loader { return new(Neural) }},
 		{"replay", mustMarshal(t, x.r), func() loader { return new(Replay) }},
+		{"index replay", mustMarshal(t, indexReplay(t)), func() loader { return new(Replay) }},
 		{"linear", mustMarshal(t, lin), func() loader { return new(Linear) }},
 		{"tabular", mustMarshal(t, tab), func() loader { return new(Tabular) }},
 	} {
@@ -245,6 +246,7 @@ func FuzzLoadReplay(f *testing.F) {
 	x.steps(f, 3)
 	f.Add(mustMarshal(f, x.r))
 	f.Add([]byte(replayMagic))
+	f.Add(mustMarshal(f, indexReplay(f)))
 	f.Fuzz(fuzzRoundTrip[Replay])
 }
 
@@ -260,4 +262,18 @@ func FuzzLoadTabular(f *testing.F) {
 	tab.Tables[1].Data[2] = -2
 	f.Add(mustMarshal(f, tab))
 	f.Fuzz(fuzzRoundTrip[Tabular])
+}
+
+// indexReplay returns a replay of dimension 0 (set indices kept instead of
+// phi and z) with observations, wrapped once.
+func indexReplay(t testing.TB) *Replay {
+	r, err := NewReplay(5, 2, 0)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for i := 0; i < 7; i++ {
+		r.Add(&Transition{S: i, A: i % 2, Next: i + 1, NextA: -1, Terminal: i == 3, K: i % 3,
+			X: []float64{float64(i), 1}, NextX: []float64{float64(i + 1), 1}})
+	}
+	return r
 }

@@ -78,6 +78,16 @@
 // drawn from the von Mises-Fisher distribution on the unit sphere with mean
 // direction w/||w|| (Wood 1994), or by normalising w/||w|| + sigma N(0, I).
 //
+// # Replay
+//
+// Replay is a ring of transitions with uniform minibatch sampling. It
+// keeps phi and z of every transition (33 + 16 obs + 16 d bytes each), or,
+// with dimension 0, only the index of z in a set the caller holds (41 +
+// 16 obs bytes), the caller recomputing phi and z after sampling; a
+// Tabular then reads the indices from Batch.K. Transition reads the stored
+// transitions oldest first, and Validate checks them against the sizes of
+// a problem (for instance after loading a checkpoint).
+//
 // # Saving
 //
 // Tabular, Linear, Neural and Replay implement encoding.BinaryMarshaler and

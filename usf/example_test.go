@@ -6,6 +6,7 @@ import (
 	"math/rand/v2"
 
 	"github.com/successor-go/successor/mdp"
+	"github.com/successor-go/successor/sf"
 	"github.com/successor-go/successor/usf"
 )
 
@@ -90,4 +91,60 @@ func ExampleCandidates() {
 	// unit true, close to w true
 	// unit true, close to w true
 	// unit true, close to w true
+}
+
+// A replay of dimension 0 keeps, instead of phi and z, the index of z in
+// the set of a Tabular; the caller writes phi after sampling and the
+// Tabular reads the indices from Batch.K. The world and the features are
+// those of ExampleLinear (derived by hand there): the SFs of z = (1, 0)
+// in state 0 are (1, 1) for move and (2, 0) for stay.
+func ExampleReplay_Transition() {
+	zs := [][]float64{{1, 0}, {0, 1}}
+	tab, err := usf.NewTabular(2, 2, zs, 0.5, &usf.TabularConfig{Step: sf.StepSize{Alpha: 1}})
+	if err != nil {
+		fmt.Println(err)
+		return
+	}
+	rep, err := usf.NewReplay(100, 0, 0)
+	if err != nil {
+		fmt.Println(err)
+		return
+	}
+	for k := range zs {
+		for s := 0; s < 2; s++ {
+			for a := 0; a < 2; a++ {
+				next := s // stay
+				if a == 0 {
+					next = 1 - s // move
+				}
+				rep.Add(&usf.Transition{S: s, A: a, Next: next, NextA: -1, K: k})
+			}
+		}
+	}
+	fmt.Println("stored:", rep.Len(), "valid:", rep.Validate(2, 2, len(zs)))
+	var tr usf.Transition
+	rep.Transition(&tr, rep.Len()-1)
+	fmt.Printf("newest: s=%d a=%d s'=%d k=%d\n", tr.S, tr.A, tr.Next, tr.K)
+
+	b := usf.NewBatch(16, 0, 2)
+	b.K = make([]int, 16)
+	rng := rand.New(rand.NewPCG(1, 2))
+	for range 200 {
+		rep.Sample(b, rng)
+		for i, next := range b.Next { // phi(s, a, s') = e_{s'}
+			clear(b.Phi[2*i : 2*i+2])
+			b.Phi[2*i+next] = 1
+		}
+		if _, err := tab.Update(b); err != nil {
+			fmt.Println(err)
+			return
+		}
+	}
+	psi := make([]float64, 4)
+	tab.PsiState(psi, 0, zs[0])
+	fmt.Printf("psi(0, move) = %.3f, psi(0, stay) = %.3f\n", psi[0:2], psi[2:4])
+	// Output:
+	// stored: 8 valid: <nil>
+	// newest: s=1 a=1 s'=1 k=1
+	// psi(0, move) = [1.000 1.000], psi(0, stay) = [2.000 0.000]
 }
