@@ -42,6 +42,26 @@ func (m OptimMethod) String() string {
 	return optimNames[m]
 }
 
+// MarshalText implements encoding.TextMarshaler: "adam" or "sparse-adam".
+func (m OptimMethod) MarshalText() ([]byte, error) {
+	if int(m) >= len(optimNames) {
+		return nil, fmt.Errorf("skills: optimiser %d: %w", int(m), ErrConfig)
+	}
+	return []byte(m.String()), nil
+}
+
+// UnmarshalText implements encoding.TextUnmarshaler, accepting the names
+// String returns. It returns an error wrapping ErrConfig for any other.
+func (m *OptimMethod) UnmarshalText(b []byte) error {
+	for i, n := range optimNames {
+		if string(b) == n {
+			*m = OptimMethod(i)
+			return nil
+		}
+	}
+	return fmt.Errorf("skills: unknown optimiser %q (want adam or sparse-adam): %w", b, ErrConfig)
+}
+
 // Optim holds the optimiser settings shared by the discriminators. Every
 // update is one step of Adam (Kingma & Ba 2015, Algorithm 1), dense or
 // sparse (see OptimMethod), on the mean loss of a minibatch, after optional

@@ -115,6 +115,9 @@ func (c *Softmax) FeatureDim() int { return c.k + 1 }
 // Steps returns the number of updates taken.
 func (c *Softmax) Steps() int { return c.steps }
 
+// Optim returns the optimiser settings, defaults filled in.
+func (c *Softmax) Optim() Optim { return c.opt }
+
 // logSoftmax writes log softmax(l) into dst and returns the index of the
 // largest logit (the first one on ties).
 func logSoftmax(dst, l []float64) int {

@@ -259,3 +259,27 @@ func TestSparseConfigAndFormat(t *testing.T) {
 		}
 	}
 }
+
+func TestOptimMethodText(t *testing.T) {
+	for _, m := range []OptimMethod{OptimAdam, OptimSparseAdam} {
+		b, err := m.MarshalText()
+		if err != nil {
+			t.Fatal(err)
+		}
+		var got OptimMethod = 9
+		if err := got.UnmarshalText(b); err != nil || got != m {
+			t.Errorf("%v: round trip %v, %v", m, got, err)
+		}
+	}
+	var m OptimMethod
+	if err := m.UnmarshalText([]byte("lazy")); !errors.Is(err, ErrConfig) {
+		t.Errorf("unknown name: %v, want ErrConfig", err)
+	}
+	if _, err := OptimMethod(5).MarshalText(); !errors.Is(err, ErrConfig) {
+		t.Errorf("method 5: %v, want ErrConfig", err)
+	}
+	_, sp := sparsePair(t, "vmf", Optim{})
+	if o := sp.(*VMF).Optim(); o.Method != OptimSparseAdam || o.LearnRate != 1e-3 {
+		t.Errorf("Optim() = %+v, want sparse adam with the default learn rate 1e-3", o)
+	}
+}

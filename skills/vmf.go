@@ -158,6 +158,9 @@ func (v *VMF) LogNorm() float64 { return v.logNorm }
 // Steps returns the number of updates taken.
 func (v *VMF) Steps() int { return v.steps }
 
+// Optim returns the optimiser settings, defaults filled in.
+func (v *VMF) Optim() Optim { return v.opt }
+
 // Features writes phi(x) = f(x)/||f(x)|| into dst. It panics if
 // len(dst) != d or len(x) != InDim().
 func (v *VMF) Features(dst, x []float64) {

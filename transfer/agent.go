@@ -223,7 +223,7 @@ func newAgent(n, na int, c PretrainConfig) (*Agent, error) {
 	ag.pcg = rand.NewPCG(c.Seed, streamPretrain)
 	ag.rng = rand.New(ag.pcg)
 	var err error
-	opt := skills.Optim{LearnRate: c.DiscRate}
+	opt := skills.Optim{LearnRate: c.DiscRate, Method: c.DiscOptim}
 	switch c.Method {
 	case VMF:
 		ag.disc, err = skills.NewVMF(&skills.VMFConfig{In: n, Dim: c.Dim, Kappa: c.Kappa, Optim: opt}, ag.rng)

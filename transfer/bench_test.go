@@ -4,6 +4,7 @@ import (
 	"testing"
 
 	"github.com/successor-go/successor/mdp"
+	"github.com/successor-go/successor/skills"
 )
 
 // depotAgent returns a VMF agent on the demo depot, trained for a few
@@ -60,7 +61,9 @@ func BenchmarkUpdate(b *testing.B) {
 }
 
 // BenchmarkPretrain measures pretraining throughput in environment steps
-// per second (sampling, acting and updates included) with the demo's sizes.
+// per second (sampling, acting and updates included) with the demo's sizes,
+// with the discriminator trained by dense Adam (the default) and by sparse
+// Adam.
 func BenchmarkPretrain(b *testing.B) {
 	g, err := mdp.Depot()
 	if err != nil {
@@ -68,14 +71,18 @@ func BenchmarkPretrain(b *testing.B) {
 	}
 	explore, _ := WithStart(g.MDP, UniformStart(g.MDP))
 	const steps = 20000
-	b.ReportAllocs()
-	for b.Loop() {
-		_, err := Pretrain(mdp.NewSampler(explore, 0), PretrainConfig{Dim: 64, Skills: 128, Kappa: 10, Gamma: 0.99, Steps: steps, EpisodeSteps: 50, Seed: 1})
-		if err != nil {
-			b.Fatal(err)
-		}
+	for _, m := range []skills.OptimMethod{skills.OptimAdam, skills.OptimSparseAdam} {
+		b.Run("disc="+m.String(), func(b *testing.B) {
+			b.ReportAllocs()
+			for b.Loop() {
+				_, err := Pretrain(mdp.NewSampler(explore, 0), PretrainConfig{Dim: 64, Skills: 128, Kappa: 10, Gamma: 0.99, Steps: steps, EpisodeSteps: 50, Seed: 1, DiscOptim: m})
+				if err != nil {
+					b.Fatal(err)
+				}
+			}
+			b.ReportMetric(float64(steps)*float64(b.N)/b.Elapsed().Seconds(), "steps/s")
+		})
 	}
-	b.ReportMetric(float64(steps)*float64(b.N)/b.Elapsed().Seconds(), "steps/s")
 }
 
 // BenchmarkAdapt is task inference from 1000 labelled transitions plus the

@@ -236,6 +236,12 @@ func Unmarshal(data []byte) (*Agent, error) {
 			return nil, bad("discriminator does not match the configuration")
 		}
 		ag.disc = disc
+		switch d := disc.(type) {
+		case *skills.VMF:
+			ag.cfg.DiscOptim = d.Optim().Method
+		case *skills.Softmax:
+			ag.cfg.DiscOptim = d.Optim().Method
+		}
 	default:
 		if len(discBytes) != 0 || len(rows) != ns*c.Dim {
 			return nil, bad("feature table sizes")

@@ -15,8 +15,8 @@ import (
 // w_z) goes to the usf.Replay. After each environment step one minibatch of
 // cfg.Batch transitions is drawn from the replay, and
 //
-//   - the discriminator takes one Adam step (skills.VMF or skills.Softmax
-//     Update) on the mean of -log q(z | s') over the minibatch (VMF:
+//   - the discriminator takes one Adam step, dense or sparse
+//     (cfg.DiscOptim; skills.VMF or skills.Softmax Update) on the mean of -log q(z | s') over the minibatch (VMF:
 //     log q = kappa phi(s').z + log C_d(kappa); Categorical:
 //     log q = log softmax(logits(s'))_z; Random and Given learn nothing);
 //   - for every transition of the minibatch, the universal SFs of the

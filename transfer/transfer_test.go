@@ -14,6 +14,7 @@ import (
 	"github.com/successor-go/successor"
 	"github.com/successor-go/successor/mdp"
 	"github.com/successor-go/successor/sf"
+	"github.com/successor-go/successor/skills"
 	"github.com/successor-go/successor/transfer"
 )
 
@@ -82,6 +83,24 @@ func TestExperimentDeterministic(t *testing.T) {
 	if !reflect.DeepEqual(r2.Records, r3.Records) {
 		t.Error("figures differ between two identical runs")
 	}
+	// The same with the sparse-Adam discriminator, across worker counts.
+	sp1, sp2 := tinyExperiment(t, 1), tinyExperiment(t, 2)
+	sp1.Methods, sp2.Methods = []transfer.Method{transfer.VMF}, []transfer.Method{transfer.VMF}
+	sp1.Pretrain.DiscOptim, sp2.Pretrain.DiscOptim = skills.OptimSparseAdam, skills.OptimSparseAdam
+	s1, err := sp1.Run()
+	if err != nil {
+		t.Fatal(err)
+	}
+	s2, err := sp2.Run()
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !reflect.DeepEqual(s1.Records, s2.Records) {
+		t.Error("sparse adam: figures differ between 1 and 2 workers")
+	}
+	if reflect.DeepEqual(s1.Records, r1.Records[:len(s1.Records)]) {
+		t.Error("sparse adam: figures equal to dense adam's; the option had no effect")
+	}
 	// Measured: vmf 0.74 (the berry job 1.00 on both seeds, the apple job
 	// 1.00 on one seed and -0.06 on the other), given 1.00, with the pure
 	// successor-feature policy (GPI over the nearest skills, no model fit)
@@ -109,9 +128,17 @@ func TestExperimentDeterministic(t *testing.T) {
 func TestCheckpointResume(t *testing.T) {
 	g, f := tinyGrid(t)
 	dir := t.TempDir()
-	for _, m := range []transfer.Method{transfer.VMF, transfer.Categorical, transfer.Random, transfer.Given} {
-		t.Run(m.String(), func(t *testing.T) {
-			cfg := transfer.PretrainConfig{Method: m, Features: f, Dim: 4, Skills: 8, Steps: 600, EpisodeSteps: 15, Seed: 7, Replay: 500, ProgressEvery: 50}
+	for _, tc := range []struct {
+		m transfer.Method
+		o skills.OptimMethod
+	}{
+		{transfer.VMF, skills.OptimAdam}, {transfer.Categorical, skills.OptimAdam},
+		{transfer.VMF, skills.OptimSparseAdam}, {transfer.Categorical, skills.OptimSparseAdam},
+		{transfer.Random, skills.OptimAdam}, {transfer.Given, skills.OptimAdam},
+	} {
+		m := tc.m
+		t.Run(m.String()+"/"+tc.o.String(), func(t *testing.T) {
+			cfg := transfer.PretrainConfig{Method: m, Features: f, Dim: 4, Skills: 8, Steps: 600, EpisodeSteps: 15, Seed: 7, Replay: 500, ProgressEvery: 50, DiscOptim: tc.o}
 			env := mdp.NewSampler(g.MDP, 0)
 			full, err := transfer.Pretrain(env, cfg)
 			if err != nil {
@@ -119,7 +146,7 @@ func TestCheckpointResume(t *testing.T) {
 			}
 			half := cfg
 			half.Steps = 300
-			half.CheckpointPath = filepath.Join(dir, m.String()+".ckpt")
+			half.CheckpointPath = filepath.Join(dir, m.String()+tc.o.String()+".ckpt")
 			if _, err := transfer.Pretrain(env, half); err != nil {
 				t.Fatal(err)
 			}
@@ -130,8 +157,11 @@ func TestCheckpointResume(t *testing.T) {
 			if resumed.Steps() != full.Steps() || resumed.Episodes() != full.Episodes() {
 				t.Fatalf("resumed at %d steps %d episodes, uninterrupted %d, %d", resumed.Steps(), resumed.Episodes(), full.Steps(), full.Episodes())
 			}
-			a := filepath.Join(dir, m.String()+"-a")
-			b := filepath.Join(dir, m.String()+"-b")
+			if got := resumed.Config().DiscOptim; got != tc.o {
+				t.Errorf("resumed discriminator optimiser %v, want %v", got, tc.o)
+			}
+			a := filepath.Join(dir, m.String()+tc.o.String()+"-a")
+			b := filepath.Join(dir, m.String()+tc.o.String()+"-b")
 			if err := full.Save(a); err != nil {
 				t.Fatal(err)
 			}
@@ -228,6 +258,7 @@ func TestConfigErrors(t *testing.T) {
 		{Epsilon: 2},
 		{LearnRate: 3},
 		{Method: 9},
+		{DiscOptim: 7},
 	} {
 		if _, err := transfer.Pretrain(env, cfg); !errors.Is(err, transfer.ErrConfig) {
 			t.Errorf("%+v: got %v, want ErrConfig", cfg, err)

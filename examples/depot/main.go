@@ -46,6 +46,7 @@ import (
 
 	"github.com/successor-go/successor/mdp"
 	"github.com/successor-go/successor/sf"
+	"github.com/successor-go/successor/skills"
 	"github.com/successor-go/successor/transfer"
 )
 
@@ -63,6 +64,8 @@ type options struct {
 	noPlots    bool
 	explore    transfer.Explore
 	dim        int
+	discRate   float64
+	discOptim  skills.OptimMethod
 	skills     int
 	candidates int
 }
@@ -97,6 +100,8 @@ func parseFlags(args []string, stderr io.Writer) (*options, error) {
 	fs.StringVar(&o.cpuProfile, "cpuprofile", "", "write a CPU profile of the whole run to this file")
 	fs.BoolVar(&o.noPlots, "noplots", false, "skip the PNG figures")
 	fs.IntVar(&o.dim, "dim", 0, "feature dimension d of the sphere methods, and the number of categorical skills (0: the demo's default)")
+	fs.Float64Var(&o.discRate, "discrate", 0, "step size of the discriminator's Adam (0: transfer's default)")
+	fs.TextVar(&o.discOptim, "discoptim", skills.OptimAdam, "discriminator optimiser: adam, or sparse-adam (only the minibatch's states and the bias; faster, transferred worse on this depot)")
 	fs.IntVar(&o.skills, "skills", 0, "number of skills K of the sphere methods (0: the demo's default)")
 	fs.IntVar(&o.candidates, "candidates", 0, "GPI candidates: the skills nearest the inferred task (0: transfer's default)")
 	var explore string
@@ -164,6 +169,8 @@ func parseFlags(args []string, stderr io.Writer) (*options, error) {
 		return nil, fmt.Errorf("%w: -steps %d: must be at least 1", errUsage, o.steps)
 	case o.workers < 0:
 		return nil, fmt.Errorf("%w: -workers %d: must not be negative", errUsage, o.workers)
+	case !(o.discRate >= 0) || o.discRate > 1e6:
+		return nil, fmt.Errorf("%w: -discrate %v: want 0 (default) or a positive step size", errUsage, o.discRate)
 	case o.dim < 0 || o.dim == 1 || o.skills < 0 || o.candidates < 0:
 		return nil, fmt.Errorf("%w: -dim %d, -skills %d, -candidates %d: want 0 (default) or at least 2, 1 and 1", errUsage, o.dim, o.skills, o.candidates)
 	case o.out == "":
@@ -328,6 +335,10 @@ func defaultPretrain(o *options) transfer.PretrainConfig {
 		Steps:        o.steps,
 		EpisodeSteps: 50,
 	}
+	if o.discRate > 0 {
+		c.DiscRate = o.discRate
+	}
+	c.DiscOptim = o.discOptim
 	if o.dim > 0 {
 		c.Dim = o.dim
 	}
