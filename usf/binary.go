@@ -21,6 +21,14 @@ const (
 	maxFloats    = 1 << 28 // largest slice a loader accepts
 )
 
+// replayLoadWords bounds the buffers a Replay loader allocates: capacity x
+// (5 + 2 obs + 2 d, +1 with d = 0) words of 8 bytes, at most 2^28 words
+// (2 GiB). The capacity comes from the file and is allocated up front (so
+// that Add stays allocation-free after a load); the bound keeps a corrupt
+// header that still carries a valid checksum from asking for more. Tests
+// lower it to keep fuzzing cheap.
+var replayLoadWords = uint64(maxFloats)
+
 type encoder struct{ b []byte }
 
 func newEncoder(magic string) *encoder {
@@ -450,7 +458,8 @@ func (r *Replay) UnmarshalBinary(data []byte) error {
 	c, obs, d := dec.size(1), dec.size(0), dec.size(0)
 	size, head, added := dec.int(), dec.int(), dec.int()
 	if dec.bad || size < 0 || size > c || head < 0 || head >= c || added < size ||
-		(size < c && head != size) || !fits(c, max(obs, d)) {
+		(size < c && head != size) || !fits(c, max(obs, d)) ||
+		!fits(c, 6+2*obs+2*d) || uint64(c)*uint64(6+2*obs+2*d) > replayLoadWords {
 		return corrupt(what, "bad header")
 	}
 	s, a, next, nextA := dec.ints(), dec.ints(), dec.ints(), dec.ints()

@@ -242,6 +242,11 @@ func FuzzLoadNeural(f *testing.F) {
 }
 
 func FuzzLoadReplay(f *testing.F) {
+	// A re-sealed header may ask for a capacity of up to 2^28 words, which
+	// the loader allocates up front; keep each input cheap. The limit itself
+	// is checked by TestReplayLoadLimit.
+	defer func(w uint64) { replayLoadWords = w }(replayLoadWords)
+	replayLoadWords = 1 << 16
 	x := newRun(f)
 	x.steps(f, 3)
 	f.Add(mustMarshal(f, x.r))
@@ -276,4 +281,25 @@ func indexReplay(t testing.TB) *Replay {
 			X: []float64{float64(i), 1}, NextX: []float64{float64(i + 1), 1}})
 	}
 	return r
+}
+
+// TestReplayLoadLimit checks that a header whose buffers would exceed the
+// load limit is rejected as corrupt before anything is allocated, and that
+// a replay within the limit still loads.
+func TestReplayLoadLimit(t *testing.T) {
+	defer func(w uint64) { replayLoadWords = w }(replayLoadWords)
+	r, err := NewReplay(100, 2, 3) // 100 x (6 + 4 + 6) = 1600 words
+	if err != nil {
+		t.Fatal(err)
+	}
+	b := mustMarshal(t, r)
+	replayLoadWords = 1600
+	var got Replay
+	if err := got.UnmarshalBinary(b); err != nil {
+		t.Fatalf("within the limit: %v", err)
+	}
+	replayLoadWords = 1599
+	if err := got.UnmarshalBinary(b); !errors.Is(err, ErrCorrupt) {
+		t.Fatalf("over the limit: got %v, want ErrCorrupt", err)
+	}
 }
