@@ -2,4 +2,4 @@ package successor
 
 // Version is the library's version. Cite it with experiment results; the
 // transfer package writes it into every results file.
-const Version = "0.1.0-dev"
+const Version = "0.1.0"
