@@ -101,10 +101,22 @@ func TestTextbookFiles(t *testing.T) {
 	}{
 		// Sutton & Barto 2nd ed., Example 6.2: 1/6 .. 5/6.
 		{"random_walk.json", 1, []float64{0, 1. / 6, 2. / 6, 3. / 6, 4. / 6, 5. / 6, 0}, tolExact},
-		// Sutton & Barto 2nd ed., Figure 3.2, rows 1 and 5 (as printed).
-		{"gridworld_3_5.json", 0.9, []float64{3.3, 8.8, 4.4, 5.3, 1.5}, tolBook},
-		// Sutton & Barto 2nd ed., Figure 4.1, first row.
-		{"gridworld_4_1.json", 1, []float64{0, -14, -20, -22}, 1e-9},
+		// Sutton & Barto 2nd ed., Figure 3.2, the whole table as printed
+		// (rows 2-4 from memory, as in TestEvaluateTextbook).
+		{"gridworld_3_5.json", 0.9, []float64{
+			3.3, 8.8, 4.4, 5.3, 1.5,
+			1.5, 3.0, 2.3, 1.9, 0.5,
+			0.1, 0.7, 0.7, 0.4, -0.4,
+			-1.0, -0.4, -0.4, -0.6, -1.2,
+			-1.9, -1.3, -1.2, -1.4, -2.0,
+		}, tolBook},
+		// Sutton & Barto 2nd ed., Figure 4.1, the k = infinity table.
+		{"gridworld_4_1.json", 1, []float64{
+			0, -14, -20, -22,
+			-14, -18, -20, -20,
+			-20, -20, -18, -14,
+			-22, -20, -14, 0,
+		}, 1e-9},
 	} {
 		t.Run(tc.file, func(t *testing.T) {
 			f, err := LoadFile(filepath.Join(testdataDir, tc.file))
@@ -118,7 +130,10 @@ func TestTextbookFiles(t *testing.T) {
 			if err != nil {
 				t.Fatal(err)
 			}
-			if d := maxDiff(v.V[:len(tc.want)], tc.want); d > tc.tol {
+			if len(v.V) != len(tc.want) {
+				t.Fatalf("%d states, want %d", len(v.V), len(tc.want))
+			}
+			if d := maxDiff(v.V, tc.want); d > tc.tol {
 				t.Errorf("max |V - book| = %g > %g", d, tc.tol)
 			}
 		})
