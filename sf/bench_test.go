@@ -160,6 +160,7 @@ func BenchmarkTDRatio(b *testing.B) {
 				tr := benchStream(1024, ns, na)
 				x, y := make([]float64, d), make([]float64, d)
 				bestFMA, bestTD, bestMadd := math.Inf(1), math.Inf(1), math.Inf(1)
+				b.ReportAllocs()
 				for b.Loop() {
 					t0 := time.Now()
 					for k := 0; k < chunk; k++ {
