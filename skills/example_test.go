@@ -13,7 +13,9 @@ func ExampleVMFLogNorm() {
 	k := 2.0
 	fmt.Printf("%.12f\n", math.Exp(skills.VMFLogNorm(3, k)))
 	fmt.Printf("%.12f\n", k/(4*math.Pi*math.Sinh(k)))
-	// Large kappa does not overflow.
+	// Large kappa does not overflow. Reference: log C_64(1000) =
+	// 31 log 1000 - 32 log(2 pi) - log I_31(1000) = -839.8182594405,
+	// computed with mpmath's besseli at 30 digits.
 	fmt.Printf("%.6f\n", skills.VMFLogNorm(64, 1000))
 	// Output:
 	// 0.043882290796
@@ -44,6 +46,10 @@ func ExampleSoftmax_Reward() {
 	fmt.Printf("reward %.3f, log 4 = %.3f\n", d.Reward(x[4:8], z[4:8]), math.Log(4))
 	e, _ := skills.EstimateMI(d, skills.Categorical{K: 4}, x, z)
 	fmt.Printf("MI bound %.3f, accuracy %.2f\n", e.Bound, e.Accuracy)
+	// The reward and bound 1.382 are our own seeded run (a regression
+	// value); the outside reference is log 4 = 1.386, the most either can
+	// be for four equally likely skills (derived by hand: log q(z|s) <= 0,
+	// so log q(z|s) - log p(z) <= -log(1/4)).
 	// Output:
 	// reward 1.382, log 4 = 1.386
 	// MI bound 1.382, accuracy 1.00
