@@ -251,6 +251,7 @@ func BenchmarkTabularIndex(b *testing.B) {
 			tab, bt, _ := tabularBench(k, d)
 			b.Run(fmt.Sprintf("K=%d,d=%d/hash", k, d), func(b *testing.B) {
 				var sink int
+				b.ReportAllocs()
 				for b.Loop() {
 					for i := 0; i < 64; i++ {
 						sink += tab.Index(bt.Z[i*d : (i+1)*d])
@@ -260,6 +261,7 @@ func BenchmarkTabularIndex(b *testing.B) {
 			})
 			b.Run(fmt.Sprintf("K=%d,d=%d/scan", k, d), func(b *testing.B) {
 				var sink int
+				b.ReportAllocs()
 				for b.Loop() {
 					for i := 0; i < 64; i++ {
 						sink += scanIndex(tab.Z, bt.Z[i*d:(i+1)*d])
