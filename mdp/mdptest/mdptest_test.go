@@ -13,6 +13,13 @@ import (
 func TestCases(t *testing.T) {
 	for _, c := range mdptest.All() {
 		t.Run(c.Name, func(t *testing.T) {
+			n := c.MDP.NumStates()
+			if len(c.V) != n || (c.OptimalV != nil && len(c.OptimalV) != n) {
+				t.Fatalf("%d states but %d values and %d optimal values", n, len(c.V), len(c.OptimalV))
+			}
+			if c.Source == "" || !(c.Tol > 0) || (c.OptimalV != nil && !(c.OptimalTol > 0)) {
+				t.Fatalf("case without a source or a tolerance: %q, %g, %g", c.Source, c.Tol, c.OptimalTol)
+			}
 			v, err := mdp.Evaluate(c.MDP, c.Policy, c.Reward, c.Gamma)
 			if err != nil {
 				t.Fatal(err)
