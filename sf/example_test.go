@@ -161,14 +161,21 @@ func Example_customFeatureMap() {
 	fmt.Printf("value of C: %.3f\n", 0.5*(psi.Q(3, 0, []float64{10, -1})+psi.Q(3, 1, []float64{10, -1})))
 
 	t, _ := sf.NewTable(7, 2, 2)
-	if _, err := sf.NewTD(t, corner{}, 1, nil); err != nil {
+	td, err := sf.NewTD(t, corner{}, 1, &sf.TDSettings{Step: sf.StepSize{Alpha: 1}})
+	if err != nil {
 		log.Fatal(err)
 	}
-	fmt.Println("TD accepts it too")
+	// With step 1, a move into a terminal state sets psi to phi (derived by
+	// hand: the target has no bootstrap term): E moving right ends the walk
+	// and takes one step.
+	if err := td.Update(5, 1, 6, true, 0); err != nil {
+		log.Fatal(err)
+	}
+	fmt.Println("TD accepts it too: psi(E, right) =", t.Row(5, 1))
 	// Output:
 	// end 1.000, steps 9.000
 	// value of C: 1.000
-	// TD accepts it too
+	// TD accepts it too: psi(E, right) = [1 1]
 }
 
 func ExampleInferTask() {
