@@ -160,6 +160,10 @@ type PretrainConfig struct {
 	ProgressEvery int
 	// Progress, if not nil, receives progress reports.
 	Progress func(Progress) `json:"-"`
+
+	// stop, if not nil, is asked at every episode end before the last;
+	// a non-nil error ends the run with that error (Experiment.RunContext).
+	stop func() error
 }
 
 // Progress is a pretraining progress report.

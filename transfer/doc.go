@@ -133,4 +133,13 @@
 // counts and the counters, framed by a magic number, a version and a CRC-32
 // (Castagnoli) checksum. Resume continues bit-identically: a run
 // saved at step N and resumed to 2N equals an uninterrupted 2N run.
+//
+// An Experiment with a CheckpointDir keeps, per pretraining run (method m,
+// seed s), the checkpoint <m>-seed<s>.ckpt and a run record <m>-seed<s>.run
+// (a fingerprint of the settings, the final MI estimate and the result
+// rows). Stopped at any point (killed, or RunContext's context cancelled),
+// it restarts where it stopped: finished runs keep their rows, pretrained
+// ones go straight to adaptation, the others resume from their last
+// checkpoint, and the figures equal those of an uninterrupted experiment
+// bit for bit. Files of another configuration are refused (ErrCheckpoint).
 package transfer

@@ -1,8 +1,10 @@
 package transfer
 
 import (
+	"context"
 	"fmt"
 	"math"
+	"os"
 	"runtime"
 	"sync"
 	"time"
@@ -63,8 +65,48 @@ type Experiment struct {
 	// pretraining steps done so far and the total planned.
 	Progress func(done, total int) `json:"-"`
 	// Keep, if not nil, receives every pretrained agent (called
-	// concurrently from the workers).
+	// concurrently from the workers), also one read back from
+	// CheckpointDir.
 	Keep func(m Method, seed uint64, ag *Agent) `json:"-"`
+
+	// CheckpointDir, if not empty, is a folder (created if missing) in
+	// which every pretraining run (method m, seed s) keeps its state, so an
+	// interrupted experiment loses at most a few steps per run:
+	//
+	//	<m>-seed<s>.ckpt  the agent's checkpoint (Agent.Save format), written
+	//	                  every Pretrain.CheckpointEvery steps (0 means
+	//	                  Steps/10) and at the end of pretraining;
+	//	<m>-seed<s>.run   the run's record: a fingerprint of everything its
+	//	                  figures depend on, its final MI estimate and, once
+	//	                  adapted, its result rows (JSON with a CRC-32C).
+	//
+	// m is the method's text form (vmf, categorical, random, given) and s
+	// the experiment seed in decimal. On start a run with result rows
+	// takes them as they are; one with a finished checkpoint skips to
+	// adaptation; one with a partial checkpoint resumes pretraining from
+	// it (Resume); a run without files starts afresh. The figures are
+	// then bit-identical to those of an uninterrupted experiment (the
+	// timings aside). A checkpoint or record of another configuration is
+	// an error wrapping ErrCheckpoint, never mixed in: the fingerprint
+	// covers the pretraining, adaptation and job settings, the budgets,
+	// the MDP sizes and the place features at every next state, but not
+	// the transition probabilities of Task and Explore, which are the
+	// caller's to keep fixed within a folder. The baselines are cheap and
+	// always recomputed. Results.Resumed lists what was read back.
+	CheckpointDir string `json:"-"`
+}
+
+// ResumedRun says what an experiment read back from its CheckpointDir for
+// one pretraining run.
+type ResumedRun struct {
+	Method Method
+	Seed   uint64
+	// Steps is the number of pretraining steps in the checkpoint (or of
+	// the finished run for Adapted).
+	Steps int
+	// Pretrained reports that pretraining had finished, and Adapted that
+	// the result rows were read rather than recomputed.
+	Pretrained, Adapted bool
 }
 
 // Variant names. A pretrained method m is scored in three variants, named
@@ -167,15 +209,34 @@ type Results struct {
 	// what each is.
 	Variants    []string      `json:"variants"`
 	VariantInfo []VariantInfo `json:"variant_info"`
+	// Resumed lists the runs that continued from Experiment.CheckpointDir,
+	// in unit order (not in the results file: the figures do not depend
+	// on it).
+	Resumed []ResumedRun `json:"-"`
 }
 
 // Run runs the experiment. Work is split into units (one pretrained method
 // on one seed, or the baselines of one seed), run by Workers goroutines;
 // each unit draws only from generators derived from its own seed, so the
-// figures are the same for any number of workers.
+// figures are the same for any number of workers. Run is RunContext with
+// context.Background().
 func (e *Experiment) Run() (*Results, error) {
+	return e.RunContext(context.Background())
+}
+
+// RunContext runs the experiment as Run does until ctx is done: then no
+// unit starts, pretraining runs stop at their next episode end, and
+// RunContext returns an error wrapping ctx.Err() once the running units
+// have stopped. With a CheckpointDir, a later run continues where this
+// one stopped.
+func (e *Experiment) RunContext(ctx context.Context) (*Results, error) {
 	if err := e.check(); err != nil {
 		return nil, err
+	}
+	if e.CheckpointDir != "" {
+		if err := os.MkdirAll(e.CheckpointDir, 0o755); err != nil {
+			return nil, fmt.Errorf("transfer: checkpoint folder: %w", err)
+		}
 	}
 	refs := make([]*Reference, len(e.Jobs))
 	rewards := make([]mdp.Reward, len(e.Jobs))
@@ -207,6 +268,7 @@ func (e *Experiment) Run() (*Results, error) {
 	mis := make([]float64, len(units))
 	steps := make([]int, len(units))
 	errs := make([]error, len(units))
+	resumed := make([]*ResumedRun, len(units))
 
 	pc, _ := e.Pretrain.withDefaults()
 	total := len(e.Seeds) * len(e.Methods) * pc.Steps
@@ -235,24 +297,23 @@ func (e *Experiment) Run() (*Results, error) {
 			for ui := range next {
 				u := units[ui]
 				seed := e.Seeds[u.seed]
+				if err := ctx.Err(); err != nil {
+					errs[ui] = err
+					continue
+				}
 				if u.method < 0 {
 					out[ui], errs[ui] = e.runBaselines(seed, rewards, refs)
 					continue
 				}
 				m := e.Methods[u.method]
 				t0 := time.Now()
-				ag, lastMI, err := e.pretrain(m, seed, addSteps)
+				r, err := e.runMethod(ctx, m, seed, rewards, refs, addSteps)
 				times[ui] = time.Since(t0).Seconds()
 				if err != nil {
 					errs[ui] = err
 					continue
 				}
-				steps[ui] = ag.Steps()
-				mis[ui] = lastMI
-				if e.Keep != nil {
-					e.Keep(m, seed, ag)
-				}
-				out[ui], errs[ui] = e.adaptAll(ag, seed, rewards, refs)
+				out[ui], steps[ui], mis[ui], resumed[ui] = r.recs, r.steps, r.mi, r.resumed
 			}
 		}()
 	}
@@ -268,6 +329,11 @@ func (e *Experiment) Run() (*Results, error) {
 	}
 
 	res := &Results{}
+	for _, r := range resumed {
+		if r != nil {
+			res.Resumed = append(res.Resumed, *r)
+		}
+	}
 	for _, m := range e.Methods {
 		res.VariantInfo = append(res.VariantInfo, methodVariants(m, e.Adapt.Candidates)...)
 	}
@@ -357,33 +423,6 @@ func DeriveSeed(seed uint64, index uint64) uint64 {
 	z = (z ^ (z >> 30)) * 0xbf58476d1ce4e5b9
 	z = (z ^ (z >> 27)) * 0x94d049bb133111eb
 	return z ^ (z >> 31)
-}
-
-func (e *Experiment) pretrain(m Method, seed uint64, addSteps func(int)) (*Agent, float64, error) {
-	cfg := e.Pretrain
-	cfg.Method = m
-	cfg.Features = e.Places
-	cfg.Seed = DeriveSeed(seed, uint64(m))
-	var lastMI float64
-	last := 0
-	cfg.Progress = func(p Progress) {
-		if p.HasMI {
-			lastMI = p.MI
-		}
-		addSteps(p.Steps - last)
-		last = p.Steps
-	}
-	explore := e.Explore
-	if explore == nil {
-		explore = e.Task
-	}
-	c, _ := cfg.withDefaults()
-	env := mdp.NewSampler(explore, c.EpisodeSteps)
-	ag, err := Pretrain(env, cfg)
-	if err != nil {
-		return nil, 0, fmt.Errorf("pretrain %s: %w", m, err)
-	}
-	return ag, lastMI, nil
 }
 
 // adaptAll scores agent ag on every job and budget in the three variants

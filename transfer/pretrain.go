@@ -59,8 +59,13 @@ func Resume(env Env, path string, cfg PretrainConfig) (*Agent, error) {
 	if err != nil {
 		return nil, err
 	}
+	return ag, ag.resume(env, path, cfg)
+}
+
+// resume continues the loaded agent ag as Resume describes.
+func (ag *Agent) resume(env Env, path string, cfg PretrainConfig) error {
 	if ag.n != env.NumStates() || ag.a != env.NumActions() {
-		return nil, fmt.Errorf("transfer: resume: checkpoint has %d states and %d actions, environment %d and %d: %w",
+		return fmt.Errorf("transfer: resume: checkpoint has %d states and %d actions, environment %d and %d: %w",
 			ag.n, ag.a, env.NumStates(), env.NumActions(), ErrConfig)
 	}
 	c := ag.cfg
@@ -77,11 +82,12 @@ func Resume(env Env, path string, cfg PretrainConfig) (*Agent, error) {
 	if cfg.ProgressEvery != 0 {
 		c.ProgressEvery = cfg.ProgressEvery
 	}
+	c.stop = cfg.stop
 	if c.Steps < 0 || c.CheckpointEvery < 0 || c.ProgressEvery < 0 {
-		return nil, fmt.Errorf("transfer: resume: negative count: %w", ErrConfig)
+		return fmt.Errorf("transfer: resume: negative count: %w", ErrConfig)
 	}
 	ag.cfg = c
-	return ag, ag.train(env)
+	return ag.train(env)
 }
 
 // maxEmpty is the number of consecutive episodes without a step (a
@@ -154,6 +160,11 @@ func (ag *Agent) train(env Env) error {
 			}
 			if err := ag.Save(c.CheckpointPath); err != nil {
 				return err
+			}
+		}
+		if c.stop != nil && ag.steps < c.Steps {
+			if err := c.stop(); err != nil {
+				return fmt.Errorf("transfer: pretrain stopped at step %d: %w", ag.steps, err)
 			}
 		}
 	}

@@ -1,10 +1,14 @@
 package main
 
 import (
+	"bytes"
+	"encoding/json"
 	"errors"
 	"io"
 	"os"
 	"path/filepath"
+	"reflect"
+	"strings"
 	"testing"
 )
 
@@ -26,6 +30,8 @@ func TestParseFlags(t *testing.T) {
 		{[]string{"-out", ""}, false},
 		{[]string{"stray"}, false},
 		{[]string{"-nosuchflag"}, false},
+		{[]string{"-checkpoints", "ck"}, true},
+		{[]string{"-checkpoints", ""}, false},
 	} {
 		o, err := parseFlags(tc.args, io.Discard)
 		if tc.ok && err != nil {
@@ -53,6 +59,62 @@ func TestQuickRun(t *testing.T) {
 	for _, f := range []string{"results.json", "results.csv", "returns.png", "successor.png", "skills-vmf.png"} {
 		if st, err := os.Stat(filepath.Join(dir, f)); err != nil || st.Size() == 0 {
 			t.Errorf("%s: %v", f, err)
+		}
+	}
+}
+
+// withoutTimings decodes a results.json and drops the fields that depend on
+// the machine (pretraining seconds and steps per second).
+func withoutTimings(t *testing.T, path string) map[string]any {
+	t.Helper()
+	data, err := os.ReadFile(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var v map[string]any
+	if err := json.Unmarshal(data, &v); err != nil {
+		t.Fatal(err)
+	}
+	res, _ := v["results"].(map[string]any)
+	pre, _ := res["pretrain"].([]any)
+	if len(pre) == 0 {
+		t.Fatalf("%s: no results.pretrain", path)
+	}
+	for _, p := range pre {
+		m := p.(map[string]any)
+		delete(m, "seconds")
+		delete(m, "steps_per_second")
+	}
+	return v
+}
+
+// TestCheckpointsRestart runs the demo with -checkpoints twice into the
+// same folder: the second run reads every run back, says so, and writes
+// the same results.json as a run without checkpoints (timings aside).
+func TestCheckpointsRestart(t *testing.T) {
+	dir := t.TempDir()
+	args := []string{"-quick", "-methods", "given", "-steps", "600", "-seeds", "2", "-budget", "60", "-noplots"}
+	plain := filepath.Join(dir, "plain")
+	if err := run(append(args, "-out", plain), io.Discard, io.Discard); err != nil {
+		t.Fatal(err)
+	}
+	ck := filepath.Join(dir, "ck")
+	for i, want := range []string{"", "Resumed 2 pretraining runs from " + ck} {
+		out := filepath.Join(dir, "out")
+		var stdout bytes.Buffer
+		if err := run(append(args, "-out", out, "-checkpoints", ck, "-workers", []string{"1", "2"}[i]), &stdout, io.Discard); err != nil {
+			t.Fatal(err)
+		}
+		if got := strings.Contains(stdout.String(), "Resumed"); got != (want != "") || !strings.Contains(stdout.String(), want) {
+			t.Errorf("run %d: output does not say %q as it should:\n%s", i+1, want, stdout.String())
+		}
+		if !reflect.DeepEqual(withoutTimings(t, filepath.Join(out, "results.json")), withoutTimings(t, filepath.Join(plain, "results.json"))) {
+			t.Errorf("run %d: results.json differs from the run without checkpoints", i+1)
+		}
+	}
+	for _, f := range []string{"given-seed1.ckpt", "given-seed1.run", "given-seed2.ckpt", "given-seed2.run"} {
+		if _, err := os.Stat(filepath.Join(ck, f)); err != nil {
+			t.Error(err)
 		}
 	}
 }
