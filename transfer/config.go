@@ -162,7 +162,8 @@ type PretrainConfig struct {
 	Progress func(Progress) `json:"-"`
 
 	// stop, if not nil, is asked at every episode end before the last;
-	// a non-nil error ends the run with that error (Experiment.RunContext).
+	// a non-nil error ends the run with that error, after a checkpoint
+	// if CheckpointPath is set (Experiment.RunContext).
 	stop func() error
 }
 

@@ -225,10 +225,10 @@ func (e *Experiment) Run() (*Results, error) {
 }
 
 // RunContext runs the experiment as Run does until ctx is done: then no
-// unit starts, pretraining runs stop at their next episode end, and
-// RunContext returns an error wrapping ctx.Err() once the running units
-// have stopped. With a CheckpointDir, a later run continues where this
-// one stopped.
+// unit starts, pretraining runs stop at their next episode end (saving a
+// checkpoint there if CheckpointDir is set), and RunContext returns an
+// error wrapping ctx.Err() once the running units have stopped. With a
+// CheckpointDir, a later run continues where this one stopped.
 func (e *Experiment) RunContext(ctx context.Context) (*Results, error) {
 	if err := e.check(); err != nil {
 		return nil, err

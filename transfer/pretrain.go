@@ -164,6 +164,13 @@ func (ag *Agent) train(env Env) error {
 		}
 		if c.stop != nil && ag.steps < c.Steps {
 			if err := c.stop(); err != nil {
+				// Keep what was done: the state at an episode end
+				// continues like any checkpoint.
+				if c.CheckpointPath != "" {
+					if serr := ag.Save(c.CheckpointPath); serr != nil {
+						return serr
+					}
+				}
 				return fmt.Errorf("transfer: pretrain stopped at step %d: %w", ag.steps, err)
 			}
 		}

@@ -4,6 +4,7 @@ import (
 	"context"
 	"encoding/json"
 	"errors"
+	"fmt"
 	"hash/crc32"
 	"os"
 	"path/filepath"
@@ -105,8 +106,9 @@ func TestExperimentCheckpointResume(t *testing.T) {
 			cancel()
 		}
 	}
-	if _, err := e1.RunContext(ctx); !errors.Is(err, context.Canceled) {
-		t.Fatalf("interrupted run: got %v, want context.Canceled", err)
+	_, stopErr := e1.RunContext(ctx)
+	if !errors.Is(stopErr, context.Canceled) {
+		t.Fatalf("interrupted run: got %v, want context.Canceled", stopErr)
 	}
 	ck, rec := transfer.RunFiles(transfer.VMF, 2)
 	if ck != "vmf-seed2.ckpt" || rec != "vmf-seed2.run" {
@@ -120,6 +122,10 @@ func TestExperimentCheckpointResume(t *testing.T) {
 		t.Fatalf("checkpoint of the interrupted run at step %d, want part-way", ag.Steps())
 	}
 	partial := ag.Steps()
+	// The stopped run saved its state where it stopped.
+	if want := fmt.Sprintf("stopped at step %d:", partial); !strings.Contains(stopErr.Error(), want) {
+		t.Errorf("error %q does not say %q", stopErr, want)
+	}
 	if ck, _ := transfer.RunFiles(transfer.Given, 2); fileExists(filepath.Join(dir, ck)) {
 		t.Errorf("%s written before its run started", ck)
 	}

@@ -116,7 +116,7 @@ func parseFlags(args []string, stderr io.Writer) (*options, error) {
 	fs.TextVar(&o.discOptim, "discoptim", skills.OptimAdam, "discriminator optimiser: adam, or sparse-adam (only the minibatch's states and the bias; faster, transferred worse on this depot)")
 	fs.IntVar(&o.skills, "skills", 0, "number of skills K of the sphere methods (0: the demo's default)")
 	fs.IntVar(&o.candidates, "candidates", 0, "GPI candidates: the skills nearest the inferred task (0: transfer's default)")
-	fs.StringVar(&o.ckptDir, "checkpoints", "", "keep every pretraining run's checkpoint and result rows in this folder (created if missing), so a run that is\nstopped (Ctrl-C, kill, crash) continues where it stopped when started again with the same flags and folder; the figures are\nthe same as without a stop. Files of other settings are refused: use a new folder per setting. Empty: off")
+	fs.StringVar(&o.ckptDir, "checkpoints", "", "keep every pretraining run's checkpoint and result rows in folder `DIR` (created if missing), so a run that is\nstopped (Ctrl-C, kill, crash) continues where it stopped when started again with the same flags and folder; the figures are\nthe same as without a stop. Files of other settings are refused: use a new folder per setting. Default: off (nothing kept;\nthe files take tens of MB per run)")
 	var explore string
 	fs.StringVar(&explore, "explore", "skills", "how the agent collects its labelled steps: skills (follow its skills), greedy (skills, then act on the task inferred so far), uniform (random actions)")
 	fs.Usage = func() {
@@ -312,8 +312,14 @@ func run(args []string, stdout, stderr io.Writer) error {
 	if o.ckptDir != "" {
 		fmt.Fprintf(stderr, "depot: checkpoints in %s (an interrupted run continues from them when started again with the same flags)\n", o.ckptDir)
 	}
+	// The first Ctrl-C stops the runs at their next episode end; a second
+	// one kills the program.
 	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt)
 	defer stop()
+	go func() {
+		<-ctx.Done()
+		stop()
+	}()
 	t0 := time.Now()
 	res, err := e.RunContext(ctx)
 	finish()
