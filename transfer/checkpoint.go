@@ -72,7 +72,22 @@ func (ag *Agent) WriteTo(w io.Writer) (int64, error) {
 }
 
 func (ag *Agent) marshal() []byte {
-	var e enc
+	// The large parts are encoded first so that the buffer is allocated
+	// once at its final size, and the header is written in place in front
+	// of the payload: a checkpoint of B bytes needs about 2B of memory.
+	var discBytes []byte
+	if ag.disc != nil {
+		b, err := skills.Marshal(ag.disc)
+		if err != nil {
+			panic("transfer: discriminator marshal: " + err.Error()) // cannot fail for VMF and Softmax
+		}
+		discBytes = b
+	}
+	tabBytes := mustMarshal(ag.usf)
+	bufBytes := mustMarshal(ag.buf)
+	const head = 8 + 4 + 8
+	size := head + len(discBytes) + len(tabBytes) + len(bufBytes) + 8*(ag.n*ag.d+ag.k*len(ag.zs[0])+2*len(ag.counts)) + 1024
+	e := enc{b: make([]byte, head, size)}
 	c := &ag.cfg
 	e.i(int64(c.Method))
 	e.i(int64(c.Dim))
@@ -94,11 +109,7 @@ func (ag *Agent) marshal() []byte {
 	e.i(int64(c.Relabel))
 	// The discriminator (skills.Marshal) or the fixed feature rows.
 	if ag.disc != nil {
-		b, err := skills.Marshal(ag.disc)
-		if err != nil {
-			panic("transfer: discriminator marshal: " + err.Error()) // cannot fail for VMF and Softmax
-		}
-		e.bs(b)
+		e.bs(discBytes)
 		e.fs(nil)
 	} else {
 		e.bs(nil)
@@ -114,8 +125,8 @@ func (ag *Agent) marshal() []byte {
 	}
 	e.i(int64(len(ag.zs[0])))
 	e.fs(zs)
-	e.bs(mustMarshal(ag.usf))
-	e.bs(mustMarshal(ag.buf))
+	e.bs(tabBytes)
+	e.bs(bufBytes)
 	e.bs(mustMarshal(ag.pcg))
 	keys := sortedKeys(ag.counts)
 	e.i(int64(len(keys)))
@@ -134,13 +145,11 @@ func (ag *Agent) marshal() []byte {
 	e.f(ag.acc.mi2)
 	e.f(ag.acc.td)
 
-	var out bytes.Buffer
-	out.Write(checkpointMagic[:])
-	binary.Write(&out, binary.LittleEndian, uint32(checkpointVersion))
-	binary.Write(&out, binary.LittleEndian, uint64(len(e.b)))
-	out.Write(e.b)
-	binary.Write(&out, binary.LittleEndian, crc32.Checksum(out.Bytes(), crcTable))
-	return out.Bytes()
+	out := e.b
+	copy(out, checkpointMagic[:])
+	binary.LittleEndian.PutUint32(out[8:], checkpointVersion)
+	binary.LittleEndian.PutUint64(out[12:], uint64(len(out)-head))
+	return binary.LittleEndian.AppendUint32(out, crc32.Checksum(out, crcTable))
 }
 
 func mustMarshal(m encoding.BinaryMarshaler) []byte {

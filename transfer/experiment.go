@@ -75,7 +75,8 @@ type Experiment struct {
 	//
 	//	<m>-seed<s>.ckpt  the agent's checkpoint (Agent.Save format), written
 	//	                  every Pretrain.CheckpointEvery steps (0 means
-	//	                  Steps/10) and at the end of pretraining;
+	//	                  Steps/5), when stopped by RunContext's context,
+	//	                  and at the end of pretraining;
 	//	<m>-seed<s>.run   the run's record: a fingerprint of everything its
 	//	                  figures depend on, its final MI estimate and, once
 	//	                  adapted, its result rows (JSON with a CRC-32C).

@@ -121,7 +121,7 @@ func (e *Experiment) runMethod(ctx context.Context, m Method, seed uint64, rewar
 	}
 	cfg.CheckpointPath = ckPath
 	if cfg.CheckpointEvery == 0 {
-		cfg.CheckpointEvery = max(c.Steps/10, 1)
+		cfg.CheckpointEvery = max(c.Steps/5, 1)
 	}
 	var resumed *ResumedRun
 	switch {
