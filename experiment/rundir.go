@@ -12,7 +12,6 @@ import (
 	"io/fs"
 	"os"
 	"path/filepath"
-	"sort"
 
 	"github.com/successor-go/successor/internal/fileio"
 	"github.com/successor-go/successor/mdp"
@@ -181,14 +180,13 @@ func checkRun(ag *transfer.Agent, c transfer.PretrainConfig, e *Experiment, path
 		return diff("actions", ag.NumActions(), e.Task.NumActions())
 	}
 	got, want := configFields(ag.Config()), configFields(c)
-	keys := make([]string, 0, len(want))
-	for k := range want {
-		keys = append(keys, k)
-	}
-	sort.Strings(keys)
-	for _, k := range keys {
-		if string(got[k]) != string(want[k]) {
-			return diff(k, string(got[k]), string(want[k]))
+	for i, f := range want {
+		if i >= len(got) || got[i].key != f.key || string(got[i].val) != string(f.val) {
+			g := ""
+			if i < len(got) {
+				g = string(got[i].val)
+			}
+			return diff(f.key, g, string(f.val))
 		}
 	}
 	if c.Method == transfer.Given {
@@ -207,18 +205,36 @@ func checkRun(ag *transfer.Agent, c transfer.PretrainConfig, e *Experiment, path
 	return nil
 }
 
-// configFields returns the recorded form of a pretraining configuration,
-// field by field.
-func configFields(c transfer.PretrainConfig) map[string]json.RawMessage {
+// field is one key and value of a JSON object.
+type field struct {
+	key string
+	val json.RawMessage
+}
+
+// configFields returns the recorded (JSON) form of a pretraining
+// configuration, field by field in the order of the struct.
+func configFields(c transfer.PretrainConfig) []field {
 	b, err := json.Marshal(c)
 	if err != nil {
 		panic("experiment: configuration json: " + err.Error()) // a resolved configuration is finite
 	}
-	var m map[string]json.RawMessage
-	if err := json.Unmarshal(b, &m); err != nil {
+	d := json.NewDecoder(bytes.NewReader(b))
+	var out []field
+	if _, err := d.Token(); err != nil { // {
 		panic("experiment: configuration json: " + err.Error())
 	}
-	return m
+	for d.More() {
+		k, err := d.Token()
+		if err != nil {
+			panic("experiment: configuration json: " + err.Error())
+		}
+		var v json.RawMessage
+		if err := d.Decode(&v); err != nil {
+			panic("experiment: configuration json: " + err.Error())
+		}
+		out = append(out, field{k.(string), v})
+	}
+	return out
 }
 
 // fingerprint returns the SHA-256 (hex) of everything the figures of a

@@ -73,7 +73,9 @@ func ParseMethod(s string) (Method, error) {
 func (m Method) MarshalText() ([]byte, error) { return marshalName(int(m), methodNames[:], "method") }
 
 // UnmarshalText implements encoding.TextUnmarshaler.
-func (m *Method) UnmarshalText(b []byte) error { return unmarshalName((*int)(m), b, methodNames[:], "method") }
+func (m *Method) UnmarshalText(b []byte) error {
+	return unmarshalName((*int)(m), b, methodNames[:], "method")
+}
 
 // parseName returns the index of s in names (case insensitive, spaces
 // trimmed), or an error wrapping ErrConfig naming what.
