@@ -286,8 +286,9 @@ func (t *Tabular) Err() error { return t.err }
 // with a' the given next action or argmax_a' psi(s',a',z) . z. It reads S
 // and Next if set, else the one-hot X and NextX; and the set indices K if
 // set, else Z (looked up as by Index). The returned loss is
-// (1/(2n)) sum ||delta||^2 of the deltas as they were applied. It panics if
-// b is malformed, a z is not in the set or an index of K is outside
+// (1/(2n)) sum ||delta||^2 of the deltas as they were applied. It keeps
+// the cache of action values (Values) current once it is built. It panics
+// if b is malformed, a z is not in the set or an index of K is outside
 // [0, len(Z)). It does not allocate.
 func (t *Tabular) Update(b *Batch) (float64, error) {
 	if t.err != nil {
