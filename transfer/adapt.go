@@ -43,7 +43,7 @@ type Transition struct {
 // transitions of a collection of k are a collection of j. seed determines
 // the draws.
 func Collect(env mdp.Env, ag *Agent, reward mdp.Reward, k int, cfg AdaptConfig, seed uint64) ([]Transition, error) {
-	c, err := cfg.withDefaults()
+	c, err := cfg.Resolve()
 	if err != nil {
 		return nil, err
 	}
@@ -83,9 +83,9 @@ func Collect(env mdp.Env, ag *Agent, reward mdp.Reward, k int, cfg AdaptConfig, 
 		for t := 0; t < c.EpisodeSteps && len(out) < k; t++ {
 			greedy := c.Explore == ExploreGreedy && len(out) >= c.Warmup
 			if greedy && (len(out)-c.Warmup)%c.SwitchEvery == 0 {
-				inf, err := infer(ag, out, c)
+				inf, err := Infer(ag, out, c)
 				if err == nil {
-					pol, err = ag.Policy(inf, cfg)
+					pol, err = ag.Policy(inf, c)
 				}
 				if err != nil {
 					return nil, fmt.Errorf("transfer: collect: %w", err)
@@ -184,15 +184,12 @@ func InferTask(ag *Agent, labelled []Transition, lambda float64) (*Inference, er
 	return inf, nil
 }
 
-// RidgeGrid is the grid of penalties InferTaskCV chooses from.
-var RidgeGrid = []float64{1e-3, 1e-2, 0.1, 0.3, 1, 3, 10, 30, 100}
-
 // InferTaskCV is InferTask with the penalty lambda chosen from grid (nil
-// means RidgeGrid) by leave-one-state-out cross-validation on the labelled
-// transitions themselves: the features depend on the next state only, so
-// the fit is a weighted regression over the distinct next states c (count
-// m_c, mean reward rbar_c), and holding one state out changes the fit in
-// closed form (Sherman-Morrison):
+// means DefaultRidgeGrid) by leave-one-state-out cross-validation on the
+// labelled transitions themselves: the features depend on the next state
+// only, so the labelled transitions form groups, one per distinct next
+// state c (in order of first appearance), with count m_c and reward sum,
+// and sf.RidgeCV scores every penalty in closed form,
 //
 //	CV(lambda) = sum_c ((rbar_c - phi_c . w) / (1 - m_c phi_c' A^-1 phi_c))^2,
 //	A = sum_c m_c phi_c phi_c' + lambda I.
@@ -200,16 +197,16 @@ var RidgeGrid = []float64{1e-3, 1e-2, 0.1, 0.3, 1, 3, 10, 30, 100}
 // This scores how well the fit predicts a place it has not seen, the error
 // that misleads the agent (Hastie, Tibshirani & Friedman, The Elements of
 // Statistical Learning, 2nd ed., section 7.10, with the held-out unit a
-// state). The smallest CV wins; ties go to the larger lambda. The chosen
-// penalty is in Inference.Lambda.
+// state). The smallest CV wins; ties go to the later grid entry. The chosen
+// penalty is in Inference.Lambda and the mean CV per state in
+// Inference.CV; w is then fitted by InferTask on the transitions.
 func InferTaskCV(ag *Agent, labelled []Transition, grid []float64) (*Inference, error) {
 	if len(labelled) == 0 {
 		return nil, fmt.Errorf("transfer: infer task: %w", ErrNoData)
 	}
 	if grid == nil {
-		grid = RidgeGrid
+		grid = DefaultRidgeGrid()
 	}
-	d := ag.d
 	// Distinct next states with counts and reward sums.
 	idx := map[int]int{}
 	var states []int
@@ -226,73 +223,35 @@ func InferTaskCV(ag *Agent, labelled []Transition, grid []float64) (*Inference, 
 		cnt[c]++
 		sum[c] += t.Reward
 	}
-	x := mat.NewDense(len(states), d, nil)
+	x := mat.NewDense(len(states), ag.d, nil)
 	for c, s := range states {
 		ag.Phi(x.RawRowView(c), s)
 	}
-	var g mat.SymDense
-	g.ReuseAsSym(d)
-	b := mat.NewVecDense(d, nil)
-	for c := range states {
-		row := x.RawRowView(c)
-		for i := range d {
-			b.SetVec(i, b.AtVec(i)+sum[c]*row[i])
-			for j := i; j < d; j++ {
-				g.SetSym(i, j, g.At(i, j)+cnt[c]*row[i]*row[j])
-			}
-		}
+	lam, cv, err := sf.RidgeCV(x, cnt, sum, grid)
+	if err != nil {
+		return nil, fmt.Errorf("transfer: infer task: %w: %w", ErrConfig, err)
 	}
-	best, bestLam := math.Inf(1), grid[0]
-	a := mat.NewSymDense(d, nil)
-	var chol mat.Cholesky
-	var w, v mat.VecDense
-	for _, lam := range grid {
-		if !(lam > 0) || math.IsInf(lam, 0) {
-			return nil, fmt.Errorf("transfer: infer task: grid penalty %v: %w", lam, ErrConfig)
-		}
-		a.CopySym(&g)
-		for i := range d {
-			a.SetSym(i, i, a.At(i, i)+lam)
-		}
-		if !chol.Factorize(a) {
-			continue
-		}
-		if err := chol.SolveVecTo(&w, b); err != nil {
-			continue
-		}
-		var cv float64
-		for c := range states {
-			xc := mat.NewVecDense(d, x.RawRowView(c))
-			if err := chol.SolveVecTo(&v, xc); err != nil {
-				cv = math.Inf(1)
-				break
-			}
-			h := cnt[c] * mat.Dot(xc, &v)
-			if h >= 1-1e-12 {
-				cv = math.Inf(1)
-				break
-			}
-			e := (sum[c]/cnt[c] - mat.Dot(xc, &w)) / (1 - h)
-			cv += e * e
-		}
-		if cv <= best {
-			best, bestLam = cv, lam
-		}
-	}
-	inf, err := InferTask(ag, labelled, bestLam)
+	inf, err := InferTask(ag, labelled, lam)
 	if err != nil {
 		return nil, err
 	}
-	inf.CV = best / float64(len(states))
+	inf.CV = cv
 	return inf, nil
 }
 
-// infer runs task inference with the penalty rule of c (defaults applied).
-func infer(ag *Agent, labelled []Transition, c AdaptConfig) (*Inference, error) {
-	if c.Ridge == 0 && !c.noCV {
-		return InferTaskCV(ag, labelled, nil)
+// Infer runs task inference with the penalty rule of cfg: InferTaskCV over
+// cfg.RidgeGrid for RidgeCV (the default), InferTask with cfg.Lambda for
+// RidgeFixed. It returns the errors of those, or one wrapping ErrConfig for
+// an invalid cfg.
+func Infer(ag *Agent, labelled []Transition, cfg AdaptConfig) (*Inference, error) {
+	c, err := cfg.Resolve()
+	if err != nil {
+		return nil, err
 	}
-	return InferTask(ag, labelled, c.Ridge)
+	if c.Ridge == RidgeCV {
+		return InferTaskCV(ag, labelled, c.RidgeGrid)
+	}
+	return InferTask(ag, labelled, c.Lambda)
 }
 
 // Policy is the acting policy after adaptation: GPI with the inferred w over
@@ -323,15 +282,14 @@ func (p *Policy) Probs(dst []float64, s int) { p.Actions.Probs(dst, s) }
 // Act returns the policy's action in s.
 func (p *Policy) Act(s int) int { return p.Actions[s] }
 
-// Adapt infers the task from the labelled transitions (InferTaskCV, or
-// InferTask with a fixed cfg.Ridge) and returns the acting policy
+// Adapt infers the task from the labelled transitions (Infer: InferTaskCV
+// by default, InferTask with RidgeFixed) and returns the acting policy
 // (Agent.Policy).
 //
 // By default (FitNone) this is successor-feature transfer proper: GPI over
 // the universal SFs tabulated at the cfg.Candidates skills nearest to w by
-// cosine, Q_k(s, a) = psi(s, a, z_k) . w; with GPI off (negative
-// cfg.Candidates) the policy is greedy in psi(s, ., z) . w for the single
-// nearest skill z.
+// cosine, Q_k(s, a) = psi(s, a, z_k) . w; with GPIOff the policy is greedy
+// in psi(s, ., z) . w for the single nearest skill z.
 //
 // With cfg.Fit = FitModel a model-based candidate joins the set:
 // Q(s, a, w), the optimal action value of the inferred reward phi(s') . w
@@ -342,15 +300,15 @@ func (p *Policy) Act(s int) int { return p.Actions[s] }
 // successor-feature transfer; state-action pairs never tried have no
 // fitted value and are left to the skills.
 func Adapt(ag *Agent, labelled []Transition, cfg AdaptConfig) (*Policy, error) {
-	c, err := cfg.withDefaults()
+	c, err := cfg.Resolve()
 	if err != nil {
 		return nil, err
 	}
-	inf, err := infer(ag, labelled, c)
+	inf, err := Infer(ag, labelled, c)
 	if err != nil {
 		return nil, err
 	}
-	return ag.Policy(inf, cfg)
+	return ag.Policy(inf, c)
 }
 
 // Policy returns the acting policy for an inferred task,
@@ -358,14 +316,14 @@ func Adapt(ag *Agent, labelled []Transition, cfg AdaptConfig) (*Policy, error) {
 //	pi(s) = argmax_a max( Q_w(s, a), max_{k in C} psi(s, a, z_k) . w ),
 //
 // with C the cfg.Candidates skills most similar to w (cosine) and Q_w the
-// model-based fit of FitModel (absent with FitNone, the default). With GPI
-// off (negative cfg.Candidates), C is the single nearest skill under
-// FitNone and empty under FitModel. Ties go to Q_w, then to the most
+// model-based fit of FitModel (absent with FitNone, the default). With
+// GPIOff, C is the single nearest skill under FitNone and empty under
+// FitModel. Ties go to Q_w, then to the most
 // similar skill, then to the lowest action. It returns an error wrapping
 // ErrNoData if a fit is asked for and there are no reward-free transitions,
 // ErrDiverged, or ErrConfig.
 func (ag *Agent) Policy(inf *Inference, cfg AdaptConfig) (*Policy, error) {
-	c, err := cfg.withDefaults()
+	c, err := cfg.Resolve()
 	if err != nil {
 		return nil, err
 	}
@@ -380,7 +338,10 @@ func (ag *Agent) Policy(inf *Inference, cfg AdaptConfig) (*Policy, error) {
 	}
 	slices.SortStableFunc(sims, func(x, y sim) int { return cmp.Compare(y.c, x.c) })
 	pol := &Policy{Inference: *inf}
-	m := min(max(c.Candidates, 1), ag.k)
+	m := min(c.Candidates, ag.k)
+	if c.GPI == GPIOff {
+		m = 1
+	}
 	var qw []float64
 	if c.Fit == FitModel {
 		qw, pol.FitSweeps, err = ag.fitQ(inf.W, c.FitSweeps)
@@ -388,7 +349,9 @@ func (ag *Agent) Policy(inf *Inference, cfg AdaptConfig) (*Policy, error) {
 			return nil, err
 		}
 		pol.Fitted = true
-		m = min(c.Candidates, ag.k)
+		if c.GPI == GPIOff {
+			m = 0
+		}
 	}
 	srcs := make([]gpi.Source, m)
 	for i := range m {
@@ -444,7 +407,7 @@ func (ag *Agent) fitQ(w []float64, sweeps int) ([]float64, int, error) {
 			q[i] = math.Inf(-1)
 		}
 	}
-	g := ag.cfg.Gamma
+	g := ag.cfg.SkillGamma
 	done := 0
 	for done < sweeps {
 		done++

@@ -4,7 +4,6 @@ import (
 	"fmt"
 	"math"
 	"math/rand/v2"
-	"slices"
 	"sync"
 
 	"github.com/successor-go/successor/gpi"
@@ -36,9 +35,9 @@ var _ Env = (*mdp.Sampler)(nil)
 //     skills.Categorical, with task vectors w_k = TaskVector(z_k) (w = z for
 //     the sphere methods, (e_k, 1) for Categorical);
 //   - the universal successor features psi(s, a, w_k), a usf.Tabular over
-//     the task vectors (one sf.Table per skill), each table learned by an
-//     sf.TD learner bootstrapping from the greedy action of the skill's own
-//     task (cached action values, see update);
+//     the task vectors (one sf.Table per skill), learned by its relabelled
+//     greedy TD update (usf.Tabular.UpdateRelabel), whose cached action
+//     values psi . w_k give each skill's policy;
 //   - a usf.Replay of the reward-free transitions.
 //
 // For any other z, Psi uses the skill most similar to z (largest cosine).
@@ -48,7 +47,7 @@ var _ Env = (*mdp.Sampler)(nil)
 // not safe for concurrent use while training; after training its read
 // methods (Phi, Psi, Q, Skill, Source, Policy) may be called concurrently.
 type Agent struct {
-	cfg        PretrainConfig // with defaults applied
+	cfg        PretrainConfig // resolved
 	n, a, d, k int            // states, actions, feature dimension, skills
 
 	disc  skills.Discriminator // VMF and Categorical; nil otherwise
@@ -69,21 +68,14 @@ type Agent struct {
 	nextProgress   int
 	nextCheckpoint int
 	acc            accum
+	td             usf.TDStats // since the last report
 
 	// Scratch of update.
-	smp   *usf.Batch     // sampled transitions
-	tds   []*sf.TD       // the TD(0) learner of every skill's table
-	index map[uint64]int // skill index by hash of its task vector
-	// q caches Q(s, a, w_k) = psi(s, a, w_k) . w_k at (k*n + s)*A + a,
-	// recomputed by a dot product after every update of the row (so it
-	// is a function of the tables and is rebuilt exactly on load).
-	q      []float64
-	rowBuf []float64
-	x, z   []float64 // discriminator minibatch
-	obs    []float64 // one-hot observation
-	phiBuf []float64
+	smp    *usf.Batch // sampled transitions
+	skillK []int      // their skill indices
+	x, z   []float64  // discriminator minibatch
+	obs    []float64  // one-hot observation
 	tr     usf.Transition
-	skillK []int
 
 	// phi of every state, tabulated when training stops, for the read
 	// methods.
@@ -101,15 +93,16 @@ func (ag *Agent) NumStates() int { return ag.n }
 // NumActions returns the number of actions.
 func (ag *Agent) NumActions() int { return ag.a }
 
-// Dim returns the feature dimension d: PretrainConfig.Dim for the sphere
-// methods, K+1 for Categorical with K skills (skills.Softmax's features
-// log q(. | s) and the constant log K).
+// Dim returns the feature dimension d (PretrainConfig.Dim resolved: K+1
+// for Categorical with K skills, skills.Softmax's features log q(. | s)
+// and the constant log K).
 func (ag *Agent) Dim() int { return ag.d }
 
 // Method returns the pretraining method.
 func (ag *Agent) Method() Method { return ag.cfg.Method }
 
-// Config returns the pretraining configuration with defaults applied.
+// Config returns the resolved pretraining configuration (for an agent read
+// from a checkpoint, without Features: the phi table stands for them).
 func (ag *Agent) Config() PretrainConfig { return ag.cfg }
 
 // Steps returns the number of pretraining environment steps taken so far.
@@ -191,17 +184,29 @@ func (ag *Agent) Q(dst []float64, s int, z, w []float64) {
 // skill's sf.Table, read in place.
 func (ag *Agent) Source(k int) gpi.Source { return ag.usf.Tables[k] }
 
-// actSkill returns argmax_a psi(s, a, w_k) . w_k, ties broken uniformly at
-// random with rng (nil rng: the lowest action).
+// actSkill returns argmax_a psi(s, a, w_k) . w_k from the cached action
+// values of the USF, ties broken uniformly at random with rng (nil rng:
+// the lowest action).
 func (ag *Agent) actSkill(k, s int, rng *rand.Rand) int {
-	i := (k*ag.n + s) * ag.a
-	return argmaxRand(ag.q[i:i+ag.a], rng)
+	return argmaxRand(ag.usf.Values(k, s), rng)
 }
 
-// greedy returns argmax_a psi(s, a, w_k) . w_k, ties to the lowest action.
-func (ag *Agent) greedy(k, s int) int {
-	i := (k*ag.n + s) * ag.a
-	return argmaxRand(ag.q[i:i+ag.a], nil)
+// argmaxRand returns the index of the largest value, ties broken uniformly
+// at random with rng (the lowest index if rng is nil).
+func argmaxRand(q []float64, rng *rand.Rand) int {
+	best, arg, ties := math.Inf(-1), 0, 0
+	for i, v := range q {
+		switch {
+		case v > best:
+			best, arg, ties = v, i, 1
+		case v == best && rng != nil:
+			ties++
+			if rng.IntN(ties) == 0 {
+				arg = i
+			}
+		}
+	}
+	return arg
 }
 
 func dot(x, y []float64) float64 {
@@ -213,8 +218,8 @@ func dot(x, y []float64) float64 {
 	return s
 }
 
-// newAgent allocates an agent for c (defaults applied) and initialises its
-// parameters from the run's generator.
+// newAgent allocates an agent for the resolved configuration c and
+// initialises its parameters from the run's generator.
 func newAgent(n, na int, c PretrainConfig) (*Agent, error) {
 	if n <= 0 || na <= 0 {
 		return nil, fmt.Errorf("transfer: environment with %d states and %d actions: %w", n, na, ErrConfig)
@@ -228,7 +233,7 @@ func newAgent(n, na int, c PretrainConfig) (*Agent, error) {
 	case VMF:
 		ag.disc, err = skills.NewVMF(&skills.VMFConfig{In: n, Dim: c.Dim, Kappa: c.Kappa, Optim: opt}, ag.rng)
 	case Categorical:
-		ag.disc, err = skills.NewSoftmax(&skills.SoftmaxConfig{In: n, K: c.Dim, Optim: opt}, ag.rng)
+		ag.disc, err = skills.NewSoftmax(&skills.SoftmaxConfig{In: n, K: c.Skills, Optim: opt}, ag.rng)
 	case Random:
 		ag.fixed, err = sf.NewRandom(n, c.Dim, true, ag.rng)
 	case Given:
@@ -242,20 +247,18 @@ func newAgent(n, na int, c PretrainConfig) (*Agent, error) {
 	if err != nil {
 		return nil, fmt.Errorf("transfer: %s features: %w: %w", c.Method, ErrConfig, err)
 	}
-	zdim := c.Dim
+	ag.k = c.Skills
 	if c.Method == Categorical {
-		ag.prior = skills.Categorical{K: c.Dim}
-		ag.k = c.Dim
+		ag.prior = skills.Categorical{K: ag.k}
 		for k := range ag.k {
-			z := make([]float64, zdim)
+			z := make([]float64, ag.k)
 			z[k] = 1 // the prior's support, e_k, in order
 			ag.zs = append(ag.zs, z)
 		}
 	} else {
 		ag.prior = skills.UniformSphere{D: c.Dim}
-		ag.k = c.Skills
 		for range ag.k {
-			z := make([]float64, zdim)
+			z := make([]float64, c.Dim)
 			ag.prior.Sample(z, ag.rng)
 			ag.zs = append(ag.zs, z)
 		}
@@ -287,12 +290,15 @@ func (ag *Agent) init(n, na, capacity int, tab *usf.Tabular, buf *usf.Replay) er
 			ag.taskVector(ws[k], z)
 		}
 		var err error
-		tab, err = usf.NewTabular(n, na, ws, ag.cfg.Gamma, &usf.TabularConfig{Step: sf.StepSize{Alpha: ag.cfg.LearnRate}})
+		tab, err = usf.NewTabular(n, na, ws, ag.cfg.SkillGamma, &usf.TabularConfig{Step: sf.StepSize{Alpha: ag.cfg.LearnRate}})
 		if err != nil {
 			return fmt.Errorf("transfer: %w: %w", ErrConfig, err)
 		}
 	}
 	ag.usf = tab
+	// Build the cache of action values now, so that the read methods may
+	// be called concurrently.
+	tab.Values(0, 0)
 	if buf == nil {
 		var err error
 		buf, err = usf.NewReplay(capacity, 0, d)
@@ -303,56 +309,13 @@ func (ag *Agent) init(n, na, capacity int, tab *usf.Tabular, buf *usf.Replay) er
 	ag.buf = buf
 	b := ag.cfg.Batch
 	ag.smp = usf.NewBatch(b, 0, d)
-	ag.tds = make([]*sf.TD, ag.k)
-	ag.index = make(map[uint64]int, ag.k)
-	for k, w := range tab.Z {
-		td, err := sf.NewTD(tab.Tables[k], dimOnly(d), ag.cfg.Gamma, &sf.TDSettings{Target: sf.Sampled, Step: sf.StepSize{Alpha: ag.cfg.LearnRate}})
-		if err != nil {
-			return fmt.Errorf("transfer: %w: %w", ErrConfig, err)
-		}
-		ag.tds[k] = td
-		if _, dup := ag.index[hashVec(w)]; !dup {
-			ag.index[hashVec(w)] = k
-		}
-	}
-	ag.rowBuf = make([]float64, d)
-	ag.q = make([]float64, ag.k*n*na)
-	for k, w := range tab.Z {
-		t := tab.Tables[k]
-		for s := range n {
-			for a := range na {
-				ag.q[(k*n+s)*na+a] = dot(t.Row(s, a), w)
-			}
-		}
-	}
+	ag.skillK = make([]int, b)
 	ag.x = make([]float64, b*n)
 	ag.z = make([]float64, b*len(ag.zs[0]))
 	ag.obs = make([]float64, n)
-	ag.phiBuf = make([]float64, d)
 	ag.tr = usf.Transition{Phi: make([]float64, d), Z: make([]float64, d), NextA: -1}
-	ag.skillK = make([]int, b)
 	ag.tabulatePhi()
 	return nil
-}
-
-// hashVec returns an FNV-1a hash of the bits of v.
-func hashVec(v []float64) uint64 {
-	h := uint64(14695981039346656037)
-	for _, x := range v {
-		h ^= math.Float64bits(x)
-		h *= 1099511628211
-	}
-	return h
-}
-
-// skillOf returns the index of the skill whose task vector equals w
-// exactly, or -1: a hash lookup, checked, with usf.Tabular.Index as the
-// fallback (duplicate skills).
-func (ag *Agent) skillOf(w []float64) int {
-	if k, ok := ag.index[hashVec(w)]; ok && slices.Equal(ag.usf.Z[k], w) {
-		return k
-	}
-	return ag.usf.Index(w)
 }
 
 // taskVector writes the task vector of skill vector z.
@@ -395,11 +358,11 @@ func (ag *Agent) modelKey(s, a, next int, term bool) uint64 {
 	return k
 }
 
-// Stream identifiers of the generators derived from one seed.
+// Stream identifiers of the generators derived from one seed (3 and 4
+// were used by adaptation and the from-scratch baselines, which now live in
+// package experiment; 4 keeps its meaning there).
 const (
-	streamPretrain = 1 + iota
-	streamCollect
-	streamAdapt
-	streamBaseline
-	streamEval
+	streamPretrain = 1
+	streamCollect  = 2
+	streamEval     = 5
 )

@@ -15,12 +15,12 @@ func depotAgent(tb testing.TB, d, k int) (*Agent, *mdp.Sampler) {
 	if err != nil {
 		tb.Fatal(err)
 	}
-	explore, err := WithStart(g.MDP, UniformStart(g.MDP))
+	explore, err := mdp.WithStart(g.MDP, mdp.UniformStart(g.MDP))
 	if err != nil {
 		tb.Fatal(err)
 	}
 	env := mdp.NewSampler(explore, 0)
-	ag, err := Pretrain(env, PretrainConfig{Dim: d, Skills: k, Kappa: 10, Gamma: 0.99, Steps: 2000, EpisodeSteps: 50, Seed: 1})
+	ag, err := Pretrain(env, PretrainConfig{Dim: d, Skills: k, Kappa: 10, SkillGamma: 0.99, Steps: 2000, EpisodeSteps: 50, Seed: 1})
 	if err != nil {
 		tb.Fatal(err)
 	}
@@ -69,13 +69,13 @@ func BenchmarkPretrain(b *testing.B) {
 	if err != nil {
 		b.Fatal(err)
 	}
-	explore, _ := WithStart(g.MDP, UniformStart(g.MDP))
+	explore, _ := mdp.WithStart(g.MDP, mdp.UniformStart(g.MDP))
 	const steps = 20000
 	for _, m := range []skills.OptimMethod{skills.OptimAdam, skills.OptimSparseAdam} {
 		b.Run("disc="+m.String(), func(b *testing.B) {
 			b.ReportAllocs()
 			for b.Loop() {
-				_, err := Pretrain(mdp.NewSampler(explore, 0), PretrainConfig{Dim: 64, Skills: 128, Kappa: 10, Gamma: 0.99, Steps: steps, EpisodeSteps: 50, Seed: 1, DiscOptim: m})
+				_, err := Pretrain(mdp.NewSampler(explore, 0), PretrainConfig{Dim: 64, Skills: 128, Kappa: 10, SkillGamma: 0.99, Steps: steps, EpisodeSteps: 50, Seed: 1, DiscOptim: m})
 				if err != nil {
 					b.Fatal(err)
 				}

@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"encoding"
 	"encoding/binary"
+	"encoding/json"
 	"fmt"
 	"hash/crc32"
 	"io"
@@ -27,14 +28,17 @@ import (
 //	crc      uint32   CRC-32 (Castagnoli) of everything before it
 //
 // The payload holds, as little-endian 8-byte integers and floats and
-// length-prefixed byte strings: the configuration; the sizes; the
-// discriminator in skills.Marshal form (VMF, Categorical) or the fixed
+// length-prefixed byte strings: the resolved configuration as JSON (the
+// form of PretrainConfig's json tags, as encoding/json writes it, keys in
+// field order) and CheckpointEvery; the sizes (states, actions, skills);
+// the discriminator in skills.Marshal form (VMF, Categorical) or the fixed
 // feature rows (Random, Given); the skill vectors; usf.Tabular and
 // usf.Replay in their MarshalBinary forms (each with its own checksum);
 // the PCG state (its MarshalBinary form); the counts of the empirical
 // model in increasing key order; and the counters, so a loaded agent
-// continues bit-identically.
-const checkpointVersion = 2
+// continues bit-identically. Version 2 (0.1.0) listed the configuration
+// field by field and is not read.
+const checkpointVersion = 3
 
 var checkpointMagic = [8]byte{'S', 'F', 'X', 'F', 'E', 'R', 0, 1}
 
@@ -87,26 +91,17 @@ func (ag *Agent) marshal() []byte {
 	bufBytes := mustMarshal(ag.buf)
 	const head = 8 + 4 + 8
 	size := head + len(discBytes) + len(tabBytes) + len(bufBytes) + 8*(ag.n*ag.d+ag.k*len(ag.zs[0])+2*len(ag.counts)) + 1024
+	cfgJSON, err := configJSON(&ag.cfg)
+	if err != nil {
+		panic("transfer: configuration json: " + err.Error()) // a resolved configuration is finite
+	}
+	size += len(cfgJSON)
 	e := enc{b: make([]byte, head, size)}
-	c := &ag.cfg
-	e.i(int64(c.Method))
-	e.i(int64(c.Dim))
-	e.f(c.Kappa)
-	e.i(int64(c.Steps))
-	e.i(int64(c.EpisodeSteps))
-	e.f(c.Gamma)
-	e.f(c.Epsilon)
-	e.i(int64(c.Batch))
-	e.i(int64(c.Replay))
-	e.f(c.LearnRate)
-	e.f(c.DiscRate)
-	e.u(c.Seed)
-	e.i(int64(c.CheckpointEvery))
-	e.i(int64(c.ProgressEvery))
+	e.bs(cfgJSON)
+	e.i(int64(ag.cfg.CheckpointEvery))
 	e.i(int64(ag.n))
 	e.i(int64(ag.a))
 	e.i(int64(ag.k))
-	e.i(int64(c.Relabel))
 	// The discriminator (skills.Marshal) or the fixed feature rows.
 	if ag.disc != nil {
 		e.bs(discBytes)
@@ -139,11 +134,11 @@ func (ag *Agent) marshal() []byte {
 	e.i(int64(ag.nextProgress))
 	e.i(int64(ag.nextCheckpoint))
 	e.i(int64(ag.acc.n))
-	e.i(int64(ag.acc.nTD))
+	e.i(int64(ag.td.N))
 	e.f(ag.acc.loss)
 	e.f(ag.acc.mi)
 	e.f(ag.acc.mi2)
-	e.f(ag.acc.td)
+	e.f(ag.td.SumSq)
 
 	out := e.b
 	copy(out, checkpointMagic[:])
@@ -151,6 +146,10 @@ func (ag *Agent) marshal() []byte {
 	binary.LittleEndian.PutUint64(out[12:], uint64(len(out)-head))
 	return binary.LittleEndian.AppendUint32(out, crc32.Checksum(out, crcTable))
 }
+
+// configJSON returns the JSON form of a configuration (it fails only for
+// a non-finite value).
+func configJSON(c *PretrainConfig) ([]byte, error) { return json.Marshal(c) }
 
 func mustMarshal(m encoding.BinaryMarshaler) []byte {
 	b, err := m.MarshalBinary()
@@ -182,46 +181,33 @@ func Unmarshal(data []byte) (*Agent, error) {
 		return nil, fmt.Errorf("transfer: checkpoint checksum %08x, want %08x: %w", got, want, ErrCheckpoint)
 	}
 	d := dec{b: body[head:]}
-	var c PretrainConfig
-	c.Method = Method(d.i())
-	c.Dim = int(d.i())
-	c.Kappa = d.f()
-	c.Steps = int(d.i())
-	c.EpisodeSteps = int(d.i())
-	c.Gamma = d.f()
-	c.Epsilon = d.f()
-	c.Batch = int(d.i())
-	c.Replay = int(d.i())
-	c.LearnRate = d.f()
-	c.DiscRate = d.f()
-	c.Seed = d.u()
-	c.CheckpointEvery = int(d.i())
-	c.ProgressEvery = int(d.i())
-	ns, na, nk := int(d.i()), int(d.i()), int(d.i())
-	c.Relabel = int(d.i())
-	c.Skills = nk
-	if d.err != nil {
-		return nil, d.err
-	}
 	bad := func(what string) error {
 		return fmt.Errorf("transfer: checkpoint: %s: %w", what, ErrCheckpoint)
 	}
-	if c.Method == Given {
-		// Given features live in the saved rows; a placeholder map
-		// satisfies the configuration check.
-		c.Features = dimOnly(c.Dim)
+	cfgJSON := d.bs()
+	every := d.i()
+	ns, na, nk := int(d.i()), int(d.i()), int(d.i())
+	if d.err != nil {
+		return nil, d.err
 	}
-	if c.Method == Categorical {
-		c.Skills = 32 // not used by Categorical; any valid value
+	var c PretrainConfig
+	jd := json.NewDecoder(bytes.NewReader(cfgJSON))
+	jd.DisallowUnknownFields()
+	if err := jd.Decode(&c); err != nil || jd.More() {
+		return nil, bad("configuration")
 	}
-	if err := c.validate(); err != nil || c.Steps < 0 || c.EpisodeSteps < 1 || c.Batch < 1 || c.Replay < 1 {
+	// The stored form must be the canonical one, so that a loaded agent
+	// saves to the same bytes.
+	c.CheckpointEvery = int(every)
+	canon, err := configJSON(&c)
+	if every < 0 || int64(c.CheckpointEvery) != every || err != nil || !bytes.Equal(canon, cfgJSON) {
+		return nil, bad("configuration")
+	}
+	if err := c.validate(); err != nil {
 		return nil, bad("invalid configuration")
 	}
-	if ns <= 0 || na <= 0 || ns > len(data) || na > len(data) || nk < 1 || nk > len(data) || c.Method == Categorical && nk != c.Dim {
+	if ns <= 0 || na <= 0 || ns > len(data) || na > len(data) || nk != c.Skills || nk > len(data) || c.Dim > len(data) {
 		return nil, bad("invalid sizes")
-	}
-	if c.Method == Given {
-		c.Features = nil
 	}
 	ag := &Agent{cfg: c, n: ns, a: na, k: nk}
 	discBytes := d.bs()
@@ -241,16 +227,22 @@ func Unmarshal(data []byte) (*Agent, error) {
 			return nil, fmt.Errorf("transfer: checkpoint: discriminator: %w: %w", ErrCheckpoint, err)
 		}
 		_, isVMF := disc.(*skills.VMF)
-		if isVMF != (c.Method == VMF) || disc.InDim() != ns || disc.ZDim() != c.Dim || len(rows) != 0 {
+		zd := c.Dim
+		if c.Method == Categorical {
+			zd = c.Skills
+		}
+		var opt skills.Optim
+		switch d := disc.(type) {
+		case *skills.VMF:
+			opt = d.Optim()
+		case *skills.Softmax:
+			opt = d.Optim()
+		}
+		if isVMF != (c.Method == VMF) || disc.InDim() != ns || disc.ZDim() != zd || disc.FeatureDim() != c.Dim ||
+			opt.Method != c.DiscOptim || len(rows) != 0 {
 			return nil, bad("discriminator does not match the configuration")
 		}
 		ag.disc = disc
-		switch d := disc.(type) {
-		case *skills.VMF:
-			ag.cfg.DiscOptim = d.Optim().Method
-		case *skills.Softmax:
-			ag.cfg.DiscOptim = d.Optim().Method
-		}
 	default:
 		if len(discBytes) != 0 || len(rows) != ns*c.Dim {
 			return nil, bad("feature table sizes")
@@ -265,7 +257,11 @@ func Unmarshal(data []byte) (*Agent, error) {
 		}
 		ag.fixed = f
 	}
-	if zdim != c.Dim || len(zs) != nk*zdim {
+	wantZ := c.Dim
+	if c.Method == Categorical {
+		wantZ = c.Skills
+	}
+	if zdim != wantZ || len(zs) != nk*zdim {
 		return nil, bad("skill sizes")
 	}
 	for k := range nk {
@@ -278,7 +274,7 @@ func Unmarshal(data []byte) (*Agent, error) {
 		ag.zs = append(ag.zs, z)
 	}
 	if c.Method == Categorical {
-		ag.prior = skills.Categorical{K: c.Dim}
+		ag.prior = skills.Categorical{K: c.Skills}
 	} else {
 		ag.prior = skills.UniformSphere{D: c.Dim}
 	}
@@ -296,9 +292,6 @@ func Unmarshal(data []byte) (*Agent, error) {
 	}
 	ag.rng = rand.New(ag.pcg)
 	fd := c.Dim
-	if ag.disc != nil {
-		fd = ag.disc.FeatureDim()
-	}
 	if ts, ta, td := tab.Shape(); ts != ns || ta != na || td != fd || len(tab.Z) != nk {
 		return nil, bad("successor feature sizes")
 	}
@@ -337,11 +330,11 @@ func Unmarshal(data []byte) (*Agent, error) {
 	ag.nextProgress = int(d.i())
 	ag.nextCheckpoint = int(d.i())
 	ag.acc.n = int(d.i())
-	ag.acc.nTD = int(d.i())
+	ag.td.N = int(d.i())
 	ag.acc.loss = d.f()
 	ag.acc.mi = d.f()
 	ag.acc.mi2 = d.f()
-	ag.acc.td = d.f()
+	ag.td.SumSq = d.f()
 	if d.err != nil {
 		return nil, d.err
 	}
@@ -359,12 +352,6 @@ func Unmarshal(data []byte) (*Agent, error) {
 	}
 	return ag, nil
 }
-
-// dimOnly is a FeatureMap placeholder of a given dimension.
-type dimOnly int
-
-func (d dimOnly) Dim() int                               { return int(d) }
-func (d dimOnly) Features(dst []float64, s, a, next int) { clear(dst) }
 
 type enc struct{ b []byte }
 

@@ -4,6 +4,7 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"slices"
 	"strings"
 
 	"github.com/successor-go/successor/sf"
@@ -64,25 +65,50 @@ func (m Method) Sphere() bool { return m != Categorical }
 // ParseMethod returns the method with the given short name (case
 // insensitive).
 func ParseMethod(s string) (Method, error) {
-	for i, n := range methodNames {
-		if strings.EqualFold(strings.TrimSpace(s), n) {
-			return Method(i), nil
-		}
-	}
-	return 0, fmt.Errorf("transfer: unknown method %q (want one of %s): %w", s, strings.Join(methodNames[:], ", "), ErrConfig)
+	i, err := parseName(s, methodNames[:], "method")
+	return Method(i), err
 }
 
 // MarshalText implements encoding.TextMarshaler (used by results.json).
-func (m Method) MarshalText() ([]byte, error) { return []byte(m.String()), nil }
+func (m Method) MarshalText() ([]byte, error) { return marshalName(int(m), methodNames[:], "method") }
 
 // UnmarshalText implements encoding.TextUnmarshaler.
 func (m *Method) UnmarshalText(b []byte) error {
-	v, err := ParseMethod(string(b))
+	return unmarshalName((*int)(m), b, methodNames[:], "method")
+}
+
+// parseName returns the index of s in names (case insensitive, spaces
+// trimmed), or an error wrapping ErrConfig naming what.
+func parseName(s string, names []string, what string) (int, error) {
+	for i, n := range names {
+		if strings.EqualFold(strings.TrimSpace(s), n) {
+			return i, nil
+		}
+	}
+	return 0, fmt.Errorf("transfer: unknown %s %q (want one of %s): %w", what, s, strings.Join(names, ", "), ErrConfig)
+}
+
+func marshalName(i int, names []string, what string) ([]byte, error) {
+	if i < 0 || i >= len(names) {
+		return nil, fmt.Errorf("transfer: %s %d has no name: %w", what, i, ErrConfig)
+	}
+	return []byte(names[i]), nil
+}
+
+func unmarshalName(dst *int, b []byte, names []string, what string) error {
+	i, err := parseName(string(b), names, what)
 	if err != nil {
 		return err
 	}
-	*m = v
+	*dst = i
 	return nil
+}
+
+func nameOf(i int, names []string, typ string) string {
+	if i < 0 || i >= len(names) {
+		return fmt.Sprintf("%s(%d)", typ, i)
+	}
+	return names[i]
 }
 
 // MaxReplay is the largest replay capacity. A usf.Replay keeps the
@@ -91,80 +117,87 @@ func (m *Method) UnmarshalText(b []byte) error {
 const MaxReplay = 1 << 24
 
 // PretrainConfig configures the reward-free phase. The zero value means the
-// documented defaults; negative values are errors unless stated otherwise.
+// documented defaults; Resolve fills them in. Negative values are errors
+// unless stated otherwise. The JSON form (snake_case keys, enumerations as
+// text) is the one results files and checkpoints record; the fields
+// marked "not recorded" are left out of it.
 type PretrainConfig struct {
 	// Method selects the features; the zero value is VMF.
-	Method Method
-	// Dim is the feature dimension d of the sphere methods; for
-	// Categorical, the number of skills K (the features then have K+1
-	// entries). 0 means 8. Ignored by Given, whose dimension is
-	// Features.Dim().
-	Dim int
-	// Kappa is the von Mises-Fisher concentration of the discriminator.
-	// 0 means 5.
-	Kappa float64
-	// Skills is the number K of skill vectors for the sphere methods
-	// (VMF, Random, Given), drawn once uniformly on the unit sphere. 0 means
-	// 32. Categorical uses its Dim one-hot skills.
-	Skills int
+	Method Method `json:"method"`
+	// Skills is the number K of skills of every method: K vectors drawn
+	// once uniformly on the unit sphere for VMF, Random and Given, the K
+	// one-hot vectors of skills.Categorical for Categorical. 0 means 32.
+	Skills int `json:"skills"`
+	// Dim is the feature dimension d. For the sphere methods VMF and Random
+	// it is a setting, 0 meaning 8 (at least 2). For Categorical it follows
+	// from Skills, d = K+1 (skills.Softmax's features log q(. | s) and the
+	// constant log K), and for Given from Features, d = Features.Dim(); for
+	// those two, 0 or that value is accepted and Resolve sets it.
+	Dim int `json:"dim"`
+	// Kappa is the von Mises-Fisher concentration of the discriminator
+	// (VMF only). 0 means 5.
+	Kappa float64 `json:"kappa"`
 	// Relabel is the number of extra skills, drawn at random, whose SFs are
 	// updated with each replayed transition (off-policy relabelling). 0
-	// means 4; negative means none.
-	Relabel int
+	// means 4; a negative value means none, which Resolve records as -1.
+	Relabel int `json:"relabel"`
 	// Features are the given features phi(s, a, s') for Method Given
 	// (evaluated at the next state). Required by Given, ignored otherwise.
+	// Not recorded: a checkpoint keeps the table of phi instead.
 	Features sf.FeatureMap `json:"-"`
 
 	// Steps is the number of environment steps. Episodes always finish, so
 	// the run stops at the first episode end at or after Steps. 0 means
 	// 100000.
-	Steps int
+	Steps int `json:"steps"`
 	// EpisodeSteps is the time limit of a pretraining episode (a
 	// truncation, not a termination). 0 means 50.
-	EpisodeSteps int
-	// Gamma is the discount of the successor features. 0 means 0.95.
-	Gamma float64
+	EpisodeSteps int `json:"episode_steps"`
+	// SkillGamma is the discount of the skills' successor features, in
+	// (0, 1): the horizon of the skills (and of FitModel's fitted values).
+	// It need not equal the discount of the tasks the agent is scored on.
+	// 0 means 0.95.
+	SkillGamma float64 `json:"skill_gamma"`
 	// Epsilon is the exploration rate of the epsilon-greedy behaviour.
-	// 0 means 0.2; a negative value means no random actions.
-	Epsilon float64
+	// 0 means 0.2; a negative value means no random actions, which Resolve
+	// records as -1.
+	Epsilon float64 `json:"epsilon"`
 	// Batch is the minibatch size drawn from the replay buffer at every
 	// step, for both the discriminator and the USF. 0 means 16.
-	Batch int
+	Batch int `json:"batch"`
 	// Replay is the replay buffer capacity in transitions. 0 means 50000;
 	// at most MaxReplay.
-	Replay int
-	// LearnRate is the TD step size of the successor features. 0 means 0.2.
-	LearnRate float64
+	Replay int `json:"replay"`
+	// LearnRate is the TD step size of the successor features, in (0, 1].
+	// 0 means 0.2.
+	LearnRate float64 `json:"learn_rate"`
 	// DiscRate is the Adam step size of the discriminator (skills.Optim
 	// LearnRate). 0 means 0.03.
-	DiscRate float64
+	DiscRate float64 `json:"disc_rate"`
 	// DiscOptim is the discriminator's optimiser. The zero value is dense
 	// Adam (skills.OptimAdam). skills.OptimSparseAdam updates only the
 	// minibatch's states and the bias (observations are one-hot): on the
 	// depot it pretrains VMF about 1.8 times faster, but its skills
 	// transferred worse there (see the package doc), so it is not the
-	// default. A checkpoint keeps it (in the discriminator's encoding).
-	DiscOptim skills.OptimMethod
+	// default.
+	DiscOptim skills.OptimMethod `json:"disc_optim"`
 	// Seed determines the run: every random choice comes from it.
-	Seed uint64
+	Seed uint64 `json:"seed"`
+	// ProgressEvery calls Progress after every ProgressEvery steps (at the
+	// next episode end) and at the end. 0 means Steps/100 (at least 1). It
+	// also delimits the statistics of a report, such as the MI estimate.
+	ProgressEvery int `json:"progress_every"`
 
 	// CheckpointEvery saves a checkpoint to CheckpointPath at the first
 	// episode end after every CheckpointEvery steps, and at the end of the
 	// run. 0 means no periodic checkpoints (a final one is still written if
-	// CheckpointPath is set).
-	CheckpointEvery int
-	// CheckpointPath is the checkpoint file; empty means none.
-	CheckpointPath string
-	// ProgressEvery calls Progress after every ProgressEvery steps (at the
-	// next episode end) and at the end. 0 means Steps/100 (at least 1).
-	ProgressEvery int
-	// Progress, if not nil, receives progress reports.
+	// CheckpointPath is set). Not recorded: it changes no figure.
+	CheckpointEvery int `json:"-"`
+	// CheckpointPath is the checkpoint file; empty means none. Not
+	// recorded.
+	CheckpointPath string `json:"-"`
+	// Progress, if not nil, receives progress reports. Not recorded.
 	Progress func(Progress) `json:"-"`
-
-	// stop, if not nil, is asked at every episode end before the last;
-	// a non-nil error ends the run with that error, after a checkpoint
-	// if CheckpointPath is set (Experiment.RunContext).
-	stop func() error
 }
 
 // Progress is a pretraining progress report.
@@ -179,79 +212,114 @@ type Progress struct {
 	MI, MIStdErr float64
 	HasMI        bool
 	// TDError is the mean squared TD error per feature since the last
-	// report.
+	// report (usf.TDStats).
 	TDError float64
 }
 
-// pretrainDefaults returns cfg with the zero values replaced by defaults,
-// or an error for invalid values.
-func (cfg PretrainConfig) withDefaults() (PretrainConfig, error) {
+// Resolve returns cfg with every default filled in, the configuration
+// that runs, or an error wrapping ErrConfig for an invalid value.
+// Resolving a resolved configuration returns it unchanged.
+func (cfg PretrainConfig) Resolve() (PretrainConfig, error) {
 	c := cfg
 	if c.Method < VMF || c.Method > Given {
 		return c, fmt.Errorf("transfer: method %d: %w", int(c.Method), ErrConfig)
 	}
-	if c.Method == Given {
+	setI(&c.Skills, 32)
+	if c.Skills < 1 {
+		return c, fmt.Errorf("transfer: %d skills: %w", c.Skills, ErrConfig)
+	}
+	switch c.Method {
+	case Categorical:
+		if c.Dim != 0 && c.Dim != c.Skills+1 {
+			return c, fmt.Errorf("transfer: categorical features of %d skills have dimension %d, not %d: %w", c.Skills, c.Skills+1, c.Dim, ErrConfig)
+		}
+		c.Dim = c.Skills + 1
+	case Given:
 		if c.Features == nil {
 			return c, fmt.Errorf("transfer: method given needs Features: %w", ErrConfig)
 		}
+		if c.Dim != 0 && c.Dim != c.Features.Dim() {
+			return c, fmt.Errorf("transfer: given features have dimension %d, not %d: %w", c.Features.Dim(), c.Dim, ErrConfig)
+		}
 		c.Dim = c.Features.Dim()
-	}
-	if c.Dim == 0 {
-		c.Dim = 8
+	default:
+		setI(&c.Dim, 8)
 	}
 	setF(&c.Kappa, 5)
-	setI(&c.Skills, 32)
 	setI(&c.Relabel, 4)
 	if c.Relabel < 0 {
-		c.Relabel = 0
+		c.Relabel = -1
 	}
 	setI(&c.Steps, 100000)
 	setI(&c.EpisodeSteps, 50)
-	setF(&c.Gamma, 0.95)
+	setF(&c.SkillGamma, 0.95)
 	setF(&c.Epsilon, 0.2)
 	if c.Epsilon < 0 {
-		c.Epsilon = 0
+		c.Epsilon = -1
 	}
 	setI(&c.Batch, 16)
 	setI(&c.Replay, 50000)
 	setF(&c.LearnRate, 0.2)
 	setF(&c.DiscRate, 0.03)
-	if c.ProgressEvery == 0 {
+	if c.ProgressEvery == 0 && c.Steps > 0 {
 		c.ProgressEvery = max(c.Steps/100, 1)
 	}
 	return c, c.validate()
 }
 
-// validate checks a configuration whose defaults have been applied.
+// validate checks a resolved configuration; Features are not needed (a
+// checkpoint of a Given agent has none).
 func (c PretrainConfig) validate() error {
 	switch {
 	case c.Method < VMF || c.Method > Given:
 		return fmt.Errorf("transfer: method %d: %w", int(c.Method), ErrConfig)
-	case c.Dim < 1 || (c.Method == VMF || c.Method == Random) && c.Dim < 2:
-		return fmt.Errorf("transfer: dimension %d: %w", c.Dim, ErrConfig)
-	case c.Skills < 1 || c.Relabel < 0:
+	case c.Skills < 1 || c.Relabel < -1:
 		return fmt.Errorf("transfer: %d skills, relabel %d: %w", c.Skills, c.Relabel, ErrConfig)
+	case c.Dim < 1 || (c.Method == VMF || c.Method == Random) && c.Dim < 2 || c.Method == Categorical && c.Dim != c.Skills+1:
+		return fmt.Errorf("transfer: dimension %d: %w", c.Dim, ErrConfig)
 	case !(c.Kappa > 0) || math.IsInf(c.Kappa, 0):
 		return fmt.Errorf("transfer: kappa %v: %w", c.Kappa, ErrConfig)
 	case c.Replay > MaxReplay:
 		return fmt.Errorf("transfer: replay capacity %d above %d: %w", c.Replay, MaxReplay, ErrConfig)
-	case c.Steps < 0 || c.EpisodeSteps < 0 || c.Batch < 0 || c.Replay < 0:
-		return fmt.Errorf("transfer: negative count: %w", ErrConfig)
-	case !(c.Gamma > 0 && c.Gamma < 1):
-		return fmt.Errorf("transfer: gamma %v outside (0, 1): %w", c.Gamma, ErrConfig)
-	case !(c.Epsilon >= 0 && c.Epsilon <= 1):
+	case c.Steps < 1 || c.EpisodeSteps < 1 || c.Batch < 1 || c.Replay < 1:
+		return fmt.Errorf("transfer: steps %d, episode steps %d, batch %d, replay %d: %w", c.Steps, c.EpisodeSteps, c.Batch, c.Replay, ErrConfig)
+	case !(c.SkillGamma > 0 && c.SkillGamma < 1):
+		return fmt.Errorf("transfer: skill gamma %v outside (0, 1): %w", c.SkillGamma, ErrConfig)
+	case !(c.Epsilon == -1 || c.Epsilon >= 0 && c.Epsilon <= 1):
 		return fmt.Errorf("transfer: epsilon %v: %w", c.Epsilon, ErrConfig)
 	case !(c.LearnRate > 0 && c.LearnRate <= 1) || !(c.DiscRate > 0) || math.IsInf(c.DiscRate, 0):
 		return fmt.Errorf("transfer: step sizes %v, %v: %w", c.LearnRate, c.DiscRate, ErrConfig)
-	case c.DiscOptim > skills.OptimSparseAdam:
+	case c.DiscOptim < skills.OptimAdam || c.DiscOptim > skills.OptimSparseAdam:
 		return fmt.Errorf("transfer: discriminator optimiser %v: %w", c.DiscOptim, ErrConfig)
 	case c.CheckpointEvery < 0 || c.ProgressEvery < 1:
-		return fmt.Errorf("transfer: negative period: %w", ErrConfig)
+		return fmt.Errorf("transfer: checkpoint every %d, progress every %d: %w", c.CheckpointEvery, c.ProgressEvery, ErrConfig)
 	}
 	return nil
 }
 
+// relabel returns the number of relabelled skills of a resolved
+// configuration.
+func (c *PretrainConfig) relabel() int { return max(c.Relabel, 0) }
+
+// ResumeConfig says how a saved pretraining run continues (Resume,
+// Agent.Continue): everything else is the saved configuration.
+type ResumeConfig struct {
+	// Steps is the total number of environment steps to reach (episodes
+	// finish, as in Pretrain). 0 means the Steps of the saved
+	// configuration.
+	Steps int
+	// CheckpointEvery and CheckpointPath are as in PretrainConfig; Resume
+	// uses the file it read when CheckpointPath is empty.
+	CheckpointEvery int
+	CheckpointPath  string
+	// ProgressEvery is as in PretrainConfig; 0 keeps the saved value.
+	ProgressEvery int
+	// Progress, if not nil, receives progress reports.
+	Progress func(Progress)
+}
+
 // Explore is the rule by which the agent collects its labelled transitions.
+// Its text form is "skills", "uniform" or "greedy".
 type Explore int
 
 const (
@@ -266,7 +334,23 @@ const (
 	ExploreGreedy
 )
 
-// FitMode selects how the acting policy evaluates the inferred task w.
+var exploreNames = [...]string{"skills", "uniform", "greedy"}
+
+// String returns "skills", "uniform" or "greedy".
+func (e Explore) String() string { return nameOf(int(e), exploreNames[:], "Explore") }
+
+// MarshalText implements encoding.TextMarshaler.
+func (e Explore) MarshalText() ([]byte, error) {
+	return marshalName(int(e), exploreNames[:], "explore rule")
+}
+
+// UnmarshalText implements encoding.TextUnmarshaler.
+func (e *Explore) UnmarshalText(b []byte) error {
+	return unmarshalName((*int)(e), b, exploreNames[:], "explore rule")
+}
+
+// FitMode selects how the acting policy evaluates the inferred task w. Its
+// text form is "none" or "model".
 type FitMode int
 
 const (
@@ -287,90 +371,159 @@ const (
 var fitNames = [...]string{"none", "model"}
 
 // String returns "none" or "model".
-func (f FitMode) String() string {
-	if f < 0 || int(f) >= len(fitNames) {
-		return fmt.Sprintf("FitMode(%d)", int(f))
-	}
-	return fitNames[f]
-}
+func (f FitMode) String() string { return nameOf(int(f), fitNames[:], "FitMode") }
 
 // MarshalText implements encoding.TextMarshaler (used by results.json).
-func (f FitMode) MarshalText() ([]byte, error) { return []byte(f.String()), nil }
+func (f FitMode) MarshalText() ([]byte, error) { return marshalName(int(f), fitNames[:], "fit") }
 
 // UnmarshalText implements encoding.TextUnmarshaler.
 func (f *FitMode) UnmarshalText(b []byte) error {
-	for i, n := range fitNames {
-		if strings.EqualFold(strings.TrimSpace(string(b)), n) {
-			*f = FitMode(i)
-			return nil
-		}
-	}
-	return fmt.Errorf("transfer: unknown fit %q (want none or model): %w", b, ErrConfig)
+	return unmarshalName((*int)(f), b, fitNames[:], "fit")
+}
+
+// RidgeRule is how task inference chooses its ridge penalty lambda. Its
+// text form is "cv" or "fixed".
+type RidgeRule int
+
+const (
+	// RidgeCV chooses lambda from AdaptConfig.RidgeGrid by
+	// leave-one-state-out cross-validation on the labelled transitions
+	// (InferTaskCV). The zero value.
+	RidgeCV RidgeRule = iota
+	// RidgeFixed uses AdaptConfig.Lambda (InferTask); 0 is plain least
+	// squares.
+	RidgeFixed
+)
+
+var ridgeNames = [...]string{"cv", "fixed"}
+
+// String returns "cv" or "fixed".
+func (r RidgeRule) String() string { return nameOf(int(r), ridgeNames[:], "RidgeRule") }
+
+// MarshalText implements encoding.TextMarshaler.
+func (r RidgeRule) MarshalText() ([]byte, error) {
+	return marshalName(int(r), ridgeNames[:], "ridge rule")
+}
+
+// UnmarshalText implements encoding.TextUnmarshaler.
+func (r *RidgeRule) UnmarshalText(b []byte) error {
+	return unmarshalName((*int)(r), b, ridgeNames[:], "ridge rule")
+}
+
+// GPIMode switches generalized policy improvement over the skills on or
+// off. Its text form is "on" or "off".
+type GPIMode int
+
+const (
+	// GPIOn acts by GPI over the AdaptConfig.Candidates skills nearest the
+	// inferred task. The zero value.
+	GPIOn GPIMode = iota
+	// GPIOff acts greedily in psi(s, ., z) . w for the single skill z
+	// nearest w (with FitModel, greedy in the fitted Q(., ., w) alone).
+	GPIOff
+)
+
+var gpiNames = [...]string{"on", "off"}
+
+// String returns "on" or "off".
+func (g GPIMode) String() string { return nameOf(int(g), gpiNames[:], "GPIMode") }
+
+// MarshalText implements encoding.TextMarshaler.
+func (g GPIMode) MarshalText() ([]byte, error) { return marshalName(int(g), gpiNames[:], "gpi mode") }
+
+// UnmarshalText implements encoding.TextUnmarshaler.
+func (g *GPIMode) UnmarshalText(b []byte) error {
+	return unmarshalName((*int)(g), b, gpiNames[:], "gpi mode")
+}
+
+// DefaultRidgeGrid returns the grid of penalties RidgeCV chooses from by
+// default: 1e-3, 1e-2, 0.1, 0.3, 1, 3, 10, 30, 100 (a new slice each
+// call).
+func DefaultRidgeGrid() []float64 {
+	return []float64{1e-3, 1e-2, 0.1, 0.3, 1, 3, 10, 30, 100}
 }
 
 // AdaptConfig configures task inference and the acting policy. The zero
-// value means the documented defaults.
+// value means the documented defaults; Resolve fills them in. The JSON
+// form has snake_case keys and enumerations as text.
 type AdaptConfig struct {
-	// Ridge is the ridge penalty lambda of task inference. 0 means chosen
-	// by leave-one-state-out cross-validation over RidgeGrid (InferTaskCV);
-	// a negative value means plain least squares (lambda = 0).
-	Ridge float64
+	// Ridge is the rule that sets the ridge penalty of task inference:
+	// RidgeCV (the zero value) or RidgeFixed.
+	Ridge RidgeRule `json:"ridge"`
+	// Lambda is the penalty of RidgeFixed, at least 0 (0: plain least
+	// squares). Ignored by RidgeCV.
+	Lambda float64 `json:"lambda"`
+	// RidgeGrid are the penalties RidgeCV chooses from, each positive. nil
+	// means DefaultRidgeGrid. Ignored (and left nil) by RidgeFixed.
+	RidgeGrid []float64 `json:"ridge_grid"`
+	// GPI switches GPI over the candidate skills on (GPIOn, the zero
+	// value) or off (GPIOff: the single nearest skill).
+	GPI GPIMode `json:"gpi"`
 	// Candidates is the number N of skills, the most similar to w by
 	// cosine, whose successor features form the GPI candidate set. 0 means
-	// 8; a negative value switches GPI off: the policy is greedy in
-	// psi(s, ., z) . w for the single skill z nearest to w (with
-	// FitModel, greedy in the fitted Q(., ., w) alone).
-	Candidates int
+	// 8.
+	Candidates int `json:"candidates"`
 	// Fit selects whether a model-based candidate joins the GPI set. The
 	// zero value FitNone is the pure successor-feature method; FitModel
 	// adds Q(., ., w) fitted by value iteration on the empirical model of
 	// the reward-free transitions (see FitModel).
-	Fit FitMode
+	Fit FitMode `json:"fit"`
 	// FitSweeps is the largest number of value-iteration sweeps of
 	// FitModel. 0 means 2000. Ignored with FitNone.
-	FitSweeps int
+	FitSweeps int `json:"fit_sweeps"`
 	// Explore is the rule that collects labelled transitions.
-	Explore Explore
+	Explore Explore `json:"explore"`
 	// Epsilon is the random-action rate while collecting with
-	// ExploreSkills. 0 means 0.2; negative means 0.
-	Epsilon float64
+	// ExploreSkills and ExploreGreedy. 0 means 0.2; a negative value means
+	// none, which Resolve records as -1.
+	Epsilon float64 `json:"epsilon"`
 	// EpisodeSteps is the time limit of a labelled episode. 0 means 1000.
-	EpisodeSteps int
-	noCV         bool // set by withDefaults for a negative Ridge
-
+	EpisodeSteps int `json:"episode_steps"`
 	// SwitchEvery is the number of steps after which ExploreSkills moves to
 	// the next skill within an episode, and after which ExploreGreedy
 	// re-infers the task. 0 means 40.
-	SwitchEvery int
+	SwitchEvery int `json:"switch_every"`
 	// Warmup is the number of skill-following steps before ExploreGreedy
 	// starts acting on its inferred task. 0 means 200.
-	Warmup int
+	Warmup int `json:"warmup"`
 }
 
-func (cfg AdaptConfig) withDefaults() (AdaptConfig, error) {
+// Resolve returns cfg with every default filled in, the configuration
+// that runs, or an error wrapping ErrConfig for an invalid value.
+// Resolving a resolved configuration returns it unchanged.
+func (cfg AdaptConfig) Resolve() (AdaptConfig, error) {
 	c := cfg
-	if c.Ridge < 0 {
-		c.Ridge, c.noCV = 0, true
+	if c.Ridge == RidgeCV {
+		if c.RidgeGrid == nil {
+			c.RidgeGrid = DefaultRidgeGrid()
+		} else {
+			c.RidgeGrid = slices.Clone(c.RidgeGrid)
+		}
 	}
 	setI(&c.Candidates, 8)
-	if c.Candidates < 0 {
-		c.Candidates = 0
-	}
 	setI(&c.FitSweeps, 2000)
 	setF(&c.Epsilon, 0.2)
 	if c.Epsilon < 0 {
-		c.Epsilon = 0
+		c.Epsilon = -1
 	}
 	setI(&c.EpisodeSteps, 1000)
 	setI(&c.SwitchEvery, 40)
 	setI(&c.Warmup, 200)
 	switch {
+	case c.Ridge < RidgeCV || c.Ridge > RidgeFixed:
+		return c, fmt.Errorf("transfer: ridge rule %d: %w", int(c.Ridge), ErrConfig)
+	case !(c.Lambda >= 0) || math.IsInf(c.Lambda, 0):
+		return c, fmt.Errorf("transfer: ridge penalty %v: %w", c.Lambda, ErrConfig)
+	case c.Ridge == RidgeCV && len(c.RidgeGrid) == 0:
+		return c, fmt.Errorf("transfer: empty ridge grid: %w", ErrConfig)
+	case c.GPI < GPIOn || c.GPI > GPIOff:
+		return c, fmt.Errorf("transfer: gpi mode %d: %w", int(c.GPI), ErrConfig)
+	case c.Candidates < 1:
+		return c, fmt.Errorf("transfer: %d candidates (switch GPI off with GPIOff): %w", c.Candidates, ErrConfig)
 	case c.Warmup < 0:
 		return c, fmt.Errorf("transfer: warm-up %d: %w", c.Warmup, ErrConfig)
 	case c.SwitchEvery < 1:
 		return c, fmt.Errorf("transfer: switch every %d: %w", c.SwitchEvery, ErrConfig)
-	case math.IsNaN(c.Ridge) || math.IsInf(c.Ridge, 0):
-		return c, fmt.Errorf("transfer: ridge %v: %w", c.Ridge, ErrConfig)
 	case !(c.Epsilon <= 1):
 		return c, fmt.Errorf("transfer: epsilon %v: %w", c.Epsilon, ErrConfig)
 	case c.EpisodeSteps < 0:
@@ -381,6 +534,11 @@ func (cfg AdaptConfig) withDefaults() (AdaptConfig, error) {
 		return c, fmt.Errorf("transfer: fit sweeps %d: %w", c.FitSweeps, ErrConfig)
 	case c.Explore < ExploreSkills || c.Explore > ExploreGreedy:
 		return c, fmt.Errorf("transfer: explore rule %d: %w", int(c.Explore), ErrConfig)
+	}
+	for _, lam := range c.RidgeGrid {
+		if !(lam > 0) || math.IsInf(lam, 0) {
+			return c, fmt.Errorf("transfer: ridge grid penalty %v: %w", lam, ErrConfig)
+		}
 	}
 	return c, nil
 }

@@ -22,9 +22,9 @@ func Example() {
 		return
 	}
 	// Reward-free pretraining, dropped anywhere in the room.
-	explore, _ := transfer.WithStart(g.MDP, transfer.UniformStart(g.MDP))
+	explore, _ := mdp.WithStart(g.MDP, mdp.UniformStart(g.MDP))
 	agent, err := transfer.Pretrain(mdp.NewSampler(explore, 0), transfer.PretrainConfig{
-		Dim: 8, Skills: 16, Steps: 4000, EpisodeSteps: 20, Gamma: 0.95, Seed: 1,
+		Dim: 8, Skills: 16, Steps: 4000, EpisodeSteps: 20, SkillGamma: 0.95, Seed: 1,
 	})
 	if err != nil {
 		fmt.Println(err)

@@ -68,7 +68,7 @@ func TestInferTaskExact(t *testing.T) {
 
 func mustDefaults(t testing.TB, c PretrainConfig) PretrainConfig {
 	t.Helper()
-	c, err := c.withDefaults()
+	c, err := c.Resolve()
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -122,43 +122,14 @@ func TestMonteCarlo(t *testing.T) {
 	}
 }
 
-// TestQLearningLearns: with a generous budget tabular Q-learning reaches
-// the optimal policy of a small room (Watkins' convergence, Sutton & Barto
-// 2nd ed. section 6.5; measured 1.00 at 20000 steps).
-func TestQLearningLearns(t *testing.T) {
-	g, _ := room(t)
-	w, _ := g.Weights(map[string]float64{"berry": 1})
-	r, _ := g.PlaceReward(w)
-	env := mdp.NewSampler(g.MDP, 0)
-	pols, err := QLearning(env, r, []int{20000}, BaselineConfig{Gamma: 0.9, EpisodeSteps: 30}, 1)
-	if err != nil {
-		t.Fatal(err)
-	}
-	sc, err := Evaluate(g.MDP, pols[0], r, 0.9)
-	if err != nil {
-		t.Fatal(err)
-	}
-	if sc.Normalised < 0.99 {
-		t.Errorf("q-learning scores %v after 20000 steps, want >= 0.99", sc.Normalised)
-	}
-	f, _ := sf.GridLabels(g, false)
-	pols, err = SFQLearning(env, f, r, []int{20000}, BaselineConfig{Gamma: 0.9, EpisodeSteps: 30}, 1)
-	if err != nil {
-		t.Fatal(err)
-	}
-	if sc, _ = Evaluate(g.MDP, pols[0], r, 0.9); sc.Normalised < 0.99 {
-		t.Errorf("sf q-learning scores %v after 20000 steps, want >= 0.99", sc.Normalised)
-	}
-}
-
 // TestGivenSkillsExact: with given features the SF tables of the skills
 // learn, by TD with relabelling, the SFs of their own greedy policies; the
 // value of each skill's greedy policy for its own reward phi . z_k
 // (mdp.Optimal as the reference) is close to optimal.
 func TestGivenSkillsExact(t *testing.T) {
 	g, f := room(t)
-	explore, _ := WithStart(g.MDP, UniformStart(g.MDP))
-	ag, err := Pretrain(mdp.NewSampler(explore, 0), PretrainConfig{Method: Given, Features: f, Skills: 6, Steps: 20000, EpisodeSteps: 20, Gamma: 0.9, Seed: 4})
+	explore, _ := mdp.WithStart(g.MDP, mdp.UniformStart(g.MDP))
+	ag, err := Pretrain(mdp.NewSampler(explore, 0), PretrainConfig{Method: Given, Features: f, Skills: 6, Steps: 20000, EpisodeSteps: 20, SkillGamma: 0.9, Seed: 4})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -188,22 +159,11 @@ func TestGivenSkillsExact(t *testing.T) {
 	}
 }
 
-func TestDeriveSeed(t *testing.T) {
-	seen := map[uint64]bool{}
-	for s := range uint64(50) {
-		for i := range uint64(50) {
-			v := DeriveSeed(s, i)
-			if seen[v] {
-				t.Fatalf("collision at seed %d index %d", s, i)
-			}
-			seen[v] = true
-		}
-	}
-}
-
-// TestInferTaskCV checks the closed-form leave-one-state-out error against
-// refitting without each state (Sherman-Morrison identity, derived by hand
-// in the doc comment), for a single-penalty grid.
+// TestInferTaskCV checks the closed-form leave-one-state-out error
+// (sf.RidgeCV; Sherman-Morrison, Hastie, Tibshirani & Friedman, The
+// Elements of Statistical Learning, 2nd ed., section 7.10) against
+// refitting without each state, for a single-penalty grid, with the
+// transitions grouped by their next state.
 func TestInferTaskCV(t *testing.T) {
 	g, _ := room(t)
 	ag, err := newAgent(g.NumStates(), g.MDP.NumActions(), mustDefaults(t, PretrainConfig{Dim: 6, Skills: 4, Seed: 3}))

@@ -1,13 +1,22 @@
 package transfer
 
 import (
+	"context"
 	"fmt"
 	"math"
 
 	"github.com/successor-go/successor/mdp"
+	"github.com/successor-go/successor/usf"
 )
 
-// Pretrain runs the reward-free phase on env and returns the trained agent.
+// Pretrain runs the reward-free phase on env and returns the trained
+// agent. It is PretrainContext with context.Background().
+func Pretrain(env Env, cfg PretrainConfig) (*Agent, error) {
+	return PretrainContext(context.Background(), env, cfg)
+}
+
+// PretrainContext runs the reward-free phase on env until cfg.Steps steps
+// or until ctx is done, and returns the agent.
 //
 // Every episode draws one skill of the skill set uniformly (the set was
 // drawn from the prior) and acts epsilon-greedily on
@@ -16,27 +25,34 @@ import (
 // cfg.Batch transitions is drawn from the replay, and
 //
 //   - the discriminator takes one Adam step, dense or sparse
-//     (cfg.DiscOptim; skills.VMF or skills.Softmax Update) on the mean of -log q(z | s') over the minibatch (VMF:
-//     log q = kappa phi(s').z + log C_d(kappa); Categorical:
-//     log q = log softmax(logits(s'))_z; Random and Given learn nothing);
-//   - for every transition of the minibatch, the universal SFs of the
-//     acting skill and of cfg.Relabel skills drawn at random take a TD(0)
-//     step (sf.TD) towards
+//     (cfg.DiscOptim; skills.VMF or skills.Softmax Update) on the mean of
+//     -log q(z | s') over the minibatch (VMF: log q = kappa phi(s').z +
+//     log C_d(kappa); Categorical: log q = log softmax(logits(s'))_z;
+//     Random and Given learn nothing);
+//   - the universal SFs take usf.Tabular.UpdateRelabel on the minibatch,
+//     with the current phi(s') of every transition: for the acting skill
+//     and cfg.Relabel skills drawn at random, a TD(0) step towards
 //     phi(s') + gamma (1 - terminal) psi(s', a*, w),
-//     a* = argmax_a psi(s', a, w) . w (the policy of the skill), with the
-//     current phi, so that psi(., ., w) . w is the value of the intrinsic
-//     reward phi(s') . w (Hansen et al. 2020, Algorithm 1).
+//     a* = argmax_a psi(s', a, w) . w (the policy of the skill), so that
+//     psi(., ., w) . w is the value of the intrinsic reward phi(s') . w
+//     (Hansen et al. 2020, Algorithm 1).
 //
 // Episodes end at a terminal state, at an environment truncation, or after
 // cfg.EpisodeSteps steps (a truncation: it bootstraps). The run stops at the
 // first episode end at or after cfg.Steps steps. The run is fully determined
 // by cfg.Seed.
 //
-// Pretrain returns an error wrapping ErrConfig for an invalid configuration,
-// ErrDiverged (naming the step) if a value becomes non-finite, or the error
-// of writing a checkpoint.
-func Pretrain(env Env, cfg PretrainConfig) (*Agent, error) {
-	c, err := cfg.withDefaults()
+// ctx is checked at every episode end before the last: once it is done,
+// the run stops there, saves a checkpoint if cfg.CheckpointPath is set (it
+// resumes like any other, see Resume), and returns the agent as it stood
+// with an error wrapping ctx.Err() that names the step. The agent is also
+// returned, as it stood, with a divergence error.
+//
+// PretrainContext returns an error wrapping ErrConfig for an invalid
+// configuration, ErrDiverged (naming the step) if a value becomes
+// non-finite, ctx.Err(), or the error of writing a checkpoint.
+func PretrainContext(ctx context.Context, env Env, cfg PretrainConfig) (*Agent, error) {
+	c, err := cfg.Resolve()
 	if err != nil {
 		return nil, err
 	}
@@ -44,50 +60,57 @@ func Pretrain(env Env, cfg PretrainConfig) (*Agent, error) {
 	if err != nil {
 		return nil, err
 	}
-	return ag, ag.train(env)
+	return ag, ag.train(ctx, env)
 }
 
-// Resume loads the checkpoint at path and continues pretraining on env until
-// cfg.Steps steps, with the configuration saved in the checkpoint except for
-// Steps, CheckpointEvery, CheckpointPath, ProgressEvery and Progress, which
-// are taken from cfg (a zero CheckpointPath means path itself; the others
-// keep their defaults). Given features are not saved (they are fixed by the
-// checkpoint's phi table). A run saved at step N and resumed to 2N equals,
-// bit for bit, a run of 2N steps without interruption.
-func Resume(env Env, path string, cfg PretrainConfig) (*Agent, error) {
+// Resume loads the checkpoint at path and continues pretraining on env as
+// cfg says (Agent.Continue); an empty cfg.CheckpointPath means path
+// itself. It is ResumeContext with context.Background().
+func Resume(env Env, path string, cfg ResumeConfig) (*Agent, error) {
+	return ResumeContext(context.Background(), env, path, cfg)
+}
+
+// ResumeContext is Resume that stops, as PretrainContext does, at the first
+// episode end after ctx is done, saving a checkpoint there.
+func ResumeContext(ctx context.Context, env Env, path string, cfg ResumeConfig) (*Agent, error) {
 	ag, err := Load(path)
 	if err != nil {
 		return nil, err
 	}
-	return ag, ag.resume(env, path, cfg)
+	if cfg.CheckpointPath == "" {
+		cfg.CheckpointPath = path
+	}
+	return ag, ag.Continue(ctx, env, cfg)
 }
 
-// resume continues the loaded agent ag as Resume describes.
-func (ag *Agent) resume(env Env, path string, cfg PretrainConfig) error {
+// Continue trains the agent further on env, with its own configuration
+// except for the settings of cfg, until cfg.Steps steps (0: the Steps of
+// its configuration) or until ctx is done (as PretrainContext). Given
+// features are not saved: they are fixed by the agent's phi table. A run
+// saved at step N and continued to 2N equals, bit for bit, a run of 2N
+// steps without interruption. It returns an error wrapping ErrConfig if
+// env's sizes differ from the agent's or a setting is negative, and
+// otherwise the errors of PretrainContext.
+func (ag *Agent) Continue(ctx context.Context, env Env, cfg ResumeConfig) error {
 	if ag.n != env.NumStates() || ag.a != env.NumActions() {
 		return fmt.Errorf("transfer: resume: checkpoint has %d states and %d actions, environment %d and %d: %w",
 			ag.n, ag.a, env.NumStates(), env.NumActions(), ErrConfig)
 	}
+	if cfg.Steps < 0 || cfg.CheckpointEvery < 0 || cfg.ProgressEvery < 0 {
+		return fmt.Errorf("transfer: resume: negative count: %w", ErrConfig)
+	}
 	c := ag.cfg
-	c.Steps = cfg.Steps
-	if c.Steps == 0 {
-		c.Steps = 100000
+	if cfg.Steps != 0 {
+		c.Steps = cfg.Steps
 	}
 	c.CheckpointEvery = cfg.CheckpointEvery
 	c.CheckpointPath = cfg.CheckpointPath
-	if c.CheckpointPath == "" {
-		c.CheckpointPath = path
-	}
 	c.Progress = cfg.Progress
 	if cfg.ProgressEvery != 0 {
 		c.ProgressEvery = cfg.ProgressEvery
 	}
-	c.stop = cfg.stop
-	if c.Steps < 0 || c.CheckpointEvery < 0 || c.ProgressEvery < 0 {
-		return fmt.Errorf("transfer: resume: negative count: %w", ErrConfig)
-	}
 	ag.cfg = c
-	return ag.train(env)
+	return ag.train(ctx, env)
 }
 
 // maxEmpty is the number of consecutive episodes without a step (a
@@ -101,8 +124,8 @@ func startDone(env mdp.Env) bool {
 	return ok && d.Done()
 }
 
-// train runs episodes until ag.cfg.Steps.
-func (ag *Agent) train(env Env) error {
+// train runs episodes until ag.cfg.Steps or until ctx is done.
+func (ag *Agent) train(ctx context.Context, env Env) error {
 	ag.modelMu.Lock()
 	ag.emp = nil
 	ag.modelMu.Unlock()
@@ -162,8 +185,8 @@ func (ag *Agent) train(env Env) error {
 				return err
 			}
 		}
-		if c.stop != nil && ag.steps < c.Steps {
-			if err := c.stop(); err != nil {
+		if ag.steps < c.Steps {
+			if err := ctx.Err(); err != nil {
 				// Keep what was done: the state at an episode end
 				// continues like any checkpoint.
 				if c.CheckpointPath != "" {
@@ -180,20 +203,17 @@ func (ag *Agent) train(env Env) error {
 
 // accum accumulates the statistics of a progress report.
 type accum struct {
-	n, nTD            int
-	loss, mi, mi2, td float64
+	n             int
+	loss, mi, mi2 float64
 }
 
 func (ag *Agent) report() {
-	acc := ag.acc
-	ag.acc = accum{}
+	acc, td := ag.acc, ag.td
+	ag.acc, ag.td = accum{}, usf.TDStats{}
 	if ag.cfg.Progress == nil {
 		return
 	}
-	p := Progress{Steps: ag.steps, Episodes: ag.episodes}
-	if acc.nTD > 0 {
-		p.TDError = acc.td / float64(acc.nTD)
-	}
+	p := Progress{Steps: ag.steps, Episodes: ag.episodes, TDError: td.Mean()}
 	if ag.disc != nil && acc.n > 0 {
 		n := float64(acc.n)
 		p.HasMI = true
@@ -212,15 +232,17 @@ func (ag *Agent) report() {
 func (ag *Agent) update() error {
 	c := &ag.cfg
 	b := ag.smp
+	b.K = nil // the replay keeps the task vectors; their indices follow
 	ag.buf.Sample(b, ag.rng)
 	nb, d, n := b.Len(), ag.d, ag.n
 	for i := range nb {
-		k := ag.skillOf(b.Z[i*d : (i+1)*d])
+		k := ag.usf.Index(b.Z[i*d : (i+1)*d])
 		if k < 0 {
 			panic("transfer: replayed skill not in the skill set")
 		}
 		ag.skillK[i] = k
 	}
+	b.K = ag.skillK[:nb]
 
 	// One optimiser step of the discriminator on the minibatch of
 	// (s', z) pairs of the skills that acted.
@@ -228,7 +250,7 @@ func (ag *Agent) update() error {
 		zd := len(ag.zs[0])
 		for i := range nb {
 			ag.x[i*n+b.Next[i]] = 1
-			copy(ag.z[i*zd:(i+1)*zd], ag.zs[ag.skillK[i]])
+			copy(ag.z[i*zd:(i+1)*zd], ag.zs[b.K[i]])
 		}
 		loss, err := ag.disc.Update(ag.x, ag.z)
 		for i := range nb {
@@ -239,7 +261,7 @@ func (ag *Agent) update() error {
 		}
 		// MI lower bound of the minibatch: E[log q(z|s')] - log p(z), the
 		// prior's density being the same for every z.
-		mi := -loss - ag.prior.LogProb(ag.zs[ag.skillK[0]])
+		mi := -loss - ag.prior.LogProb(ag.zs[b.K[0]])
 		ag.acc.loss += loss
 		ag.acc.mi += mi
 		ag.acc.mi2 += mi * mi
@@ -247,42 +269,13 @@ func (ag *Agent) update() error {
 	}
 
 	// TD steps of psi(s, a, w_j) for the acting skill and c.Relabel skills
-	// drawn at random (off-policy relabelling: the intrinsic reward
-	// phi(s') . w_j is known for every j), with the current phi: the sf.TD
-	// learner of skill j on skill j's table of the usf.Tabular, bootstrapping
-	// from the greedy action of w_j in s' (read from the cached values
-	// Q(s, a, w_j), so it costs A rather than A d operations; sf.TD's own
-	// Greedy target computes the same action from the table). The squared TD
-	// error is recovered from the change of the row,
-	// ||delta||^2 = ||change||^2 / alpha^2.
-	old := ag.rowBuf
-	inv := 1 / (c.LearnRate * c.LearnRate)
+	// drawn at random, with the current phi (the features stored in the
+	// replay date from when the transition was taken).
 	for i := range nb {
-		ag.features(ag.phiBuf, b.Next[i])
-		s, a, next, term := b.S[i], b.A[i], b.Next[i], b.Terminal[i]
-		for j := 0; j <= c.Relabel; j++ {
-			kk := ag.skillK[i]
-			if j > 0 {
-				kk = ag.rng.IntN(ag.k)
-			}
-			row := ag.usf.Tables[kk].Row(s, a)
-			copy(old, row)
-			an := -1
-			if !term {
-				an = ag.greedy(kk, next)
-			}
-			if err := ag.tds[kk].UpdateFeatures(s, a, ag.phiBuf, next, term, an); err != nil {
-				return fmt.Errorf("transfer: pretrain: successor features of skill %d non-finite at step %d: %w: %w", kk, ag.steps, ErrDiverged, err)
-			}
-			ag.q[(kk*ag.n+s)*ag.a+a] = dot(row, ag.usf.Z[kk])
-			var sq float64
-			for m, v := range row {
-				e := v - old[m]
-				sq += e * e
-			}
-			ag.acc.td += sq * inv / float64(d)
-			ag.acc.nTD++
-		}
+		ag.features(b.Phi[i*d:(i+1)*d], b.Next[i])
+	}
+	if err := ag.usf.UpdateRelabel(b, c.relabel(), ag.rng, &ag.td); err != nil {
+		return fmt.Errorf("transfer: pretrain: successor features non-finite at step %d: %w: %w", ag.steps, ErrDiverged, err)
 	}
 	return nil
 }

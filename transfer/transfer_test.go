@@ -1,17 +1,16 @@
 package transfer_test
 
 import (
-	"bytes"
-	"encoding/csv"
+	"context"
 	"encoding/json"
 	"errors"
+	"fmt"
 	"os"
 	"path/filepath"
 	"reflect"
-	"runtime"
+	"strings"
 	"testing"
 
-	"github.com/successor-go/successor"
 	"github.com/successor-go/successor/mdp"
 	"github.com/successor-go/successor/sf"
 	"github.com/successor-go/successor/skills"
@@ -40,88 +39,6 @@ func tinyGrid(t testing.TB) (*mdp.Grid, *sf.Labels) {
 	return g, f
 }
 
-func tinyExperiment(t testing.TB, workers int) *transfer.Experiment {
-	g, f := tinyGrid(t)
-	explore, err := transfer.WithStart(g.MDP, transfer.UniformStart(g.MDP))
-	if err != nil {
-		t.Fatal(err)
-	}
-	w1, _ := g.Weights(map[string]float64{"apple": 1})
-	w2, _ := g.Weights(map[string]float64{"berry": 1, "apple": -0.5})
-	return &transfer.Experiment{
-		Task: g.MDP, Explore: explore, Places: f, PlaceNames: g.LabelNames(),
-		Jobs:      []transfer.Job{{Name: "apple", Weights: w1}, {Name: "berry", Weights: w2}},
-		Methods:   []transfer.Method{transfer.VMF, transfer.Given},
-		Seeds:     []uint64{1, 2},
-		Budgets:   []int{20, 100},
-		Baselines: true,
-		Pretrain:  transfer.PretrainConfig{Dim: 8, Skills: 16, Steps: 8000, EpisodeSteps: 20},
-		Adapt:     transfer.AdaptConfig{EpisodeSteps: 20, SwitchEvery: 10},
-		Workers:   workers,
-	}
-}
-
-// TestExperimentDeterministic runs a short seeded experiment end to end:
-// the pretrained agents score well above the uniform random policy, and the
-// figures are identical across two runs and across 1 and 2 workers.
-func TestExperimentDeterministic(t *testing.T) {
-	r1, err := tinyExperiment(t, 1).Run()
-	if err != nil {
-		t.Fatal(err)
-	}
-	r2, err := tinyExperiment(t, 2).Run()
-	if err != nil {
-		t.Fatal(err)
-	}
-	r3, err := tinyExperiment(t, 2).Run()
-	if err != nil {
-		t.Fatal(err)
-	}
-	if !reflect.DeepEqual(r1.Records, r2.Records) || !reflect.DeepEqual(r1.Summary, r2.Summary) {
-		t.Error("figures differ between 1 and 2 workers")
-	}
-	if !reflect.DeepEqual(r2.Records, r3.Records) {
-		t.Error("figures differ between two identical runs")
-	}
-	// The same with the sparse-Adam discriminator, across worker counts.
-	sp1, sp2 := tinyExperiment(t, 1), tinyExperiment(t, 2)
-	sp1.Methods, sp2.Methods = []transfer.Method{transfer.VMF}, []transfer.Method{transfer.VMF}
-	sp1.Pretrain.DiscOptim, sp2.Pretrain.DiscOptim = skills.OptimSparseAdam, skills.OptimSparseAdam
-	s1, err := sp1.Run()
-	if err != nil {
-		t.Fatal(err)
-	}
-	s2, err := sp2.Run()
-	if err != nil {
-		t.Fatal(err)
-	}
-	if !reflect.DeepEqual(s1.Records, s2.Records) {
-		t.Error("sparse adam: figures differ between 1 and 2 workers")
-	}
-	if reflect.DeepEqual(s1.Records, r1.Records[:len(s1.Records)]) {
-		t.Error("sparse adam: figures equal to dense adam's; the option had no effect")
-	}
-	// Measured: vmf 0.74 (the berry job 1.00 on both seeds, the apple job
-	// 1.00 on one seed and -0.06 on the other), given 1.00, with the pure
-	// successor-feature policy (GPI over the nearest skills, no model fit)
-	// at 100 labelled steps; the uniform random policy scores 0 by
-	// construction. The threshold 0.5 states "well above random"; the run
-	// itself is exact and seeded.
-	for _, v := range []string{"vmf" + transfer.SuffixGPI, "given" + transfer.SuffixGPI} {
-		s, ok := r1.Lookup(v, "mean", 100)
-		if !ok {
-			t.Fatalf("no summary for %s", v)
-		}
-		t.Logf("%s: %.3f +- %.3f", v, s.Mean, s.StdErr)
-		if s.Mean < 0.5 {
-			t.Errorf("%s: mean normalised return %.3f, want >= 0.5", v, s.Mean)
-		}
-	}
-	if len(r1.Records) != 2*2*2*(2*3+2) {
-		t.Errorf("%d records, want %d", len(r1.Records), 2*2*2*(2*3+2))
-	}
-}
-
 // TestCheckpointResume checks that a run saved at N steps and resumed to 2N
 // equals, bit for bit, an uninterrupted run of 2N steps; and that a
 // corrupted or truncated checkpoint is rejected.
@@ -138,7 +55,10 @@ func TestCheckpointResume(t *testing.T) {
 	} {
 		m := tc.m
 		t.Run(m.String()+"/"+tc.o.String(), func(t *testing.T) {
-			cfg := transfer.PretrainConfig{Method: m, Features: f, Dim: 4, Skills: 8, Steps: 600, EpisodeSteps: 15, Seed: 7, Replay: 500, ProgressEvery: 50, DiscOptim: tc.o}
+			cfg := transfer.PretrainConfig{Method: m, Features: f, Skills: 8, Steps: 600, EpisodeSteps: 15, Seed: 7, Replay: 500, ProgressEvery: 50, DiscOptim: tc.o}
+			if m.Sphere() && m != transfer.Given {
+				cfg.Dim = 4
+			}
 			env := mdp.NewSampler(g.MDP, 0)
 			full, err := transfer.Pretrain(env, cfg)
 			if err != nil {
@@ -150,7 +70,7 @@ func TestCheckpointResume(t *testing.T) {
 			if _, err := transfer.Pretrain(env, half); err != nil {
 				t.Fatal(err)
 			}
-			resumed, err := transfer.Resume(env, half.CheckpointPath, transfer.PretrainConfig{Steps: 600})
+			resumed, err := transfer.Resume(env, half.CheckpointPath, transfer.ResumeConfig{Steps: 600})
 			if err != nil {
 				t.Fatal(err)
 			}
@@ -250,8 +170,8 @@ func TestConfigErrors(t *testing.T) {
 	env := mdp.NewSampler(g.MDP, 0)
 	for _, cfg := range []transfer.PretrainConfig{
 		{Method: transfer.Given}, // no features
-		{Gamma: 1},
-		{Gamma: -0.5},
+		{SkillGamma: 1},
+		{SkillGamma: -0.5},
 		{Kappa: -1},
 		{Dim: 1},
 		{Steps: -5},
@@ -259,6 +179,9 @@ func TestConfigErrors(t *testing.T) {
 		{LearnRate: 3},
 		{Method: 9},
 		{DiscOptim: 7},
+		{Method: transfer.Categorical, Skills: 4, Dim: 4}, // categorical features have K+1 = 5 entries
+		{Skills: -1},
+		{Batch: -1},
 	} {
 		if _, err := transfer.Pretrain(env, cfg); !errors.Is(err, transfer.ErrConfig) {
 			t.Errorf("%+v: got %v, want ErrConfig", cfg, err)
@@ -317,7 +240,7 @@ func TestResumeMismatch(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if _, err := transfer.Resume(mdp.NewSampler(d.MDP, 0), path, transfer.PretrainConfig{Steps: 100}); !errors.Is(err, transfer.ErrConfig) {
+	if _, err := transfer.Resume(mdp.NewSampler(d.MDP, 0), path, transfer.ResumeConfig{Steps: 100}); !errors.Is(err, transfer.ErrConfig) {
 		t.Errorf("got %v, want ErrConfig", err)
 	}
 }
@@ -350,59 +273,190 @@ func TestCollectPrefix(t *testing.T) {
 	}
 }
 
-// TestReportFiles writes results.json and results.csv and reads them back.
-func TestReportFiles(t *testing.T) {
-	e := tinyExperiment(t, 2)
-	e.Methods = []transfer.Method{transfer.Given}
-	res, err := e.Run()
+// TestResolveIdempotent checks that filling in the defaults twice gives
+// the configuration of filling them in once, for the zero value, for the
+// "off" settings (negative Relabel and Epsilon, GPIOff, RidgeFixed with
+// lambda 0) and for explicit values.
+func TestResolveIdempotent(t *testing.T) {
+	_, f := tinyGrid(t)
+	for _, c := range []transfer.PretrainConfig{
+		{},
+		{Relabel: -1, Epsilon: -0.5},
+		{Relabel: -7, Epsilon: -1},
+		{Method: transfer.Categorical, Skills: 6},
+		{Method: transfer.Categorical, Skills: 6, Dim: 7},
+		{Method: transfer.Given, Features: f},
+		{Method: transfer.Random, Dim: 3, Skills: 5, Kappa: 2, Relabel: 2, Steps: 70, EpisodeSteps: 9, SkillGamma: 0.5,
+			Epsilon: 0.3, Batch: 4, Replay: 99, LearnRate: 0.7, DiscRate: 0.1, DiscOptim: skills.OptimSparseAdam, Seed: 4, ProgressEvery: 3},
+	} {
+		once, err := c.Resolve()
+		if err != nil {
+			t.Fatalf("%+v: %v", c, err)
+		}
+		twice, err := once.Resolve()
+		if err != nil {
+			t.Fatalf("%+v resolved again: %v", once, err)
+		}
+		if !reflect.DeepEqual(once, twice) {
+			t.Errorf("pretrain config resolved once %+v, twice %+v", once, twice)
+		}
+	}
+	for _, c := range []transfer.AdaptConfig{
+		{},
+		{GPI: transfer.GPIOff},
+		{Ridge: transfer.RidgeFixed},
+		{Ridge: transfer.RidgeFixed, Lambda: 0.5},
+		{RidgeGrid: []float64{2, 1}},
+		{Epsilon: -0.1, Explore: transfer.ExploreGreedy, Fit: transfer.FitModel},
+		{Candidates: 3, FitSweeps: 10, Epsilon: 0.5, EpisodeSteps: 20, SwitchEvery: 5, Warmup: 7},
+	} {
+		once, err := c.Resolve()
+		if err != nil {
+			t.Fatalf("%+v: %v", c, err)
+		}
+		twice, err := once.Resolve()
+		if err != nil {
+			t.Fatalf("%+v resolved again: %v", once, err)
+		}
+		if !reflect.DeepEqual(once, twice) {
+			t.Errorf("adapt config resolved once %+v, twice %+v", once, twice)
+		}
+	}
+	if _, err := (transfer.AdaptConfig{Candidates: -1}).Resolve(); !errors.Is(err, transfer.ErrConfig) {
+		t.Errorf("negative candidates: %v, want ErrConfig (GPI is switched off by GPIOff)", err)
+	}
+	if _, err := (transfer.AdaptConfig{Ridge: transfer.RidgeFixed, Lambda: -1}).Resolve(); !errors.Is(err, transfer.ErrConfig) {
+		t.Errorf("negative lambda: %v, want ErrConfig", err)
+	}
+}
+
+// resolvedJSON returns the JSON object of a resolved configuration.
+func resolvedJSON(t *testing.T, c interface{ resolve() (any, error) }) map[string]any {
+	t.Helper()
+	v, err := c.resolve()
 	if err != nil {
 		t.Fatal(err)
 	}
+	b, err := json.Marshal(v)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var m map[string]any
+	if err := json.Unmarshal(b, &m); err != nil {
+		t.Fatal(err)
+	}
+	return m
+}
+
+type pre transfer.PretrainConfig
+
+func (c pre) resolve() (any, error) { return transfer.PretrainConfig(c).Resolve() }
+
+type ada transfer.AdaptConfig
+
+func (c ada) resolve() (any, error) { return transfer.AdaptConfig(c).Resolve() }
+
+// TestConfigJSON checks the recorded form of resolved configurations:
+// snake_case keys, enumerations as text, every default filled in, and "off"
+// written differently from "default".
+func TestConfigJSON(t *testing.T) {
+	p := resolvedJSON(t, pre{})
+	want := map[string]any{
+		"method": "vmf", "skills": 32.0, "dim": 8.0, "kappa": 5.0, "relabel": 4.0, "steps": 100000.0,
+		"episode_steps": 50.0, "skill_gamma": 0.95, "epsilon": 0.2, "batch": 16.0, "replay": 50000.0,
+		"learn_rate": 0.2, "disc_rate": 0.03, "disc_optim": "adam", "seed": 0.0, "progress_every": 1000.0,
+	}
+	if !reflect.DeepEqual(p, want) {
+		t.Errorf("pretrain config json %v,\nwant %v", p, want)
+	}
+	a := resolvedJSON(t, ada{})
+	wantA := map[string]any{
+		"ridge": "cv", "lambda": 0.0, "ridge_grid": []any{1e-3, 1e-2, 0.1, 0.3, 1.0, 3.0, 10.0, 30.0, 100.0},
+		"gpi": "on", "candidates": 8.0, "fit": "none", "fit_sweeps": 2000.0, "explore": "skills",
+		"epsilon": 0.2, "episode_steps": 1000.0, "switch_every": 40.0, "warmup": 200.0,
+	}
+	if !reflect.DeepEqual(a, wantA) {
+		t.Errorf("adapt config json %v,\nwant %v", a, wantA)
+	}
+	for _, tc := range []struct {
+		name    string
+		off, on interface{ resolve() (any, error) }
+		key     string
+	}{
+		{"plain least squares", ada{Ridge: transfer.RidgeFixed}, ada{}, "ridge"},
+		{"gpi off", ada{GPI: transfer.GPIOff}, ada{}, "gpi"},
+		{"no random labelled actions", ada{Epsilon: -1}, ada{}, "epsilon"},
+		{"no relabelling", pre{Relabel: -1}, pre{}, "relabel"},
+		{"no random actions", pre{Epsilon: -1}, pre{}, "epsilon"},
+	} {
+		off, on := resolvedJSON(t, tc.off), resolvedJSON(t, tc.on)
+		if reflect.DeepEqual(off[tc.key], on[tc.key]) {
+			t.Errorf("%s: %q is %v both off and by default", tc.name, tc.key, off[tc.key])
+		}
+	}
+	if b, _ := json.Marshal(transfer.PretrainConfig{Method: transfer.Categorical}); !strings.Contains(string(b), `"method":"categorical"`) {
+		t.Errorf("method not written as text: %s", b)
+	}
+	var back transfer.AdaptConfig
+	if err := json.Unmarshal([]byte(`{"ridge":"fixed","gpi":"off","fit":"model","explore":"greedy"}`), &back); err != nil ||
+		back.Ridge != transfer.RidgeFixed || back.GPI != transfer.GPIOff || back.Fit != transfer.FitModel || back.Explore != transfer.ExploreGreedy {
+		t.Errorf("enumerations read back as %+v (%v)", back, err)
+	}
+}
+
+// TestPretrainContext stops a pretraining run through its context from a
+// progress report, checks that it stopped at an episode end with an error
+// wrapping context.Canceled that names the step, and saved a checkpoint
+// there; and that resuming that checkpoint (ResumeContext) to the full
+// length equals the uninterrupted run bit for bit.
+func TestPretrainContext(t *testing.T) {
+	g, _ := tinyGrid(t)
 	dir := t.TempDir()
-	rep := transfer.NewReport(e, res, "invented data")
-	if err := rep.WriteJSON(filepath.Join(dir, "results.json")); err != nil {
-		t.Fatal(err)
-	}
-	if err := rep.WriteCSV(filepath.Join(dir, "results.csv")); err != nil {
-		t.Fatal(err)
-	}
-	b, err := os.ReadFile(filepath.Join(dir, "results.json"))
+	cfg := transfer.PretrainConfig{Dim: 4, Skills: 8, Steps: 800, EpisodeSteps: 15, Seed: 5, Replay: 500, ProgressEvery: 100}
+	full, err := transfer.Pretrain(mdp.NewSampler(g.MDP, 0), cfg)
 	if err != nil {
 		t.Fatal(err)
 	}
-	var back struct {
-		Library string   `json:"library_version"`
-		Go      string   `json:"go_version"`
-		Seeds   []uint64 `json:"seeds"`
-		Config  struct {
-			Pretrain struct{ Steps, Skills int }
-		} `json:"config"`
-		Results transfer.Results `json:"results"`
+	ctx, cancel := context.WithCancel(context.Background())
+	defer cancel()
+	stopCfg := cfg
+	stopCfg.CheckpointPath = filepath.Join(dir, "stopped")
+	stopCfg.Progress = func(p transfer.Progress) {
+		if p.Steps >= 300 {
+			cancel()
+		}
 	}
-	if err := json.Unmarshal(b, &back); err != nil {
-		t.Fatal(err)
+	ag, err := transfer.PretrainContext(ctx, mdp.NewSampler(g.MDP, 0), stopCfg)
+	if !errors.Is(err, context.Canceled) {
+		t.Fatalf("got %v, want context.Canceled", err)
 	}
-	if back.Library != successor.Version || back.Go != runtime.Version() || !reflect.DeepEqual(back.Seeds, e.Seeds) {
-		t.Errorf("header %q %q %v", back.Library, back.Go, back.Seeds)
+	if ag == nil || ag.Steps() < 300 || ag.Steps() >= 800 {
+		t.Fatalf("stopped agent %v", ag)
 	}
-	if back.Config.Pretrain.Steps != e.Pretrain.Steps || back.Config.Pretrain.Skills != 16 {
-		t.Errorf("config not written with its values: %+v", back.Config.Pretrain)
+	if want := fmt.Sprintf("stopped at step %d:", ag.Steps()); !strings.Contains(err.Error(), want) {
+		t.Errorf("error %q does not say %q", err, want)
 	}
-	if len(back.Results.VariantInfo) != len(back.Results.Variants) || back.Results.VariantInfo[0].Name != "given"+transfer.SuffixGPI || back.Results.VariantInfo[2].Fit != transfer.FitModel {
-		t.Errorf("variant info %+v does not state the variants %v", back.Results.VariantInfo, back.Results.Variants)
-	}
-	if !reflect.DeepEqual(back.Results.Records, res.Records) {
-		t.Error("records do not round-trip through JSON")
-	}
-	c, err := os.ReadFile(filepath.Join(dir, "results.csv"))
+	saved, err := transfer.Load(stopCfg.CheckpointPath)
 	if err != nil {
 		t.Fatal(err)
 	}
-	rows, err := csv.NewReader(bytes.NewReader(c)).ReadAll()
+	if saved.Steps() != ag.Steps() {
+		t.Errorf("checkpoint at step %d, stopped at %d", saved.Steps(), ag.Steps())
+	}
+	resumed, err := transfer.ResumeContext(context.Background(), mdp.NewSampler(g.MDP, 0), stopCfg.CheckpointPath, transfer.ResumeConfig{})
 	if err != nil {
 		t.Fatal(err)
 	}
-	if len(rows) != len(res.Records)+1 {
-		t.Errorf("%d csv rows, want %d", len(rows), len(res.Records)+1)
+	a, b := filepath.Join(dir, "a"), filepath.Join(dir, "b")
+	if err := full.Save(a); err != nil {
+		t.Fatal(err)
+	}
+	if err := resumed.Save(b); err != nil {
+		t.Fatal(err)
+	}
+	da, _ := os.ReadFile(a)
+	db, _ := os.ReadFile(b)
+	if string(da) != string(db) {
+		t.Error("stopped and resumed run differs from the uninterrupted run")
 	}
 }

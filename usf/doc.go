@@ -38,16 +38,34 @@
 // # Approximators
 //
 // Tabular keeps one sf.Table per z of a finite set Z (psi(s, a, z_k) =
-// T_k[s, a]); observations must be one-hot. Updates are online TD(0) with
-// the per-(z, s, a) step schedule of sf.StepSize.
+// T_k[s, a]); observations must be one-hot. Update is online TD(0) with
+// the per-(z, s, a) step schedule of sf.StepSize. UpdateRelabel is the
+// update of skill pretraining (Hansen et al. 2020, Algorithm 1), and the
+// one package transfer runs: every transition updates the z that acted
+// and a number of other z of the set drawn at random (off-policy
+// relabelling, the reward phi . z_k of every z_k being known), with the
+// greedy target of each z's own task; it reads the greedy action from a
+// cache of the action values Q(s, a, z_k) = psi(s, a, z_k) . z_k (Values,
+// Greedy), which both updates keep current and which is rebuilt exactly
+// from the tables after a load, and it reports the squared TD error per
+// feature (TDStats). Its arithmetic is sf.TD's, so it equals
+// sf.TD.UpdateFeatures bit for bit.
 //
 // Cost per transition: Tabular O(A d) (the greedy next action) plus the
 // look-up of z in the set, O(d) expected by a hash table whatever K is, or
-// none when the Batch gives the set index K; Linear with one-hot x
-// O(A d e) with e = d (+1 with Affine), and O(nnz(x) A d e) with a dense
-// x; Neural one forward pass of the target network and one forward and
-// backward pass of the online network per minibatch (about
-// 2 n sum_l in_l out_l flops each).
+// none when the Batch gives the set index K; UpdateRelabel O(A + d) per
+// updated z (the greedy action from the cache, the row, and the refreshed
+// cache entry); Linear with one-hot x O(A d e) with e = d (+1 with
+// Affine), and O(nnz(x) A d e) with a dense x; Neural one forward pass of
+// the target network and one forward and backward pass of the online
+// network per minibatch (about 2 n sum_l in_l out_l flops each).
+//
+// Linear and Neural are not used by package transfer: the tabular form is
+// exact on the finite skill set that transfer pretrains, Linear could not
+// represent the policies of the depot demo's distant skills (see package
+// transfer), and Neural is the approximator for psi over a continuous z
+// (with Candidates for GPI around an inferred task). Their tests check
+// them against the exact oracles on their own.
 //
 // Linear is linear in the joint feature x(s) (outer) z:
 //
@@ -76,7 +94,8 @@
 // Psi(dst, s) writes psi(s, ., z) action-major. Candidates builds a GPI
 // candidate set around an inferred task vector w: w itself plus vectors
 // drawn from the von Mises-Fisher distribution on the unit sphere with mean
-// direction w/||w|| (Wood 1994), or by normalising w/||w|| + sigma N(0, I).
+// direction w/||w|| (skills.VonMisesFisher, Wood 1994), or by normalising
+// w/||w|| + sigma N(0, I).
 //
 // # Replay
 //

@@ -80,49 +80,6 @@ func TestSourceFastAndGeneric(t *testing.T) {
 	}
 }
 
-// TestVonMisesFisherMean checks the mean of mu . x under Wood's sampler
-// against the closed form for the sphere S^2 (d = 3):
-// E[mu . x] = coth(kappa) - 1/kappa (Mardia & Jupp 2000, Directional
-// Statistics, section 9.3.2, A_3(kappa)), and for kappa = 0 the uniform
-// mean 0; and for d = 2 against A_2(kappa) = I_1(kappa)/I_0(kappa) with
-// I_1(2)/I_0(2) = 1.590636854637329/2.279585302336067 (Abramowitz &
-// Stegun, Table 9.8, from memory). 20000 draws; tolerance 4 standard
-// errors of the sample mean (the variance of mu . x is at most 1).
-func TestVonMisesFisherMean(t *testing.T) {
-	coth := func(k float64) float64 { return math.Cosh(k) / math.Sinh(k) }
-	for _, tc := range []struct {
-		d     int
-		kappa float64
-		want  float64
-	}{
-		{3, 0, 0},
-		{3, 2, coth(2) - 0.5},
-		{3, 20, coth(20) - 1.0/20},
-		{2, 2, 1.590636854637329 / 2.279585302336067},
-		{1, 1, math.Tanh(1)}, // two points: (e - 1/e)/(e + 1/e)
-	} {
-		rng := rand.New(rand.NewPCG(uint64(tc.d), uint64(tc.kappa*10)))
-		mu := unitVectors(rng, 1, tc.d)[0]
-		x := make([]float64, tc.d)
-		const n = 20000
-		var sum, sumSq float64
-		for range n {
-			VonMisesFisher(x, mu, tc.kappa, rng)
-			if math.Abs(vec.Dot(x, x)-1) > 1e-12 {
-				t.Fatalf("d %d: draw has norm^2 %v", tc.d, vec.Dot(x, x))
-			}
-			c := vec.Dot(mu, x)
-			sum += c
-			sumSq += c * c
-		}
-		mean := sum / n
-		se := math.Sqrt((sumSq/n - mean*mean) / n)
-		if math.Abs(mean-tc.want) > 4*se+1e-12 {
-			t.Errorf("d %d kappa %v: mean %v, want %v (se %.2g)", tc.d, tc.kappa, mean, tc.want, se)
-		}
-	}
-}
-
 func TestCandidates(t *testing.T) {
 	rng := rand.New(rand.NewPCG(9, 9))
 	w := []float64{3, 0, 4}
@@ -150,7 +107,7 @@ func TestCandidates(t *testing.T) {
 		}
 		// Expected mean cosine to w/||w||: kappa 50 in d 3, E[mu.x] =
 		// coth 50 - 1/50 = 0.98 (Mardia & Jupp 2000, section 9.3.2, as in
-		// TestVonMisesFisherMean); sigma 0.1, E[cos] = 1 - sigma^2 (d-1)/2
+		// skills.TestVonMisesFisherMean); sigma 0.1, E[cos] = 1 - sigma^2 (d-1)/2
 		// + O(sigma^4) = 0.99 (derived by hand: expand (1 + sigma g_1) /
 		// ||e_1 + sigma g|| to second order; a 2e6-draw simulation gives
 		// 0.99000, so the remainder is far below the 1e-3 allowed).

@@ -3,6 +3,7 @@ package usf
 import (
 	"fmt"
 	"math"
+	"math/rand/v2"
 
 	"github.com/successor-go/successor/sf"
 )
@@ -25,7 +26,16 @@ type TabularConfig struct {
 // a Batch may instead give the index k of each z in K.
 //
 // Z and Tables are exported for reading; the set is fixed, so Z must not
-// be modified (the hash table would not see the change).
+// be modified (the hash table would not see the change), and the tables
+// are written only by Update and UpdateRelabel (the cache of action values
+// would not see another write).
+//
+// A Tabular also keeps, once Values, Greedy or UpdateRelabel first needs
+// it, a cache of the action values Q(s, a, z_k) = psi(s, a, z_k) . z_k of
+// every z_k of the set, kept current by Update and UpdateRelabel, so that
+// the policy of z_k costs O(A) per state rather than O(A d). The cache is
+// not saved: after UnmarshalBinary it is rebuilt, exactly, from the loaded
+// tables on first use.
 type Tabular struct {
 	Z      [][]float64 // the set (copied at construction); read only
 	Tables []*sf.Table // Tables[k] holds psi(., ., Z[k])
@@ -43,6 +53,10 @@ type Tabular struct {
 	visits []float64 // per (k, s, a) when power > 0
 	steps  int
 	err    error
+
+	// q caches Q(s, a, z_k) = psi(s, a, z_k) . z_k at (k*S + s)*A + a, or
+	// is nil until first needed (see values).
+	q []float64
 }
 
 // NewTabular returns a zeroed tabular USF for the given number of states
@@ -272,8 +286,9 @@ func (t *Tabular) Err() error { return t.err }
 // with a' the given next action or argmax_a' psi(s',a',z) . z. It reads S
 // and Next if set, else the one-hot X and NextX; and the set indices K if
 // set, else Z (looked up as by Index). The returned loss is
-// (1/(2n)) sum ||delta||^2 of the deltas as they were applied. It panics if
-// b is malformed, a z is not in the set or an index of K is outside
+// (1/(2n)) sum ||delta||^2 of the deltas as they were applied. It keeps
+// the cache of action values (Values) current once it is built. It panics
+// if b is malformed, a z is not in the set or an index of K is outside
 // [0, len(Z)). It does not allocate.
 func (t *Tabular) Update(b *Batch) (float64, error) {
 	if t.err != nil {
@@ -352,10 +367,229 @@ func (t *Tabular) Update(b *Batch) (float64, error) {
 			t.err = &sf.DivergenceError{Learner: "usf tabular", Step: t.steps, State: s, Action: a}
 			return 0, t.err
 		}
+		if t.q != nil {
+			t.q[(k*ns+s)*na+a] = dotSeq(row, z)
+		}
 		loss += sq
 	}
 	if n == 0 {
 		return 0, nil
 	}
 	return loss / (2 * float64(n)), nil
+}
+
+// dotSeq returns x . y summed left to right. The cache of action values
+// uses it (rather than the four-way sum of the package's other inner
+// products) so that its argmax, and the runs built on it, keep their bits.
+func dotSeq(x, y []float64) float64 {
+	var s float64
+	y = y[:len(x)]
+	for i, v := range x {
+		s += v * y[i]
+	}
+	return s
+}
+
+// values returns the cache of action values, building it from the tables
+// if it is not there (after NewTabular or UnmarshalBinary).
+func (t *Tabular) values() []float64 {
+	if t.q != nil {
+		return t.q
+	}
+	ns, na, _ := t.Shape()
+	q := make([]float64, len(t.Z)*ns*na)
+	for k, z := range t.Z {
+		tab := t.Tables[k]
+		for s := range ns {
+			for a := range na {
+				q[(k*ns+s)*na+a] = dotSeq(tab.Row(s, a), z)
+			}
+		}
+	}
+	t.q = q
+	return q
+}
+
+// Values returns a view of the action values Q(s, ., z_k) =
+// psi(s, ., z_k) . z_k of the policy of z_k in state s (len A, the dot
+// products summed left to right), from the cache. It must not be
+// modified. The first call of Values, Greedy or UpdateRelabel builds the
+// cache, O(K S A d); it must not be concurrent with another call, after
+// which Values and Greedy may be called concurrently (but not with an
+// update). It panics if k or s is out of range.
+func (t *Tabular) Values(k, s int) []float64 {
+	ns, na, _ := t.Shape()
+	if uint(k) >= uint(len(t.Z)) || uint(s) >= uint(ns) {
+		panic(fmt.Sprintf("usf: tabular: values of z %d in state %d out of range", k, s))
+	}
+	i := (k*ns + s) * na
+	return t.values()[i : i+na : i+na]
+}
+
+// Greedy returns the action of the policy of z_k in state s,
+// argmax_a Q(s, a, z_k) from the cache (see Values), ties to the lowest
+// action. It panics if k or s is out of range. It does not allocate once
+// the cache is built.
+func (t *Tabular) Greedy(k, s int) int {
+	return argmaxFirst(t.Values(k, s))
+}
+
+// argmaxFirst returns the index of the largest value, ties to the lowest.
+func argmaxFirst(q []float64) int {
+	best, arg := math.Inf(-1), 0
+	for i, v := range q {
+		if v > best {
+			best, arg = v, i
+		}
+	}
+	return arg
+}
+
+// TDStats accumulates the squared TD errors of updates: SumSq is the sum
+// over updates of ||delta||^2 / d (the mean over the d features of the
+// squared error of one update) and N the number of updates.
+type TDStats struct {
+	SumSq float64
+	N     int
+}
+
+// Mean returns SumSq / N, the mean squared TD error per feature, or 0 if
+// N is 0.
+func (st TDStats) Mean() float64 {
+	if st.N == 0 {
+		return 0
+	}
+	return st.SumSq / float64(st.N)
+}
+
+// UpdateRelabel applies online TD(0) with the greedy target to the
+// transitions of b in order, for the z that acted and extra more z of the
+// set drawn uniformly at random (off-policy relabelling: with phi the
+// features of s', the reward phi . z_j of every z_j of the set is known).
+// For transition i and each of its z_j, in turn,
+//
+//	a*    = argmax_a psi(s', a, z_j) . z_j   (from the cache, ties to the lowest action),
+//	psi(s, a, z_j) += alpha [phi + gamma (1 - terminal) psi(s', a*, z_j) - psi(s, a, z_j)],
+//
+// then Q(s, a, z_j) is refreshed in the cache. The row is computed as sf.TD
+// computes it, (1-alpha) (psi + (alpha gamma/(1-alpha)) psi') + alpha phi
+// (alpha psi' gamma + (1-alpha) psi + alpha phi when alpha = 1), so one
+// update equals sf.TD.UpdateFeatures with the Sampled target at a* bit for
+// bit. This is the update of pretraining in Hansen et al. 2020
+// (Algorithm 1), where every z_j is a skill and phi the current features.
+//
+// It reads S, Next, A, Phi (the features of every s', len n*d), Terminal,
+// and the set indices K of the z that acted (Z, looked up as by Index, if
+// K is nil); X, NextX and NextA are not read. The extra z of transition i
+// are drawn after its own update, by extra calls rng.IntN(K) (rng may be
+// nil if extra is 0). Every update adds to st, if it is not nil, the
+// squared TD error per feature, recovered from the change of the row as
+// ||change||^2 / (alpha^2 d). The step alpha follows the schedule of
+// TabularConfig.Step; each update counts as one step (Steps).
+//
+// It returns an error wrapping a *sf.DivergenceError (ErrDiverged) if a
+// row becomes non-finite, naming the set index; the Tabular is then
+// unusable. It panics if b is malformed (S or Next nil), extra < 0, a
+// state, action or index is out of range, a z is not in the set, or rng
+// is nil with extra > 0. It does not allocate once the cache is built.
+func (t *Tabular) UpdateRelabel(b *Batch, extra int, rng *rand.Rand, st *TDStats) error {
+	if t.err != nil {
+		return t.err
+	}
+	ns, na, d := t.Shape()
+	n := b.Len()
+	if b.S == nil || b.Next == nil || len(b.S) != n || len(b.Next) != n {
+		panic("usf: tabular: relabel: batch needs S and Next, one entry per transition")
+	}
+	if len(b.Phi) != n*d || len(b.Terminal) != n || b.K != nil && len(b.K) != n || b.K == nil && len(b.Z) != n*d {
+		panic("usf: tabular: relabel: batch Phi, Terminal, K or Z of the wrong length")
+	}
+	if extra < 0 || extra > 0 && rng == nil {
+		panic("usf: tabular: relabel: negative extra, or extra without rng")
+	}
+	q := t.values()
+	nz := len(t.Z)
+	for i := range n {
+		s, a, next := b.S[i], b.A[i], b.Next[i]
+		if uint(s) >= uint(ns) || uint(next) >= uint(ns) || uint(a) >= uint(na) {
+			panic(fmt.Sprintf("usf: tabular: relabel: transition (%d, %d, %d) out of range", s, a, next))
+		}
+		var k int
+		if b.K != nil {
+			k = b.K[i]
+			if uint(k) >= uint(nz) {
+				panic(fmt.Sprintf("usf: tabular: set index %d out of range [0, %d)", k, nz))
+			}
+		} else {
+			k = t.mustIndex(b.Z[i*d : (i+1)*d])
+		}
+		phi := b.Phi[i*d : (i+1)*d : (i+1)*d]
+		term := b.Terminal[i]
+		for j := 0; j <= extra; j++ {
+			if j > 0 {
+				k = rng.IntN(nz)
+			}
+			tab := t.Tables[k]
+			row := tab.Row(s, a)
+			var nrow []float64
+			if !term {
+				nrow = tab.Row(next, argmaxFirst(q[(k*ns+next)*na:(k*ns+next+1)*na]))
+			}
+			step := t.alpha
+			if t.visits != nil {
+				v := (k*ns+s)*na + a
+				t.visits[v]++
+				step = t.alpha * math.Pow(t.visits[v], -t.power)
+			}
+			t.steps++
+			sq := tdRow(row, nrow, phi, step, t.gamma)
+			if math.IsNaN(sq) || math.IsInf(sq, 0) {
+				t.err = &sf.DivergenceError{Learner: "usf tabular", Step: t.steps, State: s, Action: a}
+				return fmt.Errorf("usf: tabular: relabel: z %d: %w", k, t.err)
+			}
+			q[(k*ns+s)*na+a] = dotSeq(row, t.Z[k])
+			if st != nil {
+				st.SumSq += sq * (1 / (step * step)) / float64(d)
+				st.N++
+			}
+		}
+	}
+	return nil
+}
+
+// tdRow sets cur to the TD(0) update toward phi + gamma nxt (phi alone
+// for nxt == nil, a terminal next state) with step alpha, in the
+// arithmetic of sf.TD (see UpdateRelabel), and returns the squared norm of
+// the change of cur. cur and nxt may be the same row.
+func tdRow(cur, nxt, phi []float64, alpha, gamma float64) float64 {
+	phi = phi[:len(cur)]
+	om, ag := 1-alpha, alpha*gamma
+	var sq float64
+	switch {
+	case nxt == nil:
+		for k, c := range cur {
+			v := om*c + alpha*phi[k]
+			e := v - c
+			sq += e * e
+			cur[k] = v
+		}
+	case om != 0:
+		nxt = nxt[:len(cur)]
+		h := ag / om
+		for k, c := range cur {
+			v := om*(c+h*nxt[k]) + alpha*phi[k]
+			e := v - c
+			sq += e * e
+			cur[k] = v
+		}
+	default:
+		nxt = nxt[:len(cur)]
+		for k, c := range cur {
+			v := om*c + ag*nxt[k] + alpha*phi[k]
+			e := v - c
+			sq += e * e
+			cur[k] = v
+		}
+	}
+	return sq
 }

@@ -55,6 +55,7 @@ import (
 	"github.com/schollz/progressbar/v3"
 	"golang.org/x/term"
 
+	"github.com/successor-go/successor/experiment"
 	"github.com/successor-go/successor/mdp"
 	"github.com/successor-go/successor/sf"
 	"github.com/successor-go/successor/skills"
@@ -111,14 +112,13 @@ func parseFlags(args []string, stderr io.Writer) (*options, error) {
 	fs.IntVar(&o.steps, "steps", 0, "pretraining steps per run (0: the default, 100000; -quick 8000)")
 	fs.StringVar(&o.cpuProfile, "cpuprofile", "", "write a CPU profile of the whole run to this file")
 	fs.BoolVar(&o.noPlots, "noplots", false, "skip the PNG figures")
-	fs.IntVar(&o.dim, "dim", 0, "feature dimension d of the sphere methods, and the number of categorical skills (0: the demo's default)")
+	fs.IntVar(&o.dim, "dim", 0, "feature dimension d of the sphere methods vmf and random (0: the demo's default, 64); categorical's is skills+1, given's the number of place features")
 	fs.Float64Var(&o.discRate, "discrate", 0, "step size of the discriminator's Adam (0: transfer's default)")
 	fs.TextVar(&o.discOptim, "discoptim", skills.OptimAdam, "discriminator optimiser: adam, or sparse-adam (only the minibatch's states and the bias; faster, transferred worse on this depot)")
-	fs.IntVar(&o.skills, "skills", 0, "number of skills K of the sphere methods (0: the demo's default)")
+	fs.IntVar(&o.skills, "skills", 0, "number of skills K of every method (0: the demo's default, 128 for vmf, random and given, 64 for categorical)")
 	fs.IntVar(&o.candidates, "candidates", 0, "GPI candidates: the skills nearest the inferred task (0: transfer's default)")
 	fs.StringVar(&o.ckptDir, "checkpoints", "", "keep every pretraining run's checkpoint and result rows in folder `DIR` (created if missing), so a run that is\nstopped (Ctrl-C, kill, crash) continues where it stopped when started again with the same flags and folder; the figures are\nthe same as without a stop. Files of other settings are refused: use a new folder per setting. Default: off (nothing kept;\nthe files take tens of MB per run)")
-	var explore string
-	fs.StringVar(&explore, "explore", "skills", "how the agent collects its labelled steps: skills (follow its skills), greedy (skills, then act on the task inferred so far), uniform (random actions)")
+	fs.TextVar(&o.explore, "explore", transfer.ExploreSkills, "how the agent collects its labelled steps: skills (follow its skills), greedy (skills, then act on the task inferred so far), uniform (random actions)")
 	fs.Usage = func() {
 		fmt.Fprintf(fs.Output(), "usage: depot [flags]\n\nPretrain on the invented depot floor without reward, then adapt to held-out jobs.\n\n")
 		fs.PrintDefaults()
@@ -148,16 +148,6 @@ func parseFlags(args []string, stderr io.Writer) (*options, error) {
 	}
 	if o.steps == 0 {
 		o.steps = 100000
-	}
-	switch explore {
-	case "skills":
-		o.explore = transfer.ExploreSkills
-	case "greedy":
-		o.explore = transfer.ExploreGreedy
-	case "uniform":
-		o.explore = transfer.ExploreUniform
-	default:
-		return nil, fmt.Errorf("%w: -explore %q: want skills, greedy or uniform", errUsage, explore)
 	}
 	for _, name := range strings.Split(methods, ",") {
 		if strings.TrimSpace(name) == "" {
@@ -198,7 +188,7 @@ func parseFlags(args []string, stderr io.Writer) (*options, error) {
 // jobs returns the held-out jobs over the depot's place labels. They were
 // fixed before any result was seen; they are the jobs a floor planner would
 // hand the robot, not ones chosen because a method does well on them.
-func jobs(g *mdp.Grid) ([]transfer.Job, error) {
+func jobs(g *mdp.Grid) ([]experiment.Job, error) {
 	specs := []struct {
 		name, desc string
 		w          map[string]float64
@@ -209,13 +199,13 @@ func jobs(g *mdp.Grid) ([]transfer.Job, error) {
 		{"recharge", "end of shift: park on the charging pad, keep clear of the packing bench", map[string]float64{"charger": 1, "bench": -0.5}},
 		{"bay2-restock", "restock shelf bay 2, avoiding the charging lane", map[string]float64{"bay2": 1, "lane": -0.5}},
 	}
-	out := make([]transfer.Job, len(specs))
+	out := make([]experiment.Job, len(specs))
 	for i, s := range specs {
 		w, err := g.Weights(s.w)
 		if err != nil {
 			return nil, err
 		}
-		out[i] = transfer.Job{Name: s.name, Description: s.desc, Weights: w}
+		out[i] = experiment.Job{Name: s.name, Description: s.desc, Weights: w}
 	}
 	return out, nil
 }
@@ -266,7 +256,7 @@ func run(args []string, stdout, stderr io.Writer) error {
 	if err != nil {
 		return err
 	}
-	explore, err := transfer.WithStart(g.MDP, transfer.UniformStart(g.MDP))
+	explore, err := mdp.WithStart(g.MDP, mdp.UniformStart(g.MDP))
 	if err != nil {
 		return err
 	}
@@ -274,18 +264,17 @@ func run(args []string, stdout, stderr io.Writer) error {
 	for i := range seeds {
 		seeds[i] = o.firstSeed + uint64(i)
 	}
-	e := &transfer.Experiment{
+	e := &experiment.Experiment{
 		Task:       g.MDP,
 		Explore:    explore,
 		Places:     places,
 		PlaceNames: g.LabelNames(),
 		Jobs:       js,
-		Methods:    o.methods,
+		Methods:    methodConfigs(o),
 		Seeds:      seeds,
 		Budgets:    budgets(o.budget),
 		Baselines:  true,
-		Gamma:      0.95,
-		Pretrain:   defaultPretrain(o),
+		TaskGamma:  0.95,
 		Adapt:      transfer.AdaptConfig{Explore: o.explore, Candidates: o.candidates},
 		Workers:    o.workers,
 
@@ -334,12 +323,16 @@ func run(args []string, stdout, stderr io.Writer) error {
 	printResumed(stdout, o.ckptDir, res.Resumed)
 	printTable(stdout, e, res, elapsed)
 
-	rep := transfer.NewReport(e, res,
+	rep, err := experiment.NewReport(e, res,
 		"the depot floor and the jobs are invented demo data, not a real site",
 		"pretraining episodes start at a uniformly random free cell; labelled episodes and scores start at the depot's start cell",
 		"pretraining seconds and steps per second depend on the machine; every other figure depends only on the seeds",
-		"config.pretrain is the template of every pretraining run: its method and seed are set per run (methods; seed derived from the run's seed and the method by transfer.DeriveSeed)",
-		"labelled transitions: one run of up to adapt.EpisodeSteps steps from the start cell by the rule adapt.Explore (0 follow the skills in a random order, a new one every adapt.SwitchEvery steps; 1 uniform random; 2 skills for adapt.Warmup steps, then the policy adapted to the labels so far); the baselines learn online with the same budget")
+		"config.methods holds the resolved configuration of every pretrained method; its seed is not used: each run's seed is derived from the run's seed and the method by experiment.DeriveSeed",
+		"labelled transitions: one run of up to adapt.episode_steps steps from the start cell by the rule adapt.explore (skills: follow the skills in a random order, a new one every adapt.switch_every steps; uniform: random actions; greedy: skills for adapt.warmup steps, then the policy adapted to the labels so far); the baselines learn online with the same budget",
+		"discounts: config.task_gamma scores every policy and drives the baselines; methods[].skill_gamma is the horizon of the skills")
+	if err != nil {
+		return err
+	}
 	if err := rep.WriteJSON(filepath.Join(o.out, "results.json")); err != nil {
 		return err
 	}
@@ -348,7 +341,7 @@ func run(args []string, stdout, stderr io.Writer) error {
 	}
 	files := []string{"results.json", "results.csv"}
 	if !o.noPlots {
-		figs, err := drawFigures(o.out, g, e, res, kept)
+		figs, err := drawFigures(o.out, g, rep.Config, res, kept)
 		if err != nil {
 			return err
 		}
@@ -358,27 +351,36 @@ func run(args []string, stdout, stderr io.Writer) error {
 	return nil
 }
 
-// defaultPretrain is the pretraining configuration of the demo.
-func defaultPretrain(o *options) transfer.PretrainConfig {
-	c := transfer.PretrainConfig{
-		Dim:          64,   // phi on S^63
-		Skills:       128,  // skill set of the tabulated universal SFs
-		Kappa:        10,   // discriminator concentration
-		Gamma:        0.99, // skill horizon: long enough to cross the floor
-		Steps:        o.steps,
-		EpisodeSteps: 50,
+// methodConfigs returns the pretraining configuration of every method of
+// the demo.
+func methodConfigs(o *options) []transfer.PretrainConfig {
+	var out []transfer.PretrainConfig
+	for _, m := range o.methods {
+		c := transfer.PretrainConfig{
+			Method:       m,
+			Skills:       128,  // skill set of the tabulated universal SFs
+			Kappa:        10,   // discriminator concentration
+			SkillGamma:   0.99, // skill horizon: long enough to cross the floor
+			Steps:        o.steps,
+			EpisodeSteps: 50,
+			DiscRate:     o.discRate, // 0: transfer's default
+			DiscOptim:    o.discOptim,
+		}
+		switch m {
+		case transfer.VMF, transfer.Random:
+			c.Dim = 64 // phi on S^63
+			if o.dim > 0 {
+				c.Dim = o.dim
+			}
+		case transfer.Categorical:
+			c.Skills = 64 // one-hot skills; the features have 65 entries
+		}
+		if o.skills > 0 {
+			c.Skills = o.skills
+		}
+		out = append(out, c)
 	}
-	if o.discRate > 0 {
-		c.DiscRate = o.discRate
-	}
-	c.DiscOptim = o.discOptim
-	if o.dim > 0 {
-		c.Dim = o.dim
-	}
-	if o.skills > 0 {
-		c.Skills = o.skills
-	}
-	return c
+	return out
 }
 
 // progress returns a progress callback drawing a bar on stderr when it is a
@@ -409,7 +411,7 @@ func progress(stderr io.Writer, total int) (func(done, total int), func()) {
 }
 
 // printResumed says which runs continued from the checkpoint folder.
-func printResumed(w io.Writer, dir string, runs []transfer.ResumedRun) {
+func printResumed(w io.Writer, dir string, runs []experiment.ResumedRun) {
 	if len(runs) == 0 {
 		return
 	}
@@ -431,7 +433,7 @@ func printResumed(w io.Writer, dir string, runs []transfer.ResumedRun) {
 
 // printTable prints method x job -> normalised return at the largest
 // budget, plus pretraining time and inference fit.
-func printTable(w io.Writer, e *transfer.Experiment, res *transfer.Results, elapsed time.Duration) {
+func printTable(w io.Writer, e *experiment.Experiment, res *experiment.Results, elapsed time.Duration) {
 	b := e.Budgets[len(e.Budgets)-1]
 	fmt.Fprintf(w, "Normalised return after %d labelled steps (0 = uniform random policy, 1 = optimal; mean +- s.e. over %d seeds)\n\n", b, len(e.Seeds))
 	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', tabwriter.AlignRight)

@@ -118,3 +118,36 @@ func TestCheckpointsRestart(t *testing.T) {
 		}
 	}
 }
+
+// TestMethodConfigs checks the meaning of -dim and -skills: -dim is the
+// feature dimension of vmf and random only, -skills the number of skills
+// of every method, and the defaults are those of the published table
+// (d = 64; K = 128, or 64 for categorical).
+func TestMethodConfigs(t *testing.T) {
+	type dk struct{ dim, skills int }
+	for _, tc := range []struct {
+		args []string
+		want map[string]dk
+	}{
+		{nil, map[string]dk{"vmf": {64, 128}, "categorical": {0, 64}, "random": {64, 128}, "given": {0, 128}}},
+		{[]string{"-dim", "16"}, map[string]dk{"vmf": {16, 128}, "categorical": {0, 64}, "random": {16, 128}, "given": {0, 128}}},
+		{[]string{"-skills", "10"}, map[string]dk{"vmf": {64, 10}, "categorical": {0, 10}, "random": {64, 10}, "given": {0, 10}}},
+	} {
+		o, err := parseFlags(tc.args, io.Discard)
+		if err != nil {
+			t.Fatal(err)
+		}
+		got := map[string]dk{}
+		for _, c := range methodConfigs(o) {
+			got[c.Method.String()] = dk{c.Dim, c.Skills}
+		}
+		if !reflect.DeepEqual(got, tc.want) {
+			t.Errorf("%q: %v, want %v", tc.args, got, tc.want)
+		}
+	}
+	for _, bad := range [][]string{{"-dim", "1"}, {"-skills", "-2"}, {"-explore", "nowhere"}} {
+		if _, err := parseFlags(bad, io.Discard); !errors.Is(err, errUsage) {
+			t.Errorf("%q: %v, want a usage error", bad, err)
+		}
+	}
+}

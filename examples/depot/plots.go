@@ -18,13 +18,14 @@ import (
 	"gonum.org/v1/plot/vg/draw"
 	"gonum.org/v1/plot/vg/vgimg"
 
+	"github.com/successor-go/successor/experiment"
 	"github.com/successor-go/successor/linalg"
 	"github.com/successor-go/successor/mdp"
 	"github.com/successor-go/successor/transfer"
 )
 
 // drawFigures writes the PNG figures and returns their file names.
-func drawFigures(dir string, g *mdp.Grid, e *transfer.Experiment, res *transfer.Results, kept map[transfer.Method]*transfer.Agent) ([]string, error) {
+func drawFigures(dir string, g *mdp.Grid, e *experiment.Experiment, res *experiment.Results, kept map[transfer.Method]*transfer.Agent) ([]string, error) {
 	var files []string
 	if err := drawReturns(filepath.Join(dir, "returns.png"), e, res); err != nil {
 		return nil, err
@@ -34,7 +35,8 @@ func drawFigures(dir string, g *mdp.Grid, e *transfer.Experiment, res *transfer.
 		return nil, err
 	}
 	files = append(files, "successor.png")
-	for _, m := range e.Methods {
+	for _, mc := range e.Methods {
+		m := mc.Method
 		ag := kept[m]
 		if ag == nil {
 			continue
@@ -58,7 +60,7 @@ var lineColors = []color.Color{
 
 // drawReturns plots the normalised return, averaged over jobs, against the
 // labelled budget for every variant, with standard-error bars over seeds.
-func drawReturns(path string, e *transfer.Experiment, res *transfer.Results) error {
+func drawReturns(path string, e *experiment.Experiment, res *experiment.Results) error {
 	p := plot.New()
 	p.Title.Text = "Depot jobs: normalised return vs labelled steps"
 	p.X.Label.Text = "labelled transitions (log scale)"
@@ -235,10 +237,10 @@ func occupancy(m *mdp.Finite, pi mdp.Policy, gamma float64, start int) ([]float6
 // drawSuccessor draws the successor representation of the start cell: under
 // the uniform random policy (exact), and under the vMF (or first) agent's
 // policy for the first job.
-func drawSuccessor(path string, g *mdp.Grid, e *transfer.Experiment, kept map[transfer.Method]*transfer.Agent) error {
+func drawSuccessor(path string, g *mdp.Grid, e *experiment.Experiment, kept map[transfer.Method]*transfer.Agent) error {
 	start := slices.IndexFunc(g.MDP.Start(), func(p float64) bool { return p > 0 })
 	r, c := g.Cell(start)
-	gamma := e.Gamma
+	gamma := e.TaskGamma
 	sr, err := occupancy(g.MDP, mdp.Uniform{N: g.MDP.NumActions()}, gamma, start)
 	if err != nil {
 		return err
@@ -249,9 +251,9 @@ func drawSuccessor(path string, g *mdp.Grid, e *transfer.Experiment, kept map[tr
 	}
 	row := []*plot.Plot{p1}
 	var ag *transfer.Agent
-	for _, m := range e.Methods {
-		if kept[m] != nil {
-			ag = kept[m]
+	for _, mc := range e.Methods {
+		if kept[mc.Method] != nil {
+			ag = kept[mc.Method]
 			break
 		}
 	}
@@ -268,7 +270,7 @@ func drawSuccessor(path string, g *mdp.Grid, e *transfer.Experiment, kept map[tr
 		}
 		env := mdp.NewSampler(g.MDP, 100)
 		budget := e.Budgets[len(e.Budgets)-1]
-		lab, err := transfer.Collect(env, ag, reward, budget, e.Adapt, transfer.DeriveSeed(e.Seeds[0], 1000))
+		lab, err := transfer.Collect(env, ag, reward, budget, e.Adapt, experiment.DeriveSeed(e.Seeds[0], 1000))
 		if err != nil {
 			return err
 		}
@@ -297,7 +299,7 @@ func drawSkills(path string, g *mdp.Grid, ag *transfer.Agent, seed uint64) error
 	rng := rand.New(rand.NewPCG(seed, 99))
 	ks := rng.Perm(ag.NumSkills())
 	plots := make([][]*plot.Plot, rows)
-	gamma := ag.Config().Gamma
+	gamma := ag.Config().SkillGamma
 	for i := range rows * cols {
 		if i%cols == 0 {
 			plots[i/cols] = make([]*plot.Plot, cols)

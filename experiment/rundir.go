@@ -1,4 +1,4 @@
-package transfer
+package experiment
 
 import (
 	"bytes"
@@ -15,6 +15,7 @@ import (
 
 	"github.com/successor-go/successor/internal/fileio"
 	"github.com/successor-go/successor/mdp"
+	"github.com/successor-go/successor/transfer"
 )
 
 // methodRun is what one pretraining unit of an experiment produced.
@@ -25,30 +26,28 @@ type methodRun struct {
 	resumed *ResumedRun
 }
 
-// runConfig returns the pretraining configuration of run (m, seed), with
-// and without defaults.
-func (e *Experiment) runConfig(m Method, seed uint64) (cfg, c PretrainConfig) {
-	cfg = e.Pretrain
-	cfg.Method = m
-	cfg.Features = e.Places
-	cfg.Seed = DeriveSeed(seed, uint64(m))
-	cfg.Progress = nil
-	c, _ = cfg.withDefaults()
-	return cfg, c
+// runConfig returns the pretraining configuration of run (m, seed): the
+// method's resolved configuration with the run's seed. e is resolved.
+func (e *Experiment) runConfig(m transfer.PretrainConfig, seed uint64) transfer.PretrainConfig {
+	m.Seed = DeriveSeed(seed, uint64(m.Method))
+	m.Progress = nil
+	return m
 }
 
 // RunFiles returns the checkpoint and record file names of the pretraining
 // run (m, seed) in Experiment.CheckpointDir (see there).
-func RunFiles(m Method, seed uint64) (checkpoint, record string) {
+func RunFiles(m transfer.Method, seed uint64) (checkpoint, record string) {
 	stem := fmt.Sprintf("%s-seed%d", m, seed)
 	return stem + ".ckpt", stem + ".run"
 }
 
-// runMethod pretrains method m on seed (or continues it from the
-// checkpoint folder) and adapts the agent to every job.
-func (e *Experiment) runMethod(ctx context.Context, m Method, seed uint64, rewards []mdp.Reward, refs []*Reference, addSteps func(int)) (methodRun, error) {
-	cfg, c := e.runConfig(m, seed)
-	cfg.stop = ctx.Err
+// runMethod pretrains the method of configuration mc on seed (or
+// continues it from the checkpoint folder) and adapts the agent to every
+// job. e is resolved.
+func (e *Experiment) runMethod(ctx context.Context, mc transfer.PretrainConfig, seed uint64, rewards []mdp.Reward, refs []*transfer.Reference, addSteps func(int)) (methodRun, error) {
+	c := e.runConfig(mc, seed)
+	m := c.Method
+	cfg := c
 	explore := e.Explore
 	if explore == nil {
 		explore = e.Task
@@ -56,7 +55,7 @@ func (e *Experiment) runMethod(ctx context.Context, m Method, seed uint64, rewar
 	env := mdp.NewSampler(explore, c.EpisodeSteps)
 	var out methodRun
 	lastMI, last := 0.0, 0
-	progress := func(p Progress) {
+	progress := func(p transfer.Progress) {
 		if p.HasMI {
 			lastMI = p.MI
 		}
@@ -66,7 +65,7 @@ func (e *Experiment) runMethod(ctx context.Context, m Method, seed uint64, rewar
 	cfg.Progress = progress
 
 	if e.CheckpointDir == "" {
-		ag, err := Pretrain(env, cfg)
+		ag, err := transfer.PretrainContext(ctx, env, cfg)
 		if err != nil {
 			return out, fmt.Errorf("pretrain %s: %w", m, err)
 		}
@@ -82,9 +81,9 @@ func (e *Experiment) runMethod(ctx context.Context, m Method, seed uint64, rewar
 		return out, err
 	}
 	if rec != nil && (rec.Key != key || rec.Method != m || rec.Seed != seed) {
-		return out, fmt.Errorf("transfer: run record %s belongs to another configuration (use another checkpoint folder): %w", recPath, ErrCheckpoint)
+		return out, fmt.Errorf("experiment: run record %s belongs to another configuration (use another checkpoint folder): %w", recPath, ErrCheckpoint)
 	}
-	ag, err := Load(ckPath)
+	ag, err := transfer.Load(ckPath)
 	switch {
 	case errors.Is(err, fs.ErrNotExist):
 		ag = nil
@@ -99,8 +98,8 @@ func (e *Experiment) runMethod(ctx context.Context, m Method, seed uint64, rewar
 	if rec != nil && rec.Records != nil {
 		// Finished and adapted: the rows stand.
 		if e.Keep != nil {
-			if ag == nil || ag.steps < c.Steps {
-				return out, fmt.Errorf("transfer: run record %s is complete but checkpoint %s is missing or unfinished: %w", recPath, ckPath, ErrCheckpoint)
+			if ag == nil || ag.Steps() < c.Steps {
+				return out, fmt.Errorf("experiment: run record %s is complete but checkpoint %s is missing or unfinished: %w", recPath, ckPath, ErrCheckpoint)
 			}
 			e.Keep(m, seed, ag)
 		}
@@ -113,7 +112,7 @@ func (e *Experiment) runMethod(ctx context.Context, m Method, seed uint64, rewar
 	// progress report, before its final checkpoint, so a finished
 	// checkpoint always has one.
 	var recErr error
-	cfg.Progress = func(p Progress) {
+	cfg.Progress = func(p transfer.Progress) {
 		progress(p)
 		if p.Steps >= c.Steps && recErr == nil {
 			recErr = saveRunRecord(recPath, &runRecord{Key: key, Method: m, Seed: seed, Steps: p.Steps, FinalMI: lastMI})
@@ -126,17 +125,18 @@ func (e *Experiment) runMethod(ctx context.Context, m Method, seed uint64, rewar
 	var resumed *ResumedRun
 	switch {
 	case ag == nil:
-		ag, err = Pretrain(env, cfg)
-	case ag.steps >= c.Steps:
+		ag, err = transfer.PretrainContext(ctx, env, cfg)
+	case ag.Steps() >= c.Steps:
 		if rec == nil {
-			return out, fmt.Errorf("transfer: checkpoint %s is finished but its run record %s is missing: %w", ckPath, recPath, ErrCheckpoint)
+			return out, fmt.Errorf("experiment: checkpoint %s is finished but its run record %s is missing: %w", ckPath, recPath, ErrCheckpoint)
 		}
-		resumed = &ResumedRun{Method: m, Seed: seed, Steps: ag.steps, Pretrained: true}
+		resumed = &ResumedRun{Method: m, Seed: seed, Steps: ag.Steps(), Pretrained: true}
 		lastMI = rec.FinalMI
-		addSteps(ag.steps)
+		addSteps(ag.Steps())
 	default:
-		resumed = &ResumedRun{Method: m, Seed: seed, Steps: ag.steps}
-		err = ag.resume(env, ckPath, cfg)
+		resumed = &ResumedRun{Method: m, Seed: seed, Steps: ag.Steps()}
+		err = ag.Continue(ctx, env, transfer.ResumeConfig{Steps: c.Steps, CheckpointEvery: cfg.CheckpointEvery,
+			CheckpointPath: ckPath, ProgressEvery: c.ProgressEvery, Progress: cfg.Progress})
 	}
 	if err == nil {
 		err = recErr
@@ -156,7 +156,7 @@ func (e *Experiment) runMethod(ctx context.Context, m Method, seed uint64, rewar
 }
 
 // adaptRun hands the pretrained agent to Keep and scores it on every job.
-func (e *Experiment) adaptRun(ag *Agent, m Method, seed uint64, mi float64, rewards []mdp.Reward, refs []*Reference) (methodRun, error) {
+func (e *Experiment) adaptRun(ag *transfer.Agent, m transfer.Method, seed uint64, mi float64, rewards []mdp.Reward, refs []*transfer.Reference) (methodRun, error) {
 	if e.Keep != nil {
 		e.Keep(m, seed, ag)
 	}
@@ -166,47 +166,36 @@ func (e *Experiment) adaptRun(ag *Agent, m Method, seed uint64, mi float64, rewa
 
 // checkRun returns an error wrapping ErrCheckpoint, naming the first
 // difference, if the agent loaded from path was not trained with the
-// configuration c (defaults applied) on the experiment's MDP sizes and
-// place features.
-func checkRun(ag *Agent, c PretrainConfig, e *Experiment, path string) error {
-	g := ag.cfg
+// configuration c (resolved, with the run's seed) on the experiment's MDP
+// sizes and place features. The configurations are compared in their
+// recorded (JSON) form, field by field.
+func checkRun(ag *transfer.Agent, c transfer.PretrainConfig, e *Experiment, path string) error {
 	diff := func(what string, got, want any) error {
-		return fmt.Errorf("transfer: checkpoint %s belongs to another configuration: %s %v, this run %v (use another checkpoint folder): %w", path, what, got, want, ErrCheckpoint)
+		return fmt.Errorf("experiment: checkpoint %s belongs to another configuration: %s %v, this run %v (use another checkpoint folder): %w", path, what, got, want, ErrCheckpoint)
 	}
-	for _, f := range []struct {
-		name      string
-		got, want any
-	}{
-		{"method", g.Method, c.Method},
-		{"states", ag.n, e.Task.NumStates()},
-		{"actions", ag.a, e.Task.NumActions()},
-		{"dim", g.Dim, c.Dim},
-		{"kappa", g.Kappa, c.Kappa},
-		{"relabel", g.Relabel, c.Relabel},
-		{"steps", g.Steps, c.Steps},
-		{"episode steps", g.EpisodeSteps, c.EpisodeSteps},
-		{"gamma", g.Gamma, c.Gamma},
-		{"epsilon", g.Epsilon, c.Epsilon},
-		{"batch", g.Batch, c.Batch},
-		{"replay", g.Replay, c.Replay},
-		{"learn rate", g.LearnRate, c.LearnRate},
-		{"disc rate", g.DiscRate, c.DiscRate},
-		{"disc optimiser", g.DiscOptim, c.DiscOptim},
-		{"seed", g.Seed, c.Seed},
-		{"progress every", g.ProgressEvery, c.ProgressEvery},
-	} {
-		if f.got != f.want {
-			return diff(f.name, f.got, f.want)
+	if ag.NumStates() != e.Task.NumStates() {
+		return diff("states", ag.NumStates(), e.Task.NumStates())
+	}
+	if ag.NumActions() != e.Task.NumActions() {
+		return diff("actions", ag.NumActions(), e.Task.NumActions())
+	}
+	got, want := configFields(ag.Config()), configFields(c)
+	for i, f := range want {
+		if i >= len(got) || got[i].key != f.key || string(got[i].val) != string(f.val) {
+			g := ""
+			if i < len(got) {
+				g = string(got[i].val)
+			}
+			return diff(f.key, g, string(f.val))
 		}
 	}
-	if c.Method != Categorical && ag.k != c.Skills {
-		return diff("skills", ag.k, c.Skills)
-	}
-	if c.Method == Given {
+	if c.Method == transfer.Given {
 		row := make([]float64, c.Dim)
-		for s := range ag.n {
+		have := make([]float64, c.Dim)
+		for s := range ag.NumStates() {
 			e.Places.Features(row, s, 0, s)
-			for i, v := range ag.fixed.Row(s) {
+			ag.Phi(have, s)
+			for i, v := range have {
 				if v != row[i] {
 					return diff(fmt.Sprintf("place feature %d of state %d", i, s), v, row[i])
 				}
@@ -216,13 +205,42 @@ func checkRun(ag *Agent, c PretrainConfig, e *Experiment, path string) error {
 	return nil
 }
 
+// field is one key and value of a JSON object.
+type field struct {
+	key string
+	val json.RawMessage
+}
+
+// configFields returns the recorded (JSON) form of a pretraining
+// configuration, field by field in the order of the struct.
+func configFields(c transfer.PretrainConfig) []field {
+	b, err := json.Marshal(c)
+	if err != nil {
+		panic("experiment: configuration json: " + err.Error()) // a resolved configuration is finite
+	}
+	d := json.NewDecoder(bytes.NewReader(b))
+	var out []field
+	if _, err := d.Token(); err != nil { // {
+		panic("experiment: configuration json: " + err.Error())
+	}
+	for d.More() {
+		k, err := d.Token()
+		if err != nil {
+			panic("experiment: configuration json: " + err.Error())
+		}
+		var v json.RawMessage
+		if err := d.Decode(&v); err != nil {
+			panic("experiment: configuration json: " + err.Error())
+		}
+		out = append(out, field{k.(string), v})
+	}
+	return out
+}
+
 // fingerprint returns the SHA-256 (hex) of everything the figures of a
 // pretraining run with configuration c depend on, besides the MDPs'
-// transition probabilities.
-func (e *Experiment) fingerprint(c PretrainConfig, states, actions int) string {
-	c.Features, c.Progress, c.stop = nil, nil, nil
-	c.CheckpointEvery, c.CheckpointPath = 0, ""
-	ac, _ := e.Adapt.withDefaults()
+// transition probabilities. e is resolved.
+func (e *Experiment) fingerprint(c transfer.PretrainConfig, states, actions int) string {
 	places := make([]float64, 0, states*e.Places.Dim())
 	row := make([]float64, e.Places.Dim())
 	for s := range states {
@@ -230,19 +248,19 @@ func (e *Experiment) fingerprint(c PretrainConfig, states, actions int) string {
 		places = append(places, row...)
 	}
 	b, err := json.Marshal(struct {
-		Pretrain        PretrainConfig
-		Adapt           AdaptConfig
-		NoCV            bool
-		Jobs            []Job
-		Budgets         []int
-		Gamma           float64
-		States, Actions int
-		TaskStates      int
-		PlaceNames      []string
-		Places          []float64
-	}{c, ac, ac.noCV, e.Jobs, e.Budgets, e.gamma(), states, actions, e.Task.NumStates(), e.PlaceNames, places})
+		Pretrain   transfer.PretrainConfig `json:"pretrain"`
+		Adapt      transfer.AdaptConfig    `json:"adapt"`
+		Jobs       []Job                   `json:"jobs"`
+		Budgets    []int                   `json:"budgets"`
+		TaskGamma  float64                 `json:"task_gamma"`
+		States     int                     `json:"states"`
+		Actions    int                     `json:"actions"`
+		TaskStates int                     `json:"task_states"`
+		PlaceNames []string                `json:"place_names"`
+		Places     []float64               `json:"places"`
+	}{c, e.Adapt, e.Jobs, e.Budgets, e.TaskGamma, states, actions, e.Task.NumStates(), e.PlaceNames, places})
 	if err != nil {
-		panic("transfer: fingerprint: " + err.Error()) // finite configurations marshal
+		panic("experiment: fingerprint: " + err.Error()) // finite configurations marshal
 	}
 	h := sha256.Sum256(b)
 	return hex.EncodeToString(h[:])
@@ -250,12 +268,12 @@ func (e *Experiment) fingerprint(c PretrainConfig, states, actions int) string {
 
 // runRecord is the body of a .run file.
 type runRecord struct {
-	Key     string   `json:"key"`
-	Method  Method   `json:"method"`
-	Seed    uint64   `json:"seed"`
-	Steps   int      `json:"steps"`
-	FinalMI float64  `json:"final_mi"`
-	Records []Record `json:"records"`
+	Key     string          `json:"key"`
+	Method  transfer.Method `json:"method"`
+	Seed    uint64          `json:"seed"`
+	Steps   int             `json:"steps"`
+	FinalMI float64         `json:"final_mi"`
+	Records []Record        `json:"records"`
 }
 
 // runEnvelope frames a runRecord with a format name, a version and the
@@ -267,8 +285,10 @@ type runEnvelope struct {
 	Body    json.RawMessage `json:"body"`
 }
 
+var crcTable = crc32.MakeTable(crc32.Castagnoli)
+
 const (
-	runFormat  = "successor transfer run record"
+	runFormat  = "successor experiment run record"
 	runVersion = 1
 )
 
@@ -290,7 +310,7 @@ func saveRunRecord(path string, r *runRecord) error {
 		err = fileio.WriteAtomic(path, b, 0o600)
 	}
 	if err != nil {
-		return fmt.Errorf("transfer: run record %s: %w", path, err)
+		return fmt.Errorf("experiment: run record %s: %w", path, err)
 	}
 	return nil
 }
@@ -329,11 +349,11 @@ func loadRunRecord(path string) (*runRecord, error) {
 		return nil, nil
 	}
 	if err != nil {
-		return nil, fmt.Errorf("transfer: run record: %w", err)
+		return nil, fmt.Errorf("experiment: run record: %w", err)
 	}
 	r, err := unmarshalRunRecord(data)
 	if err != nil {
-		return nil, fmt.Errorf("transfer: %s: %w", path, err)
+		return nil, fmt.Errorf("experiment: %s: %w", path, err)
 	}
 	return r, nil
 }

@@ -1,16 +1,18 @@
-package transfer
+package experiment
 
 import (
 	"errors"
 	"reflect"
 	"testing"
+
+	"github.com/successor-go/successor/transfer"
 )
 
 // FuzzRunRecord checks that the run-record loader rejects anything but a
 // well-framed record with an error wrapping ErrCheckpoint, and that what it
 // accepts round-trips.
 func FuzzRunRecord(f *testing.F) {
-	good, err := marshalRunRecord(&runRecord{Key: "ab12", Method: Categorical, Seed: 7, Steps: 1200, FinalMI: 1.25,
+	good, err := marshalRunRecord(&runRecord{Key: "ab12", Method: transfer.Categorical, Seed: 7, Steps: 1200, FinalMI: 1.25,
 		Records: []Record{{Variant: "categorical:usf+gpi", Job: "apple", Budget: 20, Seed: 7, Normalised: -0.125, Value: 3.5, RSquared: 0.75, Rewarded: 4, Lambda: 1e-3}}})
 	if err != nil {
 		f.Fatal(err)

@@ -1,4 +1,4 @@
-package transfer_test
+package experiment_test
 
 import (
 	"context"
@@ -13,12 +13,13 @@ import (
 	"sync"
 	"testing"
 
+	"github.com/successor-go/successor/experiment"
 	"github.com/successor-go/successor/transfer"
 )
 
 // sameFigures fails t unless a and b hold the same figures, bit for bit
 // (the pretraining timings aside, which depend on the machine).
-func sameFigures(t *testing.T, what string, a, b *transfer.Results) {
+func sameFigures(t *testing.T, what string, a, b *experiment.Results) {
 	t.Helper()
 	if !reflect.DeepEqual(a.Records, b.Records) {
 		t.Errorf("%s: records differ", what)
@@ -84,9 +85,11 @@ func stripRecords(t *testing.T, path string) {
 // once more from a run that finished pretraining but not adaptation.
 func TestExperimentCheckpointResume(t *testing.T) {
 	const steps = 3000
-	tiny := func(workers int) *transfer.Experiment {
+	tiny := func(workers int) *experiment.Experiment {
 		e := tinyExperiment(t, workers)
-		e.Pretrain.Steps = steps
+		for i := range e.Methods {
+			e.Methods[i].Steps = steps
+		}
 		return e
 	}
 	ref, err := tiny(2).Run()
@@ -110,7 +113,7 @@ func TestExperimentCheckpointResume(t *testing.T) {
 	if !errors.Is(stopErr, context.Canceled) {
 		t.Fatalf("interrupted run: got %v, want context.Canceled", stopErr)
 	}
-	ck, rec := transfer.RunFiles(transfer.VMF, 2)
+	ck, rec := experiment.RunFiles(transfer.VMF, 2)
 	if ck != "vmf-seed2.ckpt" || rec != "vmf-seed2.run" {
 		t.Errorf("file names %q, %q", ck, rec)
 	}
@@ -126,7 +129,7 @@ func TestExperimentCheckpointResume(t *testing.T) {
 	if want := fmt.Sprintf("stopped at step %d:", partial); !strings.Contains(stopErr.Error(), want) {
 		t.Errorf("error %q does not say %q", stopErr, want)
 	}
-	if ck, _ := transfer.RunFiles(transfer.Given, 2); fileExists(filepath.Join(dir, ck)) {
+	if ck, _ := experiment.RunFiles(transfer.Given, 2); fileExists(filepath.Join(dir, ck)) {
 		t.Errorf("%s written before its run started", ck)
 	}
 
@@ -146,7 +149,7 @@ func TestExperimentCheckpointResume(t *testing.T) {
 		t.Fatal(err)
 	}
 	sameFigures(t, "restarted", ref, got)
-	want := []transfer.ResumedRun{
+	want := []experiment.ResumedRun{
 		{Method: transfer.VMF, Seed: 1, Steps: got.Pretrain[0].Steps, Pretrained: true, Adapted: true},
 		{Method: transfer.Given, Seed: 1, Steps: got.Pretrain[1].Steps, Pretrained: true, Adapted: true},
 		{Method: transfer.VMF, Seed: 2, Steps: partial},
@@ -159,7 +162,7 @@ func TestExperimentCheckpointResume(t *testing.T) {
 	}
 
 	// A run whose pretraining finished but whose adaptation did not.
-	_, rec = transfer.RunFiles(transfer.VMF, 2)
+	_, rec = experiment.RunFiles(transfer.VMF, 2)
 	stripRecords(t, filepath.Join(dir, rec))
 	e3 := tiny(2)
 	e3.CheckpointDir = dir
@@ -195,16 +198,16 @@ func fileExists(path string) bool {
 // record in the folder, and files of another configuration, are errors
 // naming the file, never silently used.
 func TestExperimentCheckpointErrors(t *testing.T) {
-	small := func(dir string) *transfer.Experiment {
+	small := func(dir string) *experiment.Experiment {
 		e := tinyExperiment(t, 1)
-		e.Methods = []transfer.Method{transfer.Given}
+		e.Methods = e.Methods[1:]
+		e.Methods[0].Steps = 400
 		e.Seeds = []uint64{3}
 		e.Baselines = false
-		e.Pretrain.Steps = 400
 		e.CheckpointDir = dir
 		return e
 	}
-	ckName, recName := transfer.RunFiles(transfer.Given, 3)
+	ckName, recName := experiment.RunFiles(transfer.Given, 3)
 	setup := func(t *testing.T) (dir, ck, rec string) {
 		dir = t.TempDir()
 		if _, err := small(dir).Run(); err != nil {
@@ -224,7 +227,7 @@ func TestExperimentCheckpointErrors(t *testing.T) {
 	}
 	check := func(t *testing.T, err error, file string, words ...string) {
 		t.Helper()
-		if !errors.Is(err, transfer.ErrCheckpoint) {
+		if !errors.Is(err, experiment.ErrCheckpoint) {
 			t.Fatalf("got %v, want an error wrapping ErrCheckpoint", err)
 		}
 		for _, w := range append(words, file) {
@@ -253,7 +256,7 @@ func TestExperimentCheckpointErrors(t *testing.T) {
 			t.Fatal(err)
 		}
 		e := small(dir)
-		e.Pretrain.Steps = 500
+		e.Methods[0].Steps = 500
 		_, err := e.Run()
 		check(t, err, ck, "steps 400, this run 500")
 	})

@@ -1,4 +1,4 @@
-package transfer
+package experiment
 
 import (
 	"fmt"
@@ -7,44 +7,71 @@ import (
 
 	"github.com/successor-go/successor/mdp"
 	"github.com/successor-go/successor/sf"
+	"github.com/successor-go/successor/transfer"
 )
 
 // BaselineConfig configures the learners that start from scratch on the
 // task, with the same labelled budget as the pretrained agents. The zero
-// value means the documented defaults.
+// value means the documented defaults; Resolve fills them in. The
+// discount is the task's (Experiment.TaskGamma), an argument of the
+// learners.
 type BaselineConfig struct {
-	// Alpha is the step size. 0 means 0.5 (a deterministic floor).
-	Alpha float64
+	// Alpha is the step size, in (0, 1]. 0 means 0.5 (a deterministic
+	// floor).
+	Alpha float64 `json:"alpha"`
 	// Epsilon is the random-action rate of the epsilon-greedy behaviour.
-	// 0 means 0.1.
-	Epsilon float64
+	// 0 means 0.1; a negative value means none, which Resolve records as
+	// -1.
+	Epsilon float64 `json:"epsilon"`
 	// EpisodeSteps is the time limit of an episode. 0 means 1000 (as
-	// AdaptConfig.EpisodeSteps).
-	EpisodeSteps int
-	// Gamma is the discount. 0 means 0.95.
-	Gamma float64
+	// transfer.AdaptConfig.EpisodeSteps).
+	EpisodeSteps int `json:"episode_steps"`
 }
 
-func (cfg BaselineConfig) withDefaults() (BaselineConfig, error) {
+// Resolve returns cfg with every default filled in, or an error wrapping
+// ErrConfig for an invalid value. Resolving a resolved configuration
+// returns it unchanged.
+func (cfg BaselineConfig) Resolve() (BaselineConfig, error) {
 	c := cfg
-	setF(&c.Alpha, 0.5)
-	setF(&c.Epsilon, 0.1)
-	setI(&c.EpisodeSteps, 1000)
-	setF(&c.Gamma, 0.95)
-	if !(c.Alpha > 0 && c.Alpha <= 1) || !(c.Epsilon >= 0 && c.Epsilon <= 1) || c.EpisodeSteps < 1 || !(c.Gamma > 0 && c.Gamma < 1) {
-		return c, fmt.Errorf("transfer: baseline: invalid settings %+v: %w", c, ErrConfig)
+	if c.Alpha == 0 {
+		c.Alpha = 0.5
+	}
+	if c.Epsilon == 0 {
+		c.Epsilon = 0.1
+	}
+	if c.Epsilon < 0 {
+		c.Epsilon = -1
+	}
+	if c.EpisodeSteps == 0 {
+		c.EpisodeSteps = 1000
+	}
+	if !(c.Alpha > 0 && c.Alpha <= 1) || !(c.Epsilon == -1 || c.Epsilon >= 0 && c.Epsilon <= 1) || c.EpisodeSteps < 1 {
+		return c, fmt.Errorf("experiment: baseline: invalid settings %+v: %w", c, ErrConfig)
 	}
 	return c, nil
 }
 
+// checkGamma returns an error wrapping ErrConfig unless gamma is in
+// [0, 1).
+func checkGamma(gamma float64) error {
+	if !(gamma >= 0 && gamma < 1) {
+		return fmt.Errorf("experiment: baseline: discount %v outside [0, 1): %w", gamma, ErrConfig)
+	}
+	return nil
+}
+
 // QLearning runs tabular Q-learning from scratch (Watkins 1989; Sutton &
-// Barto 2nd ed., section 6.5) on env with reward r for the largest of the
-// budgets in labelled transitions, acting epsilon-greedily on its own Q
-// (ties at random, Q starts at 0), and returns the greedy policy after each
-// budget (ascending). seed determines the run.
-func QLearning(env Env, r mdp.Reward, budgets []int, cfg BaselineConfig, seed uint64) ([]mdp.Deterministic, error) {
-	c, err := cfg.withDefaults()
+// Barto 2nd ed., section 6.5) on env with reward r and discount gamma for
+// the largest of the budgets in labelled transitions, acting
+// epsilon-greedily on its own Q (ties at random, Q starts at 0), and
+// returns the greedy policy after each budget (ascending). seed determines
+// the run.
+func QLearning(env transfer.Env, r mdp.Reward, gamma float64, budgets []int, cfg BaselineConfig, seed uint64) ([]mdp.Deterministic, error) {
+	c, err := cfg.Resolve()
 	if err != nil {
+		return nil, err
+	}
+	if err := checkGamma(gamma); err != nil {
 		return nil, err
 	}
 	n, na := env.NumStates(), env.NumActions()
@@ -56,11 +83,11 @@ func QLearning(env Env, r mdp.Reward, budgets []int, cfg BaselineConfig, seed ui
 	}, func(s, a, next int, term bool) error {
 		target := r(s, a, next)
 		if !term {
-			target += c.Gamma * maxOf(q[next*na:(next+1)*na])
+			target += gamma * maxOf(q[next*na:(next+1)*na])
 		}
 		q[s*na+a] += c.Alpha * (target - q[s*na+a])
 		if math.IsNaN(q[s*na+a]) || math.IsInf(q[s*na+a], 0) {
-			return fmt.Errorf("transfer: q-learning: %w", ErrDiverged)
+			return fmt.Errorf("experiment: q-learning: %w", ErrDiverged)
 		}
 		return nil
 	}, func() {
@@ -81,26 +108,29 @@ func QLearning(env Env, r mdp.Reward, budgets []int, cfg BaselineConfig, seed ui
 // epsilon-greedily on psi(s, a) . w (an sf.Table), and psi learns by
 // sf.TD with the Greedy target for the current w (phi + gamma psi(s', a*),
 // a* greedy in psi(s', .) . w, ties to the lowest action) and the constant
-// step cfg.Alpha. It returns the greedy policy after each budget
-// (ascending).
-func SFQLearning(env Env, phi sf.FeatureMap, r mdp.Reward, budgets []int, cfg BaselineConfig, seed uint64) ([]mdp.Deterministic, error) {
-	c, err := cfg.withDefaults()
+// step cfg.Alpha, discount gamma. It returns the greedy policy after each
+// budget (ascending).
+func SFQLearning(env transfer.Env, phi sf.FeatureMap, r mdp.Reward, gamma float64, budgets []int, cfg BaselineConfig, seed uint64) ([]mdp.Deterministic, error) {
+	c, err := cfg.Resolve()
 	if err != nil {
+		return nil, err
+	}
+	if err := checkGamma(gamma); err != nil {
 		return nil, err
 	}
 	n, na, d := env.NumStates(), env.NumActions(), phi.Dim()
 	tab, err := sf.NewTable(n, na, d)
 	if err != nil {
-		return nil, fmt.Errorf("transfer: sf q-learning: %w", err)
+		return nil, fmt.Errorf("experiment: sf q-learning: %w", err)
 	}
 	w := make([]float64, d)
-	td, err := sf.NewTD(tab, phi, c.Gamma, &sf.TDSettings{Target: sf.Greedy, Task: w, Step: sf.StepSize{Alpha: c.Alpha}})
+	td, err := sf.NewTD(tab, phi, gamma, &sf.TDSettings{Target: sf.Greedy, Task: w, Step: sf.StepSize{Alpha: c.Alpha}})
 	if err != nil {
-		return nil, fmt.Errorf("transfer: sf q-learning: %w", err)
+		return nil, fmt.Errorf("experiment: sf q-learning: %w", err)
 	}
 	est, err := sf.NewTaskEstimator(d, 1e-6, nil)
 	if err != nil {
-		return nil, fmt.Errorf("transfer: sf q-learning: %w", err)
+		return nil, fmt.Errorf("experiment: sf q-learning: %w", err)
 	}
 	f := make([]float64, d)
 	q := make([]float64, na)
@@ -117,16 +147,16 @@ func SFQLearning(env Env, phi sf.FeatureMap, r mdp.Reward, budgets []int, cfg Ba
 	}, func(s, a, next int, term bool) error {
 		phi.Features(f, s, a, next)
 		if err := est.Observe(f, r(s, a, next)); err != nil {
-			return fmt.Errorf("transfer: sf q-learning: %w", err)
+			return fmt.Errorf("experiment: sf q-learning: %w", err)
 		}
 		if err := est.Task(w); err != nil {
-			return fmt.Errorf("transfer: sf q-learning: %w", err)
+			return fmt.Errorf("experiment: sf q-learning: %w", err)
 		}
 		if err := td.SetTask(w); err != nil {
-			return fmt.Errorf("transfer: sf q-learning: %w", err)
+			return fmt.Errorf("experiment: sf q-learning: %w", err)
 		}
 		if err := td.Update(s, a, next, term, -1); err != nil {
-			return fmt.Errorf("transfer: sf q-learning: %w: %w", ErrDiverged, err)
+			return fmt.Errorf("experiment: sf q-learning: %w: %w", ErrDiverged, err)
 		}
 		return nil
 	}, func() {
@@ -141,12 +171,12 @@ func SFQLearning(env Env, phi sf.FeatureMap, r mdp.Reward, budgets []int, cfg Ba
 
 // runEpisodes drives an online learner for max(budgets) steps, calling snap
 // after each budget.
-func runEpisodes(env Env, budgets []int, c BaselineConfig, rng *rand.Rand,
+func runEpisodes(env transfer.Env, budgets []int, c BaselineConfig, rng *rand.Rand,
 	greedy func(s int) int, learn func(s, a, next int, term bool) error, snap func()) error {
 	total := 0
 	for i, b := range budgets {
 		if b < 0 || i > 0 && b < budgets[i-1] {
-			return fmt.Errorf("transfer: budgets must be non-negative and ascending: %w", ErrConfig)
+			return fmt.Errorf("experiment: budgets must be non-negative and ascending: %w", ErrConfig)
 		}
 		total = b
 	}
@@ -161,7 +191,7 @@ func runEpisodes(env Env, budgets []int, c BaselineConfig, rng *rand.Rand,
 		s := env.Reset(rng)
 		if startDone(env) {
 			if empty++; empty >= maxEmpty {
-				return fmt.Errorf("transfer: baseline: %d episodes in a row start at a terminal state: %w", empty, ErrConfig)
+				return fmt.Errorf("experiment: baseline: %d episodes in a row start at a terminal state: %w", empty, ErrConfig)
 			}
 			continue
 		}
@@ -189,6 +219,22 @@ func runEpisodes(env Env, budgets []int, c BaselineConfig, rng *rand.Rand,
 		}
 	}
 	return nil
+}
+
+// Stream of the baselines' generators (the stream number the transfer
+// package gave them before the split, kept so that the figures keep their
+// bits), and the number of consecutive episodes without a step (a
+// terminal start state) after which a learner gives up.
+const (
+	streamBaseline = 4
+	maxEmpty       = 1000
+)
+
+// startDone reports whether env's episode ended at Reset (a terminal start
+// state), for environments that can tell (such as *mdp.Sampler).
+func startDone(env mdp.Env) bool {
+	d, ok := env.(interface{ Done() bool })
+	return ok && d.Done()
 }
 
 // argmaxRand returns the index of the largest value, ties broken uniformly
