@@ -60,7 +60,7 @@
 // dL/dlog kappa = kappa (A_d(kappa) - mean_i phi_i . z_i) with
 // A_d = I_{d/2}/I_{d/2-1} (VMFMeanLength); for the categorical family,
 // dL/dl_i = (q_i - z_i)/n. Updates return the loss, report a non-finite
-// loss or gradient as a *DivergedError naming the update, and allocate
+// loss or gradient as a *DivergenceError naming the update, and allocate
 // nothing once the scratch buffers have been sized by the first minibatch.
 //
 // # Mutual information

@@ -166,26 +166,26 @@ type header struct {
 
 func openData(data []byte) (*header, error) {
 	if len(data) < len(fileMagic)+4+4 {
-		return nil, fmt.Errorf("%d bytes: %w", len(data), ErrFormat)
+		return nil, fmt.Errorf("%d bytes: %w", len(data), ErrCorrupt)
 	}
 	if string(data[:len(fileMagic)]) != fileMagic {
-		return nil, fmt.Errorf("magic %q: %w", data[:len(fileMagic)], ErrFormat)
+		return nil, fmt.Errorf("magic %q: %w", data[:len(fileMagic)], ErrCorrupt)
 	}
 	body := data[:len(data)-4]
 	if got, want := binary.LittleEndian.Uint32(data[len(data)-4:]), crc32.ChecksumIEEE(body); got != want {
-		return nil, fmt.Errorf("crc %08x, computed %08x: %w", got, want, ErrChecksum)
+		return nil, fmt.Errorf("crc %08x, computed %08x: %w", got, want, ErrCorrupt)
 	}
 	d := &dec{b: body[len(fileMagic):]}
 	version := d.u32()
 	if version < 1 || version > fileVersion {
-		return nil, fmt.Errorf("version %d (this code reads 1 to %d): %w", version, fileVersion, ErrVersion)
+		return nil, fmt.Errorf("version %d (this code reads 1 to %d): %w", version, fileVersion, ErrCorrupt)
 	}
 	h := &header{remaining: d}
 	h.kind = d.u8()
 	h.in, h.zdim = d.u32(), d.u32()
 	nh := d.u32()
 	if d.bad || nh > maxHiddenLayers {
-		return nil, fmt.Errorf("%d hidden layers: %w", nh, ErrFormat)
+		return nil, fmt.Errorf("%d hidden layers: %w", nh, ErrCorrupt)
 	}
 	if nh > 0 {
 		h.net.Hidden = make([]int, nh)
@@ -199,7 +199,7 @@ func openData(data []byte) (*header, error) {
 	if version == 2 {
 		h.opt.Method = OptimMethod(d.u8())
 		if !d.bad && h.opt.Method == OptimAdam {
-			return nil, fmt.Errorf("version 2 with dense adam, which is written as version 1: %w", ErrFormat)
+			return nil, fmt.Errorf("version 2 with dense adam, which is written as version 1: %w", ErrCorrupt)
 		}
 	}
 	h.steps = d.u64()
@@ -209,19 +209,19 @@ func openData(data []byte) (*header, error) {
 		h.kt, h.km, h.kv = d.u64(), d.f64(), d.f64()
 	}
 	if d.bad {
-		return nil, fmt.Errorf("truncated header: %w", ErrFormat)
+		return nil, fmt.Errorf("truncated header: %w", ErrCorrupt)
 	}
 	if h.kind != kindVMF && h.kind != kindSoftmax {
-		return nil, fmt.Errorf("kind %d: %w", h.kind, ErrFormat)
+		return nil, fmt.Errorf("kind %d: %w", h.kind, ErrCorrupt)
 	}
 	if h.steps > math.MaxInt32 || h.kt > math.MaxInt32 {
-		return nil, fmt.Errorf("step count %d: %w", max(h.steps, h.kt), ErrFormat)
+		return nil, fmt.Errorf("step count %d: %w", max(h.steps, h.kt), ErrCorrupt)
 	}
 	if err := h.net.check(); err != nil {
-		return nil, fmt.Errorf("%v: %w", err, ErrFormat)
+		return nil, fmt.Errorf("%v: %w", err, ErrCorrupt)
 	}
 	if h.in < 1 || h.in > maxWidth || h.zdim < 1 || h.zdim > maxWidth {
-		return nil, fmt.Errorf("sizes %d, %d: %w", h.in, h.zdim, ErrFormat)
+		return nil, fmt.Errorf("sizes %d, %d: %w", h.in, h.zdim, ErrCorrupt)
 	}
 	// The parameter count follows from the shape; check it against the
 	// bytes left before allocating anything of that size.
@@ -232,7 +232,7 @@ func openData(data []byte) (*header, error) {
 		prev = uint64(w)
 	}
 	if uint64(len(d.b)) != 8+8*np+8+16*np {
-		return nil, fmt.Errorf("%d bytes left for %d parameters: %w", len(d.b), np, ErrFormat)
+		return nil, fmt.Errorf("%d bytes left for %d parameters: %w", len(d.b), np, ErrCorrupt)
 	}
 	return h, nil
 }
@@ -242,14 +242,14 @@ func (h *header) readWeights(c *core) error {
 	d := h.remaining
 	p := c.enc.params()
 	if n := d.u64(); n != uint64(len(p)) {
-		return fmt.Errorf("%d parameters, shape has %d: %w", n, len(p), ErrFormat)
+		return fmt.Errorf("%d parameters, shape has %d: %w", n, len(p), ErrCorrupt)
 	}
 	d.floats(p)
 	t := d.u64()
 	d.floats(c.adam.M)
 	d.floats(c.adam.V)
 	if d.bad || len(d.b) != 0 || t > math.MaxInt32 {
-		return fmt.Errorf("weights: %w", ErrFormat)
+		return fmt.Errorf("weights: %w", ErrCorrupt)
 	}
 	c.adam.T = int(t)
 	if !allFinite(p) || !allFinite(c.adam.M) || !allFinite(c.adam.V) {
@@ -265,7 +265,7 @@ func loadRNG() *rand.Rand { return rand.New(rand.NewPCG(0, 0)) }
 
 func (h *header) vmf() (*VMF, error) {
 	if h.kind != kindVMF {
-		return nil, fmt.Errorf("kind %d is not vmf: %w", h.kind, ErrFormat)
+		return nil, fmt.Errorf("kind %d is not vmf: %w", h.kind, ErrCorrupt)
 	}
 	if !isFinite(h.maxKappa) || !isFinite(h.kappa) || !isFinite(h.km) || !isFinite(h.kv) {
 		return nil, fmt.Errorf("kappa: %w", ErrNonFinite)
@@ -273,13 +273,13 @@ func (h *header) vmf() (*VMF, error) {
 	c := VMFConfig{In: h.in, Dim: h.zdim, Net: h.net, Kappa: h.kappa, LearnKappa: h.learn, MaxKappa: h.maxKappa, Optim: h.opt}
 	if h.learn {
 		if !(h.kappa >= math.Log(minKappa) && h.kappa <= math.Log(h.maxKappa)) {
-			return nil, fmt.Errorf("log kappa %g: %w", h.kappa, ErrFormat)
+			return nil, fmt.Errorf("log kappa %g: %w", h.kappa, ErrCorrupt)
 		}
 		c.Kappa = min(max(math.Exp(h.kappa), minKappa), c.MaxKappa) // for the range check only
 	}
 	v, err := buildVMF(&c, loadRNG())
 	if err != nil {
-		return nil, fmt.Errorf("%v: %w", err, ErrFormat)
+		return nil, fmt.Errorf("%v: %w", err, ErrCorrupt)
 	}
 	if h.learn {
 		v.rho[0] = h.kappa
@@ -295,12 +295,12 @@ func (h *header) vmf() (*VMF, error) {
 
 func (h *header) softmax() (*Softmax, error) {
 	if h.kind != kindSoftmax {
-		return nil, fmt.Errorf("kind %d is not softmax: %w", h.kind, ErrFormat)
+		return nil, fmt.Errorf("kind %d is not softmax: %w", h.kind, ErrCorrupt)
 	}
 	c := SoftmaxConfig{In: h.in, K: h.zdim, Net: h.net, Optim: h.opt}
 	s, err := buildSoftmax(&c, loadRNG())
 	if err != nil {
-		return nil, fmt.Errorf("%v: %w", err, ErrFormat)
+		return nil, fmt.Errorf("%v: %w", err, ErrCorrupt)
 	}
 	if err := h.readWeights(&s.core); err != nil {
 		return nil, err
@@ -309,8 +309,8 @@ func (h *header) softmax() (*Softmax, error) {
 }
 
 // UnmarshalBinary replaces v with the VMF discriminator encoded by
-// MarshalBinary. It returns an error wrapping ErrFormat, ErrVersion,
-// ErrChecksum or ErrNonFinite if data is malformed, in which case v is
+// MarshalBinary. It returns an error wrapping ErrCorrupt, ErrCorrupt,
+// ErrCorrupt or ErrNonFinite if data is malformed, in which case v is
 // unchanged.
 func (v *VMF) UnmarshalBinary(data []byte) error {
 	h, err := openData(data)
@@ -326,8 +326,8 @@ func (v *VMF) UnmarshalBinary(data []byte) error {
 }
 
 // UnmarshalBinary replaces c with the Softmax discriminator encoded by
-// MarshalBinary. It returns an error wrapping ErrFormat, ErrVersion,
-// ErrChecksum or ErrNonFinite if data is malformed, in which case c is
+// MarshalBinary. It returns an error wrapping ErrCorrupt, ErrCorrupt,
+// ErrCorrupt or ErrNonFinite if data is malformed, in which case c is
 // unchanged.
 func (c *Softmax) UnmarshalBinary(data []byte) error {
 	h, err := openData(data)
@@ -355,8 +355,8 @@ func Marshal(d Discriminator) ([]byte, error) {
 }
 
 // Unmarshal decodes data written by Marshal (or either MarshalBinary) and
-// returns a *VMF or a *Softmax. It returns an error wrapping ErrFormat,
-// ErrVersion, ErrChecksum or ErrNonFinite if data is malformed.
+// returns a *VMF or a *Softmax. It returns an error wrapping ErrCorrupt,
+// ErrCorrupt, ErrCorrupt or ErrNonFinite if data is malformed.
 func Unmarshal(data []byte) (Discriminator, error) {
 	h, err := openData(data)
 	if err != nil {

@@ -150,14 +150,14 @@ func TestUnmarshalErrors(t *testing.T) {
 		b    []byte
 		want error
 	}{
-		{"empty", nil, ErrFormat},
-		{"magic", magic, ErrFormat},
-		{"flipped bit", flip, ErrChecksum},
-		{"truncated", good[:len(good)-9], ErrChecksum},
-		{"truncated, resealed", reseal(good[:len(good)-12]), ErrFormat},
-		{"version", reseal(version), ErrVersion},
-		{"kind", reseal(kind), ErrFormat},
-		{"trailing byte", reseal(append(append([]byte(nil), good[:len(good)-4]...), 0, 0, 0, 0, 0)), ErrFormat},
+		{"empty", nil, ErrCorrupt},
+		{"magic", magic, ErrCorrupt},
+		{"flipped bit", flip, ErrCorrupt},
+		{"truncated", good[:len(good)-9], ErrCorrupt},
+		{"truncated, resealed", reseal(good[:len(good)-12]), ErrCorrupt},
+		{"version", reseal(version), ErrCorrupt},
+		{"kind", reseal(kind), ErrCorrupt},
+		{"trailing byte", reseal(append(append([]byte(nil), good[:len(good)-4]...), 0, 0, 0, 0, 0)), ErrCorrupt},
 	} {
 		if _, err := Unmarshal(tc.b); !errors.Is(err, tc.want) {
 			t.Errorf("%s: %v, want %v", tc.name, err, tc.want)
@@ -167,7 +167,7 @@ func TestUnmarshalErrors(t *testing.T) {
 	soft, _ := Marshal(ds[4])
 	v := ds[0].(*VMF)
 	before, _ := v.MarshalBinary()
-	if err := v.UnmarshalBinary(soft); !errors.Is(err, ErrFormat) {
+	if err := v.UnmarshalBinary(soft); !errors.Is(err, ErrCorrupt) {
 		t.Errorf("vmf from softmax bytes: %v", err)
 	}
 	after, _ := v.MarshalBinary()
@@ -175,7 +175,7 @@ func TestUnmarshalErrors(t *testing.T) {
 		t.Error("failed UnmarshalBinary changed the receiver")
 	}
 	var s Softmax
-	if err := s.UnmarshalBinary(good); !errors.Is(err, ErrFormat) {
+	if err := s.UnmarshalBinary(good); !errors.Is(err, ErrCorrupt) {
 		t.Errorf("softmax from vmf bytes: %v", err)
 	}
 	if err := s.UnmarshalBinary(soft); err != nil {

@@ -254,8 +254,8 @@ func TestSparseConfigAndFormat(t *testing.T) {
 	for _, m := range []uint8{uint8(OptimAdam), 9} {
 		b := append([]byte(nil), bs...)
 		b[at] = m
-		if _, err := Unmarshal(reseal(b)); !errors.Is(err, ErrFormat) {
-			t.Errorf("version 2 with method %d: %v, want ErrFormat", m, err)
+		if _, err := Unmarshal(reseal(b)); !errors.Is(err, ErrCorrupt) {
+			t.Errorf("version 2 with method %d: %v, want ErrCorrupt", m, err)
 		}
 	}
 }
