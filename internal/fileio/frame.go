@@ -361,31 +361,59 @@ func (d *Decoder) Ints(field string, n int) []int {
 		return nil
 	}
 	v := make([]int, n)
-	for i := range v {
-		v[i] = d.Int(field)
-	}
+	d.ReadInts(field, v)
 	if d.err != nil {
 		return nil
 	}
 	return v
 }
 
+// ReadInts fills dst with Ints. It reads nothing and records an error if
+// fewer than 8 len(dst) bytes are left; a value that does not fit an int
+// is an error too.
+func (d *Decoder) ReadInts(field string, dst []int) {
+	raw := d.take(field, 8*len(dst))
+	if raw == nil {
+		return
+	}
+	for i := range dst {
+		v := int64(binary.LittleEndian.Uint64(raw[8*i:]))
+		if v < math.MinInt || v > math.MaxInt {
+			d.Fail(field, "%d does not fit an int", v)
+			return
+		}
+		dst[i] = int(v)
+	}
+}
+
 // Bools reads n Bools into a new slice, after checking that n bytes are
 // left.
 func (d *Decoder) Bools(field string, n int) []bool {
-	raw := d.take(field, n)
-	if raw == nil {
+	if d.Count(field, 1, n) != n || d.err != nil {
 		return nil
 	}
 	v := make([]bool, n)
+	d.ReadBools(field, v)
+	if d.err != nil {
+		return nil
+	}
+	return v
+}
+
+// ReadBools fills dst with Bools (bytes 0 or 1). It reads nothing and
+// records an error if fewer than len(dst) bytes are left.
+func (d *Decoder) ReadBools(field string, dst []bool) {
+	raw := d.take(field, len(dst))
+	if raw == nil {
+		return
+	}
 	for i, c := range raw {
 		if c > 1 {
 			d.Fail(field, "byte %d is not 0 or 1", c)
-			return nil
+			return
 		}
-		v[i] = c == 1
+		dst[i] = c == 1
 	}
-	return v
 }
 
 // Bytes returns the next n bytes. The slice aliases the data given to
