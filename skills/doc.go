@@ -86,9 +86,11 @@
 //
 // # Saving
 //
-// Discriminators marshal to a documented binary format (magic, version,
-// CRC-32; see marshal.go) that round-trips weights, kappa and optimiser
-// state bit-exactly. Marshal and Unmarshal embed one in a larger
+// Discriminators marshal to a documented binary format (the library's
+// framing: magic, version, payload length, CRC-32C; payload in
+// marshal.go) that round-trips weights, kappa and optimiser state
+// bit-exactly; loaders refuse anything else with an error wrapping
+// ErrCorrupt. Marshal and Unmarshal embed one in a larger
 // checkpoint; Save writes a file atomically and Load reads it back.
 //
 // Discriminators and feature maps are not safe for concurrent use; Clone
