@@ -21,6 +21,8 @@
 // their own prefix and the operation ("sf: td: ...: dimension mismatch").
 package errs
 
+//lint:file-ignore ST1012 the sentinels are read qualified (errs.Dimension); the packages re-export them as ErrDimension etc.
+
 import "errors"
 
 var (

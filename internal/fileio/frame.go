@@ -289,7 +289,8 @@ func (d *Decoder) Float64(field string) float64 { return math.Float64frombits(d.
 
 // Count returns the product of dims, checking that no factor is negative,
 // that the product does not overflow, and that product x elem bytes are
-// left in the payload. On failure it records an error and returns 0. A
+// left in the payload (elem is taken as at least 1, so the product never
+// exceeds the bytes left). On failure it records an error and returns 0. A
 // caller uses it to validate sizes read from the payload before it
 // allocates anything of their product.
 func (d *Decoder) Count(field string, elem int, dims ...int) int {
@@ -309,7 +310,7 @@ func (d *Decoder) Count(field string, elem int, dims ...int) int {
 		}
 		p = lo
 	}
-	if hi, bytes := bits.Mul64(p, uint64(max(elem, 0))); hi != 0 || bytes > uint64(len(d.b)) {
+	if hi, bytes := bits.Mul64(p, uint64(max(elem, 1))); hi != 0 || bytes > uint64(len(d.b)) {
 		if len(dims) == 1 {
 			d.Fail(field, "%d elements of %d bytes, %d bytes left", p, elem, len(d.b))
 		} else {
