@@ -8,6 +8,7 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"runtime"
 	"testing"
 
 	"github.com/successor-go/successor/internal/fileio"
@@ -48,6 +49,11 @@ func TestSaveLoad(t *testing.T) {
 	got, err := LoadTable(path)
 	if err != nil {
 		t.Fatal(err)
+	}
+	if fi, err := os.Stat(path); err != nil {
+		t.Error(err)
+	} else if runtime.GOOS != "windows" && fi.Mode().Perm() != 0o644 {
+		t.Errorf("saved file has mode %v, want 0644", fi.Mode().Perm())
 	}
 	if got.S != tb.S || got.A != tb.A || got.D != tb.D || !sameBits(got.Data, tb.Data) {
 		t.Errorf("table round trip: got %+v, want %+v", got, tb)
@@ -156,8 +162,8 @@ func TestFileLayout(t *testing.T) {
 		t.Fatal(err)
 	}
 	n := len(tb.Data)
-	if len(b) != 40+8*n+4 {
-		t.Fatalf("%d bytes, want 40 + 8*%d + 4", len(b), n)
+	if len(b) != 40+8*n+4 || cap(b) != len(b) {
+		t.Fatalf("%d bytes (capacity %d), want 40 + 8*%d + 4 allocated once", len(b), cap(b), n)
 	}
 	le := binary.LittleEndian
 	if string(b[:4]) != "SFTB" || le.Uint32(b[4:]) != 2 || le.Uint64(b[8:]) != uint64(24+8*n) {

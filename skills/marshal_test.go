@@ -8,6 +8,7 @@ import (
 	"math/rand/v2"
 	"os"
 	"path/filepath"
+	"runtime"
 	"strings"
 	"testing"
 
@@ -72,6 +73,9 @@ func TestMarshalRoundTrip(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
+		if cap(b) != len(b) {
+			t.Errorf("%T: buffer of capacity %d for %d bytes, want one allocation at full size", d, cap(b), len(b))
+		}
 		e, err := Unmarshal(b)
 		if err != nil {
 			t.Fatalf("%T: %v", d, err)
@@ -116,6 +120,11 @@ func TestSaveLoad(t *testing.T) {
 		e, err := Load(path)
 		if err != nil {
 			t.Fatal(err)
+		}
+		if fi, err := os.Stat(path); err != nil {
+			t.Error(err)
+		} else if runtime.GOOS != "windows" && fi.Mode().Perm() != 0o644 {
+			t.Errorf("saved file has mode %v, want 0644", fi.Mode().Perm())
 		}
 		b1, _ := Marshal(d)
 		b2, _ := Marshal(e)

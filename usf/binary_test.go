@@ -175,6 +175,9 @@ func TestLoadCorrupt(t *testing.T) {
 		if err := tc.fresh().UnmarshalBinary(tc.good); err != nil {
 			t.Errorf("%s: good data: %v", tc.name, err)
 		}
+		if cap(tc.good) != len(tc.good) {
+			t.Errorf("%s: buffer of capacity %d for %d bytes, want one allocation at full size", tc.name, cap(tc.good), len(tc.good))
+		}
 		for _, bad := range [][]byte{nil, tc.good[:8], tc.good[:len(tc.good)-1], flipByte(tc.good, 0), flipByte(tc.good, 13), flipByte(tc.good, len(tc.good)/2), flipByte(tc.good, len(tc.good)-2)} {
 			if err := tc.fresh().UnmarshalBinary(bad); !errors.Is(err, ErrCorrupt) {
 				t.Errorf("%s: corrupt data accepted or wrong error: %v", tc.name, err)

@@ -83,6 +83,9 @@ func TestLoadCorrupt(t *testing.T) {
 	good, _ := net.MarshalBinary()
 	opt := NewAdam(net.NumParams(), nil)
 	goodA, _ := opt.MarshalBinary()
+	if cap(good) != len(good) || cap(goodA) != len(goodA) {
+		t.Errorf("buffers of capacity %d, %d for %d, %d bytes, want one allocation at full size", cap(good), cap(goodA), len(good), len(goodA))
+	}
 	flip := func(b []byte, i int) []byte {
 		c := bytes.Clone(b)
 		c[i] ^= 1
