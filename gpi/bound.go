@@ -18,7 +18,7 @@ import (
 //	Q^pi(s, a) >= max_i Q^{pi_i}(s, a) - 2 eps / (1 - gamma)
 //
 // at every (s, a). It returns an error wrapping ErrDiscount unless
-// 0 <= gamma < 1, and ErrNonFinite or ErrSettings for a NaN, infinite or
+// 0 <= gamma < 1, and ErrNonFinite or ErrConfig for a NaN, infinite or
 // negative eps.
 func DominanceSlack(eps, gamma float64) (float64, error) {
 	if err := checkBoundArgs(eps, gamma); err != nil {
@@ -37,7 +37,7 @@ func DominanceSlack(eps, gamma float64) (float64, error) {
 // where phiMax = max ||phi(s, a, s')|| (see PhiMax) and the norms are
 // Euclidean. It returns an error wrapping ErrNoSources for empty tasks,
 // ErrDimension if a task's length differs from len(wi), ErrDiscount unless
-// 0 <= gamma < 1, and ErrNonFinite or ErrSettings for non-finite inputs or
+// 0 <= gamma < 1, and ErrNonFinite or ErrConfig for non-finite inputs or
 // a negative eps or phiMax.
 func GapBound(wi []float64, tasks [][]float64, phiMax, eps, gamma float64) (float64, error) {
 	if err := checkBoundArgs(eps, gamma); err != nil {
@@ -47,7 +47,7 @@ func GapBound(wi []float64, tasks [][]float64, phiMax, eps, gamma float64) (floa
 		return 0, fmt.Errorf("gpi: gap bound: phiMax is %v: %w", phiMax, ErrNonFinite)
 	}
 	if phiMax < 0 {
-		return 0, fmt.Errorf("gpi: gap bound: phiMax %v is negative: %w", phiMax, ErrSettings)
+		return 0, fmt.Errorf("gpi: gap bound: phiMax %v is negative: %w", phiMax, ErrConfig)
 	}
 	if len(tasks) == 0 {
 		return 0, fmt.Errorf("gpi: gap bound: no task vectors: %w", ErrNoSources)
@@ -164,7 +164,7 @@ func checkBoundArgs(eps, gamma float64) error {
 		return fmt.Errorf("eps is %v: %w", eps, ErrNonFinite)
 	}
 	if eps < 0 {
-		return fmt.Errorf("eps %v is negative: %w", eps, ErrSettings)
+		return fmt.Errorf("eps %v is negative: %w", eps, ErrConfig)
 	}
 	return nil
 }

@@ -4,25 +4,31 @@ import (
 	"errors"
 	"fmt"
 
-	"github.com/successor-go/successor/linalg"
+	"github.com/successor-go/successor/internal/errs"
 )
 
 // Sentinel errors. Errors returned by this package wrap one of these (or the
 // error of an mdp or sf oracle), so callers can branch with errors.Is.
+// ErrDimension, ErrNonFinite, ErrDiscount, ErrConfig and ErrDiverged are
+// the library's shared sentinels: linalg, mdp, sf and the other packages
+// re-export the same values under the same names.
 var (
-	// ErrDimension: sizes of arguments do not agree. It is linalg's
-	// sentinel, so errors.Is works across packages.
-	ErrDimension = linalg.ErrDimension
+	// ErrDimension: sizes of arguments do not agree.
+	ErrDimension = errs.Dimension
 	// ErrNonFinite: an input or a computed value is NaN or infinite.
-	ErrNonFinite = linalg.ErrNonFinite
+	ErrNonFinite = errs.NonFinite
 	// ErrDiscount: a discount factor is outside its allowed range.
-	ErrDiscount = linalg.ErrDiscount
+	ErrDiscount = errs.Discount
+	// ErrConfig: a settings field or a parameter has an invalid value.
+	ErrConfig = errs.Config
+	// ErrDiverged: a learner produced a non-finite value; the learning
+	// loops return errors wrapping it (an *sf.DivergenceError for the SF
+	// learners).
+	ErrDiverged = errs.Diverged
 	// ErrNoSources: GPI needs at least one source.
 	ErrNoSources = errors.New("no sources")
 	// ErrBound: a value violates a bound of Barreto et al. (2017).
 	ErrBound = errors.New("bound violated")
-	// ErrSettings: a settings field has an invalid value.
-	ErrSettings = errors.New("invalid settings")
 )
 
 // DominanceError reports a state-action pair where the GPI policy's value
@@ -36,6 +42,7 @@ type DominanceError struct {
 	Slack         float64 // 2 eps / (1 - gamma) plus the tolerance
 }
 
+// Error returns the message, with both values, the slack and the pair.
 func (e *DominanceError) Error() string {
 	return fmt.Sprintf("gpi: dominance: Q of the gpi policy %.17g < Q of source %d %.17g - slack %.3g at state %d action %d: %v",
 		e.GPI, e.Source, e.Value, e.Slack, e.State, e.Action, ErrBound)
@@ -53,6 +60,7 @@ type GapError struct {
 	Bound         float64 // the bound plus the tolerance
 }
 
+// Error returns the message, with the gap, the bound and the pair.
 func (e *GapError) Error() string {
 	return fmt.Sprintf("gpi: gap: Q* - Q^pi = %.17g exceeds the bound %.17g at state %d action %d: %v",
 		e.Gap, e.Bound, e.State, e.Action, ErrBound)

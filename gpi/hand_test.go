@@ -143,11 +143,11 @@ func TestBoundFunctions(t *testing.T) {
 		want error
 	}{
 		{"gamma 1", second(gpi.DominanceSlack(0, 1)), gpi.ErrDiscount},
-		{"negative eps", second(gpi.DominanceSlack(-1, 0.5)), gpi.ErrSettings},
+		{"negative eps", second(gpi.DominanceSlack(-1, 0.5)), gpi.ErrConfig},
 		{"NaN eps", second(gpi.GapBound([]float64{1}, [][]float64{{1}}, 1, math.NaN(), 0.5)), gpi.ErrNonFinite},
 		{"no tasks", second(gpi.GapBound([]float64{1}, nil, 1, 0, 0.5)), gpi.ErrNoSources},
 		{"task length", second(gpi.GapBound([]float64{1}, [][]float64{{1, 2}}, 1, 0, 0.5)), gpi.ErrDimension},
-		{"negative phiMax", second(gpi.GapBound([]float64{1}, [][]float64{{1}}, -1, 0, 0.5)), gpi.ErrSettings},
+		{"negative phiMax", second(gpi.GapBound([]float64{1}, [][]float64{{1}}, -1, 0, 0.5)), gpi.ErrConfig},
 		{"dominance lengths", gpi.CheckDominance([]float64{1, 2}, [][]float64{{1}}, 1, 0, 0.5, 0), gpi.ErrDimension},
 		{"gap lengths", gpi.CheckGap([]float64{1, 2}, []float64{1}, 1, 0, 0), gpi.ErrDimension},
 	} {

@@ -11,10 +11,6 @@ import (
 	"github.com/successor-go/successor/sf"
 )
 
-// ErrDiverged is sf's sentinel for a learner that produced a non-finite
-// value; the learning loops return errors wrapping it.
-var ErrDiverged = sf.ErrDiverged
-
 // Defaults of LearnSettings.
 const (
 	DefaultLearnGamma   = 0.95
@@ -74,7 +70,7 @@ func (s *LearnSettings) resolve() (learnConfig, error) {
 		c.steps = DefaultStepsPerTask
 	}
 	if c.steps < 0 {
-		return c, fmt.Errorf("steps per task %d: %w", c.steps, ErrSettings)
+		return c, fmt.Errorf("steps per task %d: %w", c.steps, ErrConfig)
 	}
 	switch {
 	case c.eps == 0:
@@ -82,13 +78,13 @@ func (s *LearnSettings) resolve() (learnConfig, error) {
 	case c.eps < 0:
 		c.eps = 0
 	case !(c.eps <= 1):
-		return c, fmt.Errorf("epsilon %v above 1: %w", c.eps, ErrSettings)
+		return c, fmt.Errorf("epsilon %v above 1: %w", c.eps, ErrConfig)
 	}
 	if c.alpha == 0 {
 		c.alpha = DefaultAlpha
 	}
 	if !(c.alpha > 0 && c.alpha <= 1) {
-		return c, fmt.Errorf("alpha %v outside (0, 1]: %w", c.alpha, ErrSettings)
+		return c, fmt.Errorf("alpha %v outside (0, 1]: %w", c.alpha, ErrConfig)
 	}
 	switch {
 	case c.timeLimit == 0:
@@ -100,7 +96,7 @@ func (s *LearnSettings) resolve() (learnConfig, error) {
 		c.evalEvery = max(1, c.steps/10)
 	}
 	if c.evalEvery < 0 {
-		return c, fmt.Errorf("eval every %d: %w", c.evalEvery, ErrSettings)
+		return c, fmt.Errorf("eval every %d: %w", c.evalEvery, ErrConfig)
 	}
 	return c, nil
 }
@@ -175,7 +171,7 @@ type agent interface {
 // optimal; progress, if not nil, is called with each evaluation. The run
 // is deterministic given the rng state.
 //
-// Errors wrap ErrSettings (bad settings, a nil rng, or a task whose optimal
+// Errors wrap ErrConfig (bad settings, a nil rng, or a task whose optimal
 // and uniform returns coincide, so that the normalised return is
 // undefined), ErrNoSources (no tasks), ErrDimension, ErrNonFinite,
 // ErrDiverged (with the step, from sf.DivergenceError) or an oracle error.
@@ -219,7 +215,7 @@ func QLearning(rng *rand.Rand, m *mdp.Finite, phi sf.FeatureMap, tasks [][]float
 // learn is the loop shared by the learners.
 func learn(rng *rand.Rand, m *mdp.Finite, phi sf.FeatureMap, tasks [][]float64, c learnConfig, ag agent, progress func(Progress)) (*LearnResult, error) {
 	if rng == nil {
-		return nil, fmt.Errorf("nil rng: %w", ErrSettings)
+		return nil, fmt.Errorf("nil rng: %w", ErrConfig)
 	}
 	if len(tasks) == 0 {
 		return nil, fmt.Errorf("no tasks: %w", ErrNoSources)
@@ -249,7 +245,7 @@ func learn(rng *rand.Rand, m *mdp.Finite, phi sf.FeatureMap, tasks [][]float64, 
 		}
 		jOpt, jUni := startValue(m, opt.V), startValue(m, uni.V)
 		if !(jOpt-jUni > 1e-12*(1+math.Abs(jOpt))) {
-			return nil, fmt.Errorf("task %d: optimal return %v equals the uniform policy's %v, normalised return undefined: %w", i, jOpt, jUni, ErrSettings)
+			return nil, fmt.Errorf("task %d: optimal return %v equals the uniform policy's %v, normalised return undefined: %w", i, jOpt, jUni, ErrConfig)
 		}
 		if err := ag.begin(i, w); err != nil {
 			return nil, fmt.Errorf("task %d: %w", i, err)

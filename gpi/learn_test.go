@@ -144,14 +144,14 @@ func TestLearnErrors(t *testing.T) {
 		set   *gpi.LearnSettings
 		want  error
 	}{
-		{"nil rng", nil, tasks, nil, gpi.ErrSettings},
+		{"nil rng", nil, tasks, nil, gpi.ErrConfig},
 		{"no tasks", rng, nil, nil, gpi.ErrNoSources},
 		{"task length", rng, [][]float64{{1}}, nil, gpi.ErrDimension},
 		{"gamma", rng, tasks, &gpi.LearnSettings{Gamma: 1}, gpi.ErrDiscount},
-		{"epsilon", rng, tasks, &gpi.LearnSettings{Epsilon: 2}, gpi.ErrSettings},
-		{"alpha", rng, tasks, &gpi.LearnSettings{Alpha: -1}, gpi.ErrSettings},
-		{"steps", rng, tasks, &gpi.LearnSettings{StepsPerTask: -1}, gpi.ErrSettings},
-		{"zero task", rng, zero, nil, gpi.ErrSettings}, // every policy has return 0
+		{"epsilon", rng, tasks, &gpi.LearnSettings{Epsilon: 2}, gpi.ErrConfig},
+		{"alpha", rng, tasks, &gpi.LearnSettings{Alpha: -1}, gpi.ErrConfig},
+		{"steps", rng, tasks, &gpi.LearnSettings{StepsPerTask: -1}, gpi.ErrConfig},
+		{"zero task", rng, zero, nil, gpi.ErrConfig}, // every policy has return 0
 	} {
 		if _, err := gpi.SFQLearning(c.rng, g.MDP, phi, c.tasks, c.set, nil); !errors.Is(err, c.want) {
 			t.Errorf("sfq %s: error %v, want %v", c.name, err, c.want)

@@ -86,8 +86,10 @@
 //
 // Functions return errors wrapping the sentinels ErrNotStochastic,
 // ErrSingular, ErrDiscount, ErrDimension, ErrNotConverged, ErrNonFinite,
-// ErrNotAbsorbing, ErrReducible, ErrBadParameter and ErrRankDeficient (which
-// also matches ErrSingular); use errors.Is. NaN or Inf in any input is an
+// ErrNotAbsorbing, ErrReducible, ErrConfig and ErrRankDeficient (which
+// also matches ErrSingular); use errors.Is. ErrDimension, ErrNonFinite,
+// ErrDiscount and ErrConfig are shared by the whole library: the other
+// packages re-export the same values under the same names. NaN or Inf in any input is an
 // error, never a NaN in the output. Hot-path methods (CSR.MulVecTo,
 // RLS.Update) panic on programmer errors such as a wrong slice length, as
 // their documentation says.

@@ -130,6 +130,8 @@ type NotConvergedError struct {
 	Tol        float64 // the tolerance asked for
 }
 
+// Error returns the message, with the residual reached, the iterations
+// and the tolerance.
 func (e *NotConvergedError) Error() string {
 	return fmt.Sprintf("linalg: iterative: relative residual %.3g after %d iterations, want %.3g: %v",
 		e.Residual, e.Iterations, e.Tol, ErrNotConverged)
@@ -312,7 +314,7 @@ func grow(s []float64, n int) []float64 {
 // Errors wrap ErrDiscount (gamma outside [0, 1)), ErrDimension (P not
 // square, or len(dst) or len(b) not n), ErrNonFinite (NaN or Inf in P, b or,
 // with UseInitial, dst), ErrSingular (PrecondSGS asked for while a diagonal
-// entry of A is not positive), ErrBadParameter (an unknown Method or
+// entry of A is not positive), ErrConfig (an unknown Method or
 // Precond), or ErrNotConverged as a *NotConvergedError when MaxIter is
 // reached, CG (not under IterAuto) or GMRES breaks down, or the residual
 // is no longer finite; dst then holds the last iterate. If b = 0, x = 0 is
@@ -332,7 +334,7 @@ func (s *IterSolver) Solve(dst []float64, p *CSR, gamma float64, b []float64, se
 		return IterResult{}, fmt.Errorf("linalg: iterative: gamma %v outside [0, 1): %w", gamma, ErrDiscount)
 	}
 	if cfg.Method < IterAuto || cfg.Method > IterGMRES || cfg.Precond < PrecondAuto || cfg.Precond > PrecondJacobi {
-		return IterResult{}, fmt.Errorf("linalg: iterative: unknown method %v or preconditioner %v: %w", cfg.Method, cfg.Precond, ErrBadParameter)
+		return IterResult{}, fmt.Errorf("linalg: iterative: unknown method %v or preconditioner %v: %w", cfg.Method, cfg.Precond, ErrConfig)
 	}
 	n, c := p.Dims()
 	if n != c {

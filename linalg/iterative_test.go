@@ -194,8 +194,8 @@ func TestIterativeErrors(t *testing.T) {
 		{"NaN in p", make([]float64, 6), bad, 0.5, make([]float64, 6), nil, linalg.ErrNonFinite},
 		// SGS needs a positive diagonal of I - gamma P: 1 - 0.5*4 < 0.
 		{"sgs on bad diagonal", make([]float64, 1), mustCSR(mat.NewDense(1, 1, []float64{4})), 0.5, []float64{1}, &linalg.IterSettings{Precond: linalg.PrecondSGS}, linalg.ErrSingular},
-		{"unknown method", make([]float64, 6), p, 0.5, make([]float64, 6), &linalg.IterSettings{Method: linalg.IterGMRES + 1}, linalg.ErrBadParameter},
-		{"unknown precond", make([]float64, 6), p, 0.5, make([]float64, 6), &linalg.IterSettings{Precond: linalg.PrecondJacobi + 1}, linalg.ErrBadParameter},
+		{"unknown method", make([]float64, 6), p, 0.5, make([]float64, 6), &linalg.IterSettings{Method: linalg.IterGMRES + 1}, linalg.ErrConfig},
+		{"unknown precond", make([]float64, 6), p, 0.5, make([]float64, 6), &linalg.IterSettings{Precond: linalg.PrecondJacobi + 1}, linalg.ErrConfig},
 	}
 	for _, c := range cases {
 		if _, err := linalg.SolveIterative(c.dst, c.p, c.gamma, c.b, c.s); !errors.Is(err, c.want) {

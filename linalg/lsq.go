@@ -21,14 +21,14 @@ import (
 // X^T X + lambda I would; with lambda = 0 it is plain QR least squares. It
 // costs O((m + d) d^2) time and O((m + d) d) memory.
 //
-// Errors wrap ErrBadParameter (lambda < 0 or NaN or Inf), ErrDimension
+// Errors wrap ErrConfig (lambda < 0 or NaN or Inf), ErrDimension
 // (d = 0, len(y) != m, or dst of the wrong length), ErrNonFinite (NaN or Inf
 // in X or y), or ErrRankDeficient, which wraps ErrSingular, when lambda = 0
 // and X does not have full column rank to working precision (in particular
 // when m < d): a diagonal entry of R below max(m, d) eps max|R_kk|.
 func Ridge(dst *mat.VecDense, x mat.Matrix, y mat.Vector, lambda float64) (residual float64, err error) {
 	if !(lambda >= 0) || math.IsInf(lambda, 1) {
-		return 0, fmt.Errorf("linalg: ridge: lambda %v: %w", lambda, ErrBadParameter)
+		return 0, fmt.Errorf("linalg: ridge: lambda %v: %w", lambda, ErrConfig)
 	}
 	m, d := x.Dims()
 	if d == 0 {
@@ -123,14 +123,14 @@ type RLS struct {
 }
 
 // NewRLS returns an estimator of d weights with ridge strength lambda.
-// Errors wrap ErrDimension (d < 1) or ErrBadParameter (lambda not positive
+// Errors wrap ErrDimension (d < 1) or ErrConfig (lambda not positive
 // and finite: P_0 = I/lambda needs lambda > 0).
 func NewRLS(d int, lambda float64) (*RLS, error) {
 	if d < 1 {
 		return nil, fmt.Errorf("linalg: rls: %d weights: %w", d, ErrDimension)
 	}
 	if !(lambda > 0) || math.IsInf(lambda, 1) {
-		return nil, fmt.Errorf("linalg: rls: lambda %v must be positive and finite: %w", lambda, ErrBadParameter)
+		return nil, fmt.Errorf("linalg: rls: lambda %v must be positive and finite: %w", lambda, ErrConfig)
 	}
 	r := &RLS{d: d, lambda: lambda, w: make([]float64, d), p: make([]float64, d*d), px: make([]float64, d)}
 	r.Reset()

@@ -99,8 +99,8 @@ func TestRidgeErrors(t *testing.T) {
 		{"rank deficient", &mat.VecDense{}, x, y, 0, linalg.ErrSingular},
 		{"rank deficient typed", &mat.VecDense{}, x, y, 0, linalg.ErrRankDeficient},
 		{"too few samples", &mat.VecDense{}, mat.NewDense(1, 2, []float64{1, 1}), mat.NewVecDense(1, []float64{1}), 0, linalg.ErrRankDeficient},
-		{"negative lambda", &mat.VecDense{}, x, y, -1, linalg.ErrBadParameter},
-		{"NaN lambda", &mat.VecDense{}, x, y, math.NaN(), linalg.ErrBadParameter},
+		{"negative lambda", &mat.VecDense{}, x, y, -1, linalg.ErrConfig},
+		{"NaN lambda", &mat.VecDense{}, x, y, math.NaN(), linalg.ErrConfig},
 		{"y length", &mat.VecDense{}, x, mat.NewVecDense(2, nil), 0.1, linalg.ErrDimension},
 		{"dst length", mat.NewVecDense(3, nil), x, y, 0.1, linalg.ErrDimension},
 		{"NaN in x", &mat.VecDense{}, mat.NewDense(1, 1, []float64{math.NaN()}), mat.NewVecDense(1, []float64{1}), 1, linalg.ErrNonFinite},
@@ -169,10 +169,10 @@ func TestRLSErrorsAndPanics(t *testing.T) {
 		want   error
 	}{
 		{0, 1, linalg.ErrDimension},
-		{2, 0, linalg.ErrBadParameter},
-		{2, -1, linalg.ErrBadParameter},
-		{2, math.Inf(1), linalg.ErrBadParameter},
-		{2, math.NaN(), linalg.ErrBadParameter},
+		{2, 0, linalg.ErrConfig},
+		{2, -1, linalg.ErrConfig},
+		{2, math.Inf(1), linalg.ErrConfig},
+		{2, math.NaN(), linalg.ErrConfig},
 	} {
 		if _, err := linalg.NewRLS(c.d, c.lambda); !errors.Is(err, c.want) {
 			t.Errorf("NewRLS(%d, %v): got %v, want %v", c.d, c.lambda, err, c.want)

@@ -11,10 +11,10 @@ import (
 // after checking each row of a non-terminal state is a distribution (finite,
 // non-negative, summing to 1 within PolicyTol). Rows of terminal states are
 // zero: the policy is not queried there. The error wraps
-// linalg.ErrNonFinite or linalg.ErrNotStochastic.
+// ErrNonFinite or linalg.ErrNotStochastic.
 func (m *Finite) PolicyTable(pi Policy) ([]float64, error) {
 	if pi == nil {
-		return nil, fmt.Errorf("mdp: policy table: nil policy: %w", ErrInvalid)
+		return nil, fmt.Errorf("mdp: policy table: nil policy: %w", ErrConfig)
 	}
 	tab := make([]float64, m.n*m.a)
 	for s := 0; s < m.n; s++ {
@@ -49,7 +49,7 @@ func (m *Finite) Chain(pi Policy) *linalg.CSR {
 }
 
 // ChainOf is Chain returning an error (wrapping linalg.ErrNotStochastic or
-// linalg.ErrNonFinite) when pi is not a distribution at some state.
+// ErrNonFinite) when pi is not a distribution at some state.
 func (m *Finite) ChainOf(pi Policy) (*linalg.CSR, error) {
 	tab, err := m.PolicyTable(pi)
 	if err != nil {
@@ -122,7 +122,7 @@ func (m *Finite) StateActionChain(pi Policy) *linalg.CSR {
 }
 
 // StateActionChainOf is StateActionChain returning an error (wrapping
-// linalg.ErrNotStochastic or linalg.ErrNonFinite) when pi is not a
+// linalg.ErrNotStochastic or ErrNonFinite) when pi is not a
 // distribution at some state.
 func (m *Finite) StateActionChainOf(pi Policy) (*linalg.CSR, error) {
 	tab, err := m.PolicyTable(pi)

@@ -5,7 +5,6 @@ import (
 	"bytes"
 	"encoding/binary"
 	"encoding/json"
-	"errors"
 	"fmt"
 	"hash/crc32"
 	"io"
@@ -17,11 +16,6 @@ import (
 	"github.com/successor-go/successor/internal/fileio"
 	"github.com/successor-go/successor/linalg"
 )
-
-// ErrFormat is wrapped by errors about a file that is not in this
-// package's MDP file format: bad JSON, an unknown field, a wrong format
-// name or version, or a checksum mismatch.
-var ErrFormat = errors.New("bad mdp file")
 
 // File format identification.
 const (
@@ -86,7 +80,7 @@ type fileJSON struct {
 // terminal or start states, rows not summing to 1, terminal states with
 // outgoing mass, label or action-name lists of the wrong length, duplicate
 // rewards or rewards on transitions that do not exist, and a checksum that
-// does not match are all errors. They wrap ErrFormat, ErrInvalid or the
+// does not match are all errors. They wrap ErrCorrupt, ErrConfig or the
 // linalg sentinels New uses.
 func Load(r io.Reader) (*File, error) {
 	dec := json.NewDecoder(r)
@@ -94,10 +88,10 @@ func Load(r io.Reader) (*File, error) {
 	dec.UseNumber()
 	var fj fileJSON
 	if err := dec.Decode(&fj); err != nil {
-		return nil, fmt.Errorf("mdp: load: %v: %w", err, ErrFormat)
+		return nil, fmt.Errorf("mdp: load: %v: %w", err, ErrCorrupt)
 	}
 	if _, err := dec.Token(); err != io.EOF {
-		return nil, fmt.Errorf("mdp: load: data after the JSON object: %w", ErrFormat)
+		return nil, fmt.Errorf("mdp: load: data after the JSON object: %w", ErrCorrupt)
 	}
 	f, err := fj.build()
 	if err != nil {
@@ -105,7 +99,7 @@ func Load(r io.Reader) (*File, error) {
 	}
 	if fj.Checksum != "" {
 		if want := checksumString(f); fj.Checksum != want {
-			return nil, fmt.Errorf("mdp: load: checksum %q, content gives %q: %w", fj.Checksum, want, ErrFormat)
+			return nil, fmt.Errorf("mdp: load: checksum %q, content gives %q: %w", fj.Checksum, want, ErrCorrupt)
 		}
 	}
 	return f, nil
@@ -124,7 +118,7 @@ func LoadFile(path string) (*File, error) {
 func parseInt(v json.Number) (int, error) {
 	i, err := strconv.Atoi(string(v))
 	if err != nil {
-		return 0, fmt.Errorf("index %q is not an integer: %w", v, ErrFormat)
+		return 0, fmt.Errorf("index %q is not an integer: %w", v, ErrCorrupt)
 	}
 	return i, nil
 }
@@ -132,7 +126,7 @@ func parseInt(v json.Number) (int, error) {
 func parseFloat(v json.Number) (float64, error) {
 	x, err := strconv.ParseFloat(string(v), 64)
 	if err != nil || math.IsInf(x, 0) {
-		return 0, fmt.Errorf("number %q out of range: %w", v, linalg.ErrNonFinite)
+		return 0, fmt.Errorf("number %q out of range: %w", v, ErrNonFinite)
 	}
 	return x, nil
 }
@@ -140,7 +134,7 @@ func parseFloat(v json.Number) (float64, error) {
 // entry decodes [i0, i1, ..., value] with len(ints) integers.
 func entry(e []json.Number, ints []int) (float64, error) {
 	if len(e) != len(ints)+1 {
-		return 0, fmt.Errorf("entry %v has %d numbers, want %d: %w", e, len(e), len(ints)+1, ErrFormat)
+		return 0, fmt.Errorf("entry %v has %d numbers, want %d: %w", e, len(e), len(ints)+1, ErrCorrupt)
 	}
 	for i := range ints {
 		v, err := parseInt(e[i])
@@ -154,14 +148,14 @@ func entry(e []json.Number, ints []int) (float64, error) {
 
 func (fj *fileJSON) build() (*File, error) {
 	if fj.Format != FileFormat {
-		return nil, fmt.Errorf("format %q, want %q: %w", fj.Format, FileFormat, ErrFormat)
+		return nil, fmt.Errorf("format %q, want %q: %w", fj.Format, FileFormat, ErrCorrupt)
 	}
 	if fj.Version != FileVersion {
-		return nil, fmt.Errorf("version %d, want %d: %w", fj.Version, FileVersion, ErrFormat)
+		return nil, fmt.Errorf("version %d, want %d: %w", fj.Version, FileVersion, ErrCorrupt)
 	}
 	n, na := fj.States, fj.Actions
 	if n <= 0 || na <= 0 || n > MaxRows/na {
-		return nil, fmt.Errorf("%d states, %d actions: %w", n, na, linalg.ErrDimension)
+		return nil, fmt.Errorf("%d states, %d actions: %w", n, na, ErrDimension)
 	}
 	// Every (s, a) of a non-terminal state needs a transition, so a valid
 	// file is at least as long as its state count; check before allocating.
@@ -171,7 +165,7 @@ func (fj *fileJSON) build() (*File, error) {
 	term := make([]bool, n)
 	for i, s := range fj.Terminal {
 		if s < 0 || s >= n || (i > 0 && s <= fj.Terminal[i-1]) {
-			return nil, fmt.Errorf("terminal states must be increasing indices in [0, %d): %w", n, ErrInvalid)
+			return nil, fmt.Errorf("terminal states must be increasing indices in [0, %d): %w", n, ErrConfig)
 		}
 		term[s] = true
 	}
@@ -185,7 +179,7 @@ func (fj *fileJSON) build() (*File, error) {
 		}
 		s := idx[0]
 		if s <= prev || s >= n {
-			return nil, fmt.Errorf("start states must be increasing indices in [0, %d): %w", n, ErrInvalid)
+			return nil, fmt.Errorf("start states must be increasing indices in [0, %d): %w", n, ErrConfig)
 		}
 		prev = s
 		start[s] = p
@@ -233,14 +227,14 @@ func (fj *fileJSON) build() (*File, error) {
 // check validates the metadata of f against f.MDP and sorts f.Rewards.
 func (f *File) check() error {
 	if f.MDP == nil {
-		return fmt.Errorf("nil mdp: %w", ErrInvalid)
+		return fmt.Errorf("nil mdp: %w", ErrConfig)
 	}
 	m := f.MDP
 	if f.Labels != nil && len(f.Labels) != m.n {
-		return fmt.Errorf("%d labels for %d states: %w", len(f.Labels), m.n, linalg.ErrDimension)
+		return fmt.Errorf("%d labels for %d states: %w", len(f.Labels), m.n, ErrDimension)
 	}
 	if f.ActionNames != nil && len(f.ActionNames) != m.a {
-		return fmt.Errorf("%d action names for %d actions: %w", len(f.ActionNames), m.a, linalg.ErrDimension)
+		return fmt.Errorf("%d action names for %d actions: %w", len(f.ActionNames), m.a, ErrDimension)
 	}
 	slices.SortFunc(f.Rewards, func(x, y RewardEntry) int {
 		if x.State != y.State {
@@ -253,20 +247,20 @@ func (f *File) check() error {
 	})
 	for i, e := range f.Rewards {
 		if e.State < 0 || e.State >= m.n || e.Action < 0 || e.Action >= m.a || e.Next < 0 || e.Next >= m.n {
-			return fmt.Errorf("reward r(%d,%d,%d): index out of range: %w", e.State, e.Action, e.Next, ErrInvalid)
+			return fmt.Errorf("reward r(%d,%d,%d): index out of range: %w", e.State, e.Action, e.Next, ErrConfig)
 		}
 		if math.IsNaN(e.Value) || math.IsInf(e.Value, 0) {
-			return fmt.Errorf("reward r(%d,%d,%d): %w", e.State, e.Action, e.Next, linalg.ErrNonFinite)
+			return fmt.Errorf("reward r(%d,%d,%d): %w", e.State, e.Action, e.Next, ErrNonFinite)
 		}
 		if i > 0 && f.Rewards[i-1].State == e.State && f.Rewards[i-1].Action == e.Action && f.Rewards[i-1].Next == e.Next {
-			return fmt.Errorf("reward r(%d,%d,%d) given twice: %w", e.State, e.Action, e.Next, ErrInvalid)
+			return fmt.Errorf("reward r(%d,%d,%d) given twice: %w", e.State, e.Action, e.Next, ErrConfig)
 		}
 		next, _ := m.Next(e.State, e.Action)
 		if m.terminal[e.State] {
-			return fmt.Errorf("reward r(%d,%d,%d) from a terminal state: %w", e.State, e.Action, e.Next, ErrInvalid)
+			return fmt.Errorf("reward r(%d,%d,%d) from a terminal state: %w", e.State, e.Action, e.Next, ErrConfig)
 		}
 		if _, ok := slices.BinarySearch(next, e.Next); !ok {
-			return fmt.Errorf("reward r(%d,%d,%d) on a transition that does not exist: %w", e.State, e.Action, e.Next, ErrInvalid)
+			return fmt.Errorf("reward r(%d,%d,%d) on a transition that does not exist: %w", e.State, e.Action, e.Next, ErrConfig)
 		}
 	}
 	return nil
@@ -277,11 +271,11 @@ func (f *File) check() error {
 // back to an identical File (probabilities and rewards bit for bit).
 // Entries are written in CSR order (state, action, next) and rewards
 // sorted the same way; f.Rewards is sorted in place. The error wraps
-// ErrInvalid or linalg.ErrDimension for inconsistent metadata, or is the
+// ErrConfig or ErrDimension for inconsistent metadata, or is the
 // writer's error.
 func Write(w io.Writer, f *File) error {
 	if f == nil {
-		return fmt.Errorf("mdp: write: nil file: %w", ErrInvalid)
+		return fmt.Errorf("mdp: write: nil file: %w", ErrConfig)
 	}
 	if err := f.check(); err != nil {
 		return fmt.Errorf("mdp: write: %w", err)
@@ -405,7 +399,7 @@ func Write(w io.Writer, f *File) error {
 // intact.
 func WriteFile(path string, f *File) error {
 	var werr error
-	err := fileio.WriteAtomicFunc(path, 0o644, func(w io.Writer) error {
+	err := fileio.WriteAtomicFunc(path, fileio.FileMode, func(w io.Writer) error {
 		werr = Write(w, f)
 		return werr
 	})

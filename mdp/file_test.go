@@ -258,37 +258,37 @@ func TestLoadErrors(t *testing.T) {
 		name, in string
 		want     error
 	}{
-		{"empty", "", ErrFormat},
-		{"not json", "hello", ErrFormat},
-		{"trailing", goodChain + "{}", ErrFormat},
-		{"unknown field", rep(`"version": 1`, `"version": 1, "extra": 2`), ErrFormat},
-		{"format", rep(`successor/mdp`, `other`), ErrFormat},
-		{"version", rep(`"version": 1`, `"version": 2`), ErrFormat},
+		{"empty", "", ErrCorrupt},
+		{"not json", "hello", ErrCorrupt},
+		{"trailing", goodChain + "{}", ErrCorrupt},
+		{"unknown field", rep(`"version": 1`, `"version": 1, "extra": 2`), ErrCorrupt},
+		{"format", rep(`successor/mdp`, `other`), ErrCorrupt},
+		{"version", rep(`"version": 1`, `"version": 2`), ErrCorrupt},
 		{"states 0", rep(`"states": 2`, `"states": 0`), linalg.ErrDimension},
 		{"huge states", rep(`"states": 2`, `"states": 1000000000`), linalg.ErrNotStochastic},
 		{"actions 0", rep(`"actions": 1`, `"actions": 0`), linalg.ErrDimension},
-		{"terminal range", rep(`"terminal": [1]`, `"terminal": [2]`), ErrInvalid},
-		{"terminal repeated", rep(`"terminal": [1]`, `"terminal": [1, 1]`), ErrInvalid},
-		{"start range", rep(`[[0, 1]]`, `[[5, 1]]`), ErrInvalid},
-		{"start repeated", rep(`[[0, 1]]`, `[[0, 0.5], [0, 0.5]]`), ErrInvalid},
+		{"terminal range", rep(`"terminal": [1]`, `"terminal": [2]`), ErrConfig},
+		{"terminal repeated", rep(`"terminal": [1]`, `"terminal": [1, 1]`), ErrConfig},
+		{"start range", rep(`[[0, 1]]`, `[[5, 1]]`), ErrConfig},
+		{"start repeated", rep(`[[0, 1]]`, `[[0, 0.5], [0, 0.5]]`), ErrConfig},
 		{"start sum", rep(`[[0, 1]]`, `[[0, 0.5]]`), linalg.ErrNotStochastic},
-		{"start empty", rep(`[[0, 1]]`, `[]`), ErrInvalid},
-		{"start float index", rep(`[[0, 1]]`, `[[0.0, 1]]`), ErrFormat},
-		{"start short entry", rep(`[[0, 1]]`, `[[0]]`), ErrFormat},
-		{"transition long entry", rep(`[[0, 1, 1]]`, `[[0, 0, 1, 1]]`), ErrFormat},
-		{"transition index", rep(`[[0, 1, 1]]`, `[[0, 7, 1]]`), ErrInvalid},
+		{"start empty", rep(`[[0, 1]]`, `[]`), ErrConfig},
+		{"start float index", rep(`[[0, 1]]`, `[[0.0, 1]]`), ErrCorrupt},
+		{"start short entry", rep(`[[0, 1]]`, `[[0]]`), ErrCorrupt},
+		{"transition long entry", rep(`[[0, 1, 1]]`, `[[0, 0, 1, 1]]`), ErrCorrupt},
+		{"transition index", rep(`[[0, 1, 1]]`, `[[0, 7, 1]]`), ErrConfig},
 		{"transition prob", rep(`[[0, 1, 1]]`, `[[0, 1, 0.9]]`), linalg.ErrNotStochastic},
 		{"transition negative", rep(`[[0, 1, 1]]`, `[[0, 1, 1.5], [0, 0, -0.5]]`), linalg.ErrNotStochastic},
 		{"transition overflow", rep(`[[0, 1, 1]]`, `[[0, 1, 1e999]]`), linalg.ErrNonFinite},
-		{"terminal mass", rep(`[[0, 1, 1]]`, `[[0, 1, 1], [1, 0, 1]]`), ErrInvalid},
+		{"terminal mass", rep(`[[0, 1, 1]]`, `[[0, 1, 1], [1, 0, 1]]`), ErrConfig},
 		{"missing row", rep(`"terminal": [1], `, ``), linalg.ErrNotStochastic},
 		{"labels length", rep(`"actions": 1`, `"actions": 1, "labels": ["a"]`), linalg.ErrDimension},
 		{"action names length", rep(`"actions": 1`, `"actions": 1, "actionNames": ["a", "b"]`), linalg.ErrDimension},
-		{"reward missing transition", rep(`[[0, 1, 1]]`, `[[0, 1, 1]], "rewards": [[0, 0, 1]]`), ErrInvalid},
-		{"reward twice", rep(`[[0, 1, 1]]`, `[[0, 1, 1]], "rewards": [[0, 1, 1], [0, 1, 2]]`), ErrInvalid},
-		{"reward terminal", rep(`[[0, 1, 1]]`, `[[0, 1, 1]], "rewards": [[1, 1, 1]]`), ErrInvalid},
-		{"reward range", rep(`[[0, 1, 1]]`, `[[0, 1, 1]], "rewards": [[0, 9, 1]]`), ErrInvalid},
-		{"checksum", rep(`"actions": 1`, `"actions": 1, "checksum": "crc32:00000000"`), ErrFormat},
+		{"reward missing transition", rep(`[[0, 1, 1]]`, `[[0, 1, 1]], "rewards": [[0, 0, 1]]`), ErrConfig},
+		{"reward twice", rep(`[[0, 1, 1]]`, `[[0, 1, 1]], "rewards": [[0, 1, 1], [0, 1, 2]]`), ErrConfig},
+		{"reward terminal", rep(`[[0, 1, 1]]`, `[[0, 1, 1]], "rewards": [[1, 1, 1]]`), ErrConfig},
+		{"reward range", rep(`[[0, 1, 1]]`, `[[0, 1, 1]], "rewards": [[0, 9, 1]]`), ErrConfig},
+		{"checksum", rep(`"actions": 1`, `"actions": 1, "checksum": "crc32:00000000"`), ErrCorrupt},
 	} {
 		t.Run(tc.name, func(t *testing.T) {
 			_, err := Load(strings.NewReader(tc.in))
@@ -297,10 +297,10 @@ func TestLoadErrors(t *testing.T) {
 			}
 		})
 	}
-	if err := Write(&bytes.Buffer{}, nil); !errors.Is(err, ErrInvalid) {
+	if err := Write(&bytes.Buffer{}, nil); !errors.Is(err, ErrConfig) {
 		t.Errorf("write nil: %v", err)
 	}
-	if err := Write(&bytes.Buffer{}, &File{}); !errors.Is(err, ErrInvalid) {
+	if err := Write(&bytes.Buffer{}, &File{}); !errors.Is(err, ErrConfig) {
 		t.Errorf("write without mdp: %v", err)
 	}
 }

@@ -1,17 +1,11 @@
 package mdp
 
 import (
-	"errors"
 	"fmt"
 	"math"
 
 	"github.com/successor-go/successor/linalg"
 )
-
-// ErrInvalid is wrapped by errors about a malformed MDP description that has
-// no more specific linalg sentinel (a terminal state with outgoing mass, an
-// empty start distribution, an index out of range).
-var ErrInvalid = errors.New("invalid mdp")
 
 // Transition is one entry P(Next | State, Action) = Prob of a finite MDP.
 type Transition struct {
@@ -51,30 +45,30 @@ const StochasticTol = 1e-9
 // omitted (a self-loop is added) or given as a self-loop with probability 1
 // (or entries with probability 0); anything else is an error.
 //
-// Errors wrap linalg.ErrDimension (sizes, or more than MaxRows state-action
-// pairs), linalg.ErrNonFinite, linalg.ErrNotStochastic (a negative
+// Errors wrap ErrDimension (sizes, or more than MaxRows state-action
+// pairs), ErrNonFinite, linalg.ErrNotStochastic (a negative
 // probability or a row or start distribution not summing to 1; rows give a
-// *linalg.RowSumError) or ErrInvalid (an index out of range, a terminal
+// *linalg.RowSumError) or ErrConfig (an index out of range, a terminal
 // state with outgoing mass, an all-zero start distribution).
 func New(numStates, numActions int, t []Transition, terminal []bool, start []float64) (*Finite, error) {
 	if numStates <= 0 || numActions <= 0 {
-		return nil, fmt.Errorf("mdp: new: %d states, %d actions: %w", numStates, numActions, linalg.ErrDimension)
+		return nil, fmt.Errorf("mdp: new: %d states, %d actions: %w", numStates, numActions, ErrDimension)
 	}
 	if numStates > MaxRows/numActions {
-		return nil, fmt.Errorf("mdp: new: %d states x %d actions exceeds %d rows: %w", numStates, numActions, MaxRows, linalg.ErrDimension)
+		return nil, fmt.Errorf("mdp: new: %d states x %d actions exceeds %d rows: %w", numStates, numActions, MaxRows, ErrDimension)
 	}
 	if terminal != nil && len(terminal) != numStates {
-		return nil, fmt.Errorf("mdp: new: %d terminal flags for %d states: %w", len(terminal), numStates, linalg.ErrDimension)
+		return nil, fmt.Errorf("mdp: new: %d terminal flags for %d states: %w", len(terminal), numStates, ErrDimension)
 	}
 	if len(start) != numStates {
-		return nil, fmt.Errorf("mdp: new: start has length %d, want %d: %w", len(start), numStates, linalg.ErrDimension)
+		return nil, fmt.Errorf("mdp: new: start has length %d, want %d: %w", len(start), numStates, ErrDimension)
 	}
 	term := make([]bool, numStates)
 	copy(term, terminal)
 	var ssum float64
 	for s, v := range start {
 		if math.IsNaN(v) || math.IsInf(v, 0) {
-			return nil, fmt.Errorf("mdp: new: start[%d]: %w", s, linalg.ErrNonFinite)
+			return nil, fmt.Errorf("mdp: new: start[%d]: %w", s, ErrNonFinite)
 		}
 		if v < 0 {
 			return nil, fmt.Errorf("mdp: new: start[%d] = %v negative: %w", s, v, linalg.ErrNotStochastic)
@@ -82,7 +76,7 @@ func New(numStates, numActions int, t []Transition, terminal []bool, start []flo
 		ssum += v
 	}
 	if ssum == 0 {
-		return nil, fmt.Errorf("mdp: new: empty start distribution: %w", ErrInvalid)
+		return nil, fmt.Errorf("mdp: new: empty start distribution: %w", ErrConfig)
 	}
 	if math.Abs(ssum-1) > StochasticTol {
 		return nil, fmt.Errorf("mdp: new: start sums to %v: %w", ssum, linalg.ErrNotStochastic)
@@ -90,13 +84,13 @@ func New(numStates, numActions int, t []Transition, terminal []bool, start []flo
 	trip := make([]linalg.Triplet, 0, len(t)+numStates*numActions)
 	for _, e := range t {
 		if e.State < 0 || e.State >= numStates || e.Next < 0 || e.Next >= numStates {
-			return nil, fmt.Errorf("mdp: new: transition %d -> %d: state out of range: %w", e.State, e.Next, ErrInvalid)
+			return nil, fmt.Errorf("mdp: new: transition %d -> %d: state out of range: %w", e.State, e.Next, ErrConfig)
 		}
 		if e.Action < 0 || e.Action >= numActions {
-			return nil, fmt.Errorf("mdp: new: transition from %d: action %d out of range: %w", e.State, e.Action, ErrInvalid)
+			return nil, fmt.Errorf("mdp: new: transition from %d: action %d out of range: %w", e.State, e.Action, ErrConfig)
 		}
 		if math.IsNaN(e.Prob) || math.IsInf(e.Prob, 0) {
-			return nil, fmt.Errorf("mdp: new: P(%d|%d,%d): %w", e.Next, e.State, e.Action, linalg.ErrNonFinite)
+			return nil, fmt.Errorf("mdp: new: P(%d|%d,%d): %w", e.Next, e.State, e.Action, ErrNonFinite)
 		}
 		if e.Prob < 0 {
 			return nil, fmt.Errorf("mdp: new: P(%d|%d,%d) = %v negative: %w", e.Next, e.State, e.Action, e.Prob, linalg.ErrNotStochastic)
@@ -106,7 +100,7 @@ func New(numStates, numActions int, t []Transition, terminal []bool, start []flo
 				continue
 			}
 			if e.Next != e.State || e.Prob != 1 {
-				return nil, fmt.Errorf("mdp: new: terminal state %d has outgoing mass to %d: %w", e.State, e.Next, ErrInvalid)
+				return nil, fmt.Errorf("mdp: new: terminal state %d has outgoing mass to %d: %w", e.State, e.Next, ErrConfig)
 			}
 			continue // re-added below
 		}
@@ -169,7 +163,7 @@ func newFromCSR(numStates, numActions int, p *linalg.CSR, term []bool, start []f
 		ind, val := p.Row(r)
 		s := r / numActions
 		if term[s] && (len(ind) != 1 || ind[0] != s || val[0] != 1) {
-			return nil, fmt.Errorf("terminal state %d is not a self-loop: %w", s, ErrInvalid)
+			return nil, fmt.Errorf("terminal state %d is not a self-loop: %w", s, ErrConfig)
 		}
 		var sum float64
 		for _, v := range val {

@@ -66,12 +66,13 @@ type Grid struct {
 }
 
 // LayoutError reports a malformed layout at a line and column (both
-// 1-based, counting runes in the original text). It wraps ErrInvalid.
+// 1-based, counting runes in the original text). It wraps ErrConfig.
 type LayoutError struct {
 	Line, Col int
 	Msg       string
 }
 
+// Error returns the message, naming the line and, when known, the column.
 func (e *LayoutError) Error() string {
 	if e.Col > 0 {
 		return fmt.Sprintf("mdp: grid: line %d, column %d: %s", e.Line, e.Col, e.Msg)
@@ -79,8 +80,8 @@ func (e *LayoutError) Error() string {
 	return fmt.Sprintf("mdp: grid: line %d: %s", e.Line, e.Msg)
 }
 
-// Unwrap returns ErrInvalid.
-func (e *LayoutError) Unwrap() error { return ErrInvalid }
+// Unwrap returns ErrConfig.
+func (e *LayoutError) Unwrap() error { return ErrConfig }
 
 // ParseGrid returns the grid world described by layout: one line of text
 // per row, one character per cell: '#' a wall, '.' a free cell, 'S' a start
@@ -95,8 +96,8 @@ func (e *LayoutError) Unwrap() error { return ErrInvalid }
 // non-terminal free cells. The grid has no reward: rewards are given to
 // the oracles separately (see PlaceReward).
 //
-// Errors are *LayoutError (wrapping ErrInvalid) naming the line and column
-// of a bad character or ragged row, or wrap ErrInvalid for bad options
+// Errors are *LayoutError (wrapping ErrConfig) naming the line and column
+// of a bad character or ragged row, or wrap ErrConfig for bad options
 // (a reserved label code, an empty name, an unknown terminal label, Slip
 // outside [0, 1]) and layouts without free or non-terminal cells.
 func ParseGrid(layout string, opts *GridOptions) (*Grid, error) {
@@ -105,17 +106,17 @@ func ParseGrid(layout string, opts *GridOptions) (*Grid, error) {
 		o = *opts
 	}
 	if !(o.Slip >= 0 && o.Slip <= 1) {
-		return nil, fmt.Errorf("mdp: grid: slip %v outside [0, 1]: %w", o.Slip, ErrInvalid)
+		return nil, fmt.Errorf("mdp: grid: slip %v outside [0, 1]: %w", o.Slip, ErrConfig)
 	}
 	nameSet := map[string]bool{}
 	for c, name := range o.Labels {
 		switch {
 		case c == CellWall || c == CellFree || c == CellStart || c == CellTerminal:
-			return nil, fmt.Errorf("mdp: grid: label code %q is reserved: %w", c, ErrInvalid)
+			return nil, fmt.Errorf("mdp: grid: label code %q is reserved: %w", c, ErrConfig)
 		case c == ' ' || c == '\t' || c == '\n' || c == '\r' || c == utf8.RuneError:
-			return nil, fmt.Errorf("mdp: grid: label code %q is not a visible character: %w", c, ErrInvalid)
+			return nil, fmt.Errorf("mdp: grid: label code %q is not a visible character: %w", c, ErrConfig)
 		case name == "":
-			return nil, fmt.Errorf("mdp: grid: label code %q has an empty name: %w", c, ErrInvalid)
+			return nil, fmt.Errorf("mdp: grid: label code %q has an empty name: %w", c, ErrConfig)
 		}
 		nameSet[name] = true
 	}
@@ -127,7 +128,7 @@ func ParseGrid(layout string, opts *GridOptions) (*Grid, error) {
 	termName := map[string]bool{}
 	for _, name := range o.Terminal {
 		if !nameSet[name] {
-			return nil, fmt.Errorf("mdp: grid: terminal label %q is not a label: %w", name, ErrInvalid)
+			return nil, fmt.Errorf("mdp: grid: terminal label %q is not a label: %w", name, ErrConfig)
 		}
 		termName[name] = true
 	}
@@ -153,12 +154,12 @@ func ParseGrid(layout string, opts *GridOptions) (*Grid, error) {
 		rows = rows[:len(rows)-1]
 	}
 	if len(rows) == 0 {
-		return nil, fmt.Errorf("mdp: grid: empty layout: %w", ErrInvalid)
+		return nil, fmt.Errorf("mdp: grid: empty layout: %w", ErrConfig)
 	}
 	nr := len(rows)
 	nc := utf8.RuneCountInString(rows[0].text)
 	if nr > MaxRows/nc {
-		return nil, fmt.Errorf("mdp: grid: layout too large: %w", ErrInvalid)
+		return nil, fmt.Errorf("mdp: grid: layout too large: %w", ErrConfig)
 	}
 	g := &Grid{Rows: nr, Cols: nc, names: names, state: make([]int, nr*nc)}
 	var term []bool
@@ -202,7 +203,7 @@ func ParseGrid(layout string, opts *GridOptions) (*Grid, error) {
 	}
 	n := len(g.cell)
 	if n == 0 {
-		return nil, fmt.Errorf("mdp: grid: no free cells: %w", ErrInvalid)
+		return nil, fmt.Errorf("mdp: grid: no free cells: %w", ErrConfig)
 	}
 	start := make([]float64, n)
 	var ns int
@@ -219,7 +220,7 @@ func ParseGrid(layout string, opts *GridOptions) (*Grid, error) {
 			}
 		}
 		if ns == 0 {
-			return nil, fmt.Errorf("mdp: grid: every free cell is terminal: %w", ErrInvalid)
+			return nil, fmt.Errorf("mdp: grid: every free cell is terminal: %w", ErrConfig)
 		}
 	}
 	for s := range isStart {
@@ -364,15 +365,15 @@ func (g *Grid) StatesWithLabel(l int) []int {
 
 // PlaceReward returns the reward r(s, a, s') = w[LabelOf(s')] for a
 // labelled s' and 0 otherwise: arriving in (or staying in) a labelled cell
-// pays its weight. It returns an error wrapping linalg.ErrDimension if
-// len(w) differs from the number of labels, or linalg.ErrNonFinite.
+// pays its weight. It returns an error wrapping ErrDimension if
+// len(w) differs from the number of labels, or ErrNonFinite.
 func (g *Grid) PlaceReward(w []float64) (Reward, error) {
 	if len(w) != len(g.names) {
-		return nil, fmt.Errorf("mdp: grid: %d weights for %d labels: %w", len(w), len(g.names), linalg.ErrDimension)
+		return nil, fmt.Errorf("mdp: grid: %d weights for %d labels: %w", len(w), len(g.names), ErrDimension)
 	}
 	for i, v := range w {
 		if math.IsNaN(v) || math.IsInf(v, 0) {
-			return nil, fmt.Errorf("mdp: grid: weight of %q: %w", g.names[i], linalg.ErrNonFinite)
+			return nil, fmt.Errorf("mdp: grid: weight of %q: %w", g.names[i], ErrNonFinite)
 		}
 	}
 	w = slices.Clone(w)
@@ -386,14 +387,14 @@ func (g *Grid) PlaceReward(w []float64) (Reward, error) {
 }
 
 // Weights returns the weight vector over LabelNames with the given
-// entries by name (others 0). It returns an error wrapping ErrInvalid for
+// entries by name (others 0). It returns an error wrapping ErrConfig for
 // an unknown name.
 func (g *Grid) Weights(byName map[string]float64) ([]float64, error) {
 	w := make([]float64, len(g.names))
 	for name, v := range byName {
 		i, ok := g.LabelIndex(name)
 		if !ok {
-			return nil, fmt.Errorf("mdp: grid: unknown label %q: %w", name, ErrInvalid)
+			return nil, fmt.Errorf("mdp: grid: unknown label %q: %w", name, ErrConfig)
 		}
 		w[i] = v
 	}

@@ -141,8 +141,8 @@ func TestParseGridErrors(t *testing.T) {
 	} {
 		t.Run(tc.name, func(t *testing.T) {
 			_, err := ParseGrid(tc.layout, tc.opts)
-			if !errors.Is(err, ErrInvalid) {
-				t.Fatalf("error %v, want ErrInvalid", err)
+			if !errors.Is(err, ErrConfig) {
+				t.Fatalf("error %v, want ErrConfig", err)
 			}
 			var le *LayoutError
 			if tc.line > 0 {
@@ -182,7 +182,7 @@ func TestGridTerminalLabelsAndRewards(t *testing.T) {
 	if d := maxDiff(res.V, want); d > tolExact {
 		t.Errorf("V* = %v, want %v", res.V, want)
 	}
-	if _, err := g.Weights(map[string]float64{"nope": 1}); !errors.Is(err, ErrInvalid) {
+	if _, err := g.Weights(map[string]float64{"nope": 1}); !errors.Is(err, ErrConfig) {
 		t.Errorf("unknown weight name: %v", err)
 	}
 	if _, err := g.PlaceReward([]float64{1, 2}); !errors.Is(err, linalg.ErrDimension) {
@@ -275,7 +275,7 @@ func TestDepot(t *testing.T) {
 
 // FuzzParseGrid checks that ParseGrid never panics, that every accepted
 // layout gives a valid MDP whose coordinates round-trip, and that errors
-// wrap ErrInvalid.
+// wrap ErrConfig.
 func FuzzParseGrid(f *testing.F) {
 	f.Add(DepotLayout, 0.0, true)
 	f.Add("S.#\n.DT", 0.1, false)
@@ -289,8 +289,8 @@ func FuzzParseGrid(f *testing.F) {
 		}
 		g, err := ParseGrid(layout, &GridOptions{Labels: labels, Slip: slip, Stay: stay, Terminal: []string{"dock"}})
 		if err != nil {
-			if !errors.Is(err, ErrInvalid) {
-				t.Fatalf("error %v does not wrap ErrInvalid", err)
+			if !errors.Is(err, ErrConfig) {
+				t.Fatalf("error %v does not wrap ErrConfig", err)
 			}
 			return
 		}

@@ -82,9 +82,9 @@ type Solver struct {
 //
 // gamma = 1 is allowed when every state reaches a terminal state with
 // positive probability under pi (an absorbing chain); otherwise the error
-// wraps both linalg.ErrDiscount and linalg.ErrNotAbsorbing. Other errors
-// wrap ErrInvalid (nil mdp, policy or reward), linalg.ErrDiscount (gamma
-// outside [0, 1] or NaN), linalg.ErrNonFinite (a non-finite reward or
+// wraps both ErrDiscount and linalg.ErrNotAbsorbing. Other errors
+// wrap ErrConfig (nil mdp, policy or reward), ErrDiscount (gamma
+// outside [0, 1] or NaN), ErrNonFinite (a non-finite reward or
 // result), linalg.ErrNotStochastic (pi is not a distribution),
 // linalg.ErrSingular, or linalg.ErrNotConverged (iterative solver).
 //
@@ -100,7 +100,7 @@ func Evaluate(m *Finite, pi Policy, r Reward, gamma float64) (*Values, error) {
 
 // EvaluateExpected is Evaluate with the expected reward rbar[s*A + a] =
 // sum_{s'} P(s'|s,a) r(s,a,s') given directly. Entries of terminal states
-// are ignored. It returns an error wrapping linalg.ErrDimension if
+// are ignored. It returns an error wrapping ErrDimension if
 // len(rbar) != NumStates*NumActions.
 func EvaluateExpected(m *Finite, pi Policy, rbar []float64, gamma float64) (*Values, error) {
 	return (*Solver)(nil).EvaluateExpected(m, pi, rbar, gamma)
@@ -134,14 +134,14 @@ func (o *Solver) EvaluateExpected(m *Finite, pi Policy, rbar []float64, gamma fl
 
 // ExpectedReward returns rbar[s*A + a] = sum_{s'} P(s'|s,a) r(s,a,s') for
 // every non-terminal state (terminal rows are zero; r is not called
-// there). The error wraps linalg.ErrNonFinite if r returns NaN or an
-// infinity, or ErrInvalid if r is nil.
+// there). The error wraps ErrNonFinite if r returns NaN or an
+// infinity, or ErrConfig if r is nil.
 func ExpectedReward(m *Finite, r Reward) ([]float64, error) {
 	if m == nil {
-		return nil, fmt.Errorf("mdp: expected reward: nil mdp: %w", ErrInvalid)
+		return nil, fmt.Errorf("mdp: expected reward: nil mdp: %w", ErrConfig)
 	}
 	if r == nil {
-		return nil, fmt.Errorf("mdp: expected reward: nil reward: %w", ErrInvalid)
+		return nil, fmt.Errorf("mdp: expected reward: nil reward: %w", ErrConfig)
 	}
 	rbar := make([]float64, m.n*m.a)
 	for s := 0; s < m.n; s++ {
@@ -154,7 +154,7 @@ func ExpectedReward(m *Finite, r Reward) ([]float64, error) {
 			for k, j := range next {
 				v := r(s, a, j)
 				if math.IsNaN(v) || math.IsInf(v, 0) {
-					return nil, fmt.Errorf("mdp: reward r(%d,%d,%d) = %v: %w", s, a, j, v, linalg.ErrNonFinite)
+					return nil, fmt.Errorf("mdp: reward r(%d,%d,%d) = %v: %w", s, a, j, v, ErrNonFinite)
 				}
 				sum += prob[k] * v
 			}
@@ -166,20 +166,20 @@ func ExpectedReward(m *Finite, r Reward) ([]float64, error) {
 
 func checkProblem(m *Finite, rbar []float64, gamma float64) error {
 	if m == nil {
-		return fmt.Errorf("nil mdp: %w", ErrInvalid)
+		return fmt.Errorf("nil mdp: %w", ErrConfig)
 	}
 	if !(gamma >= 0 && gamma <= 1) {
-		return fmt.Errorf("gamma %v outside [0, 1]: %w", gamma, linalg.ErrDiscount)
+		return fmt.Errorf("gamma %v outside [0, 1]: %w", gamma, ErrDiscount)
 	}
 	if len(rbar) != m.n*m.a {
-		return fmt.Errorf("expected reward has length %d, want %d: %w", len(rbar), m.n*m.a, linalg.ErrDimension)
+		return fmt.Errorf("expected reward has length %d, want %d: %w", len(rbar), m.n*m.a, ErrDimension)
 	}
 	for i, v := range rbar {
 		if m.terminal[i/m.a] {
 			continue
 		}
 		if math.IsNaN(v) || math.IsInf(v, 0) {
-			return fmt.Errorf("expected reward of state %d action %d: %w", i/m.a, i%m.a, linalg.ErrNonFinite)
+			return fmt.Errorf("expected reward of state %d action %d: %w", i/m.a, i%m.a, ErrNonFinite)
 		}
 	}
 	return nil
@@ -203,7 +203,7 @@ func (o *Solver) evaluate(m *Finite, tab, rbar []float64, gamma float64, init []
 	}
 	if gamma == 1 {
 		if s := linalg.CannotReach(p, m.terminal); s >= 0 {
-			return nil, fmt.Errorf("gamma = 1 but state %d never reaches a terminal state under the policy: %w (%w)", s, linalg.ErrDiscount, linalg.ErrNotAbsorbing)
+			return nil, fmt.Errorf("gamma = 1 but state %d never reaches a terminal state under the policy: %w (%w)", s, ErrDiscount, linalg.ErrNotAbsorbing)
 		}
 	}
 	v := make([]float64, n)
@@ -217,7 +217,7 @@ func (o *Solver) evaluate(m *Finite, tab, rbar []float64, gamma float64, init []
 	}
 	for s, x := range v {
 		if math.IsNaN(x) || math.IsInf(x, 0) {
-			return nil, fmt.Errorf("value of state %d is %v: %w", s, x, linalg.ErrNonFinite)
+			return nil, fmt.Errorf("value of state %d is %v: %w", s, x, ErrNonFinite)
 		}
 		if m.terminal[s] {
 			v[s] = 0
@@ -380,7 +380,7 @@ const MaxPolicyIterations = 1000
 //
 // With gamma = 1, policy iteration starts from a policy that reaches a
 // terminal state from every state (built backwards from the terminal
-// states); the error wraps linalg.ErrDiscount (and
+// states); the error wraps ErrDiscount (and
 // linalg.ErrNotAbsorbing) if some state cannot reach a terminal state at
 // all, or if an improvement step leads to a policy that
 // never terminates (the optimum is unbounded, e.g. a positive-reward
@@ -425,7 +425,7 @@ func (o *Solver) OptimalExpected(m *Finite, rbar []float64, gamma float64) (*Opt
 		var bad int
 		pol, bad = m.properPolicy()
 		if bad >= 0 {
-			return nil, fmt.Errorf("mdp: optimal: gamma = 1 but state %d cannot reach a terminal state: %w (%w)", bad, linalg.ErrDiscount, linalg.ErrNotAbsorbing)
+			return nil, fmt.Errorf("mdp: optimal: gamma = 1 but state %d cannot reach a terminal state: %w (%w)", bad, ErrDiscount, linalg.ErrNotAbsorbing)
 		}
 	}
 	tab := make([]float64, n*na)
@@ -446,7 +446,7 @@ func (o *Solver) OptimalExpected(m *Finite, rbar []float64, gamma float64) (*Opt
 		var err error
 		vals, err = o.evaluate(m, tab, rbar, gamma, prev)
 		if err != nil {
-			if gamma == 1 && errors.Is(err, linalg.ErrDiscount) {
+			if gamma == 1 && errors.Is(err, ErrDiscount) {
 				return nil, fmt.Errorf("mdp: optimal: policy iteration reached a policy that never terminates, the optimum is unbounded or undefined at gamma = 1: %w", err)
 			}
 			return nil, fmt.Errorf("mdp: optimal: iteration %d: %w", it, err)

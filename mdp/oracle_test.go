@@ -485,9 +485,9 @@ func TestOracleErrors(t *testing.T) {
 		run  func() error
 		want error
 	}{
-		{"nil mdp", func() error { _, err := Evaluate(nil, Uniform{2}, walkR, 0.9); return err }, ErrInvalid},
-		{"nil reward", func() error { _, err := Evaluate(walk, Uniform{2}, nil, 0.9); return err }, ErrInvalid},
-		{"nil policy", func() error { _, err := Evaluate(walk, nil, walkR, 0.9); return err }, ErrInvalid},
+		{"nil mdp", func() error { _, err := Evaluate(nil, Uniform{2}, walkR, 0.9); return err }, ErrConfig},
+		{"nil reward", func() error { _, err := Evaluate(walk, Uniform{2}, nil, 0.9); return err }, ErrConfig},
+		{"nil policy", func() error { _, err := Evaluate(walk, nil, walkR, 0.9); return err }, ErrConfig},
 		{"gamma NaN", func() error { _, err := Evaluate(walk, Uniform{2}, walkR, math.NaN()); return err }, linalg.ErrDiscount},
 		{"gamma > 1", func() error { _, err := Evaluate(walk, Uniform{2}, walkR, 1.5); return err }, linalg.ErrDiscount},
 		{"gamma < 0", func() error { _, err := Evaluate(walk, Uniform{2}, walkR, -0.1); return err }, linalg.ErrDiscount},
@@ -528,7 +528,7 @@ func TestOracleErrors(t *testing.T) {
 			_, err := Optimal(m, func(s, a, next int) float64 { return float64(a / 2) }, 1)
 			return err
 		}, linalg.ErrDiscount},
-		{"optimal nil reward", func() error { _, err := Optimal(walk, nil, 0.9); return err }, ErrInvalid},
+		{"optimal nil reward", func() error { _, err := Optimal(walk, nil, 0.9); return err }, ErrConfig},
 		{"optimal bad gamma", func() error { _, err := Optimal(walk, walkR, 2); return err }, linalg.ErrDiscount},
 		{"chain bad policy", func() error { _, err := walk.ChainOf(badPolicy{}); return err }, linalg.ErrNotStochastic},
 		{"state-action chain bad policy", func() error { _, err := walk.StateActionChainOf(badPolicy{}); return err }, linalg.ErrNotStochastic},

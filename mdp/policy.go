@@ -64,12 +64,12 @@ const PolicyTol = 1e-9
 // NewTable returns a stochastic table policy over numStates states and
 // numActions actions with pi(a | s) = probs[s*numActions + a]. probs is
 // copied. Every row must be finite, non-negative and sum to 1 within
-// PolicyTol; otherwise the error wraps linalg.ErrDimension,
-// linalg.ErrNonFinite or linalg.ErrNotStochastic.
+// PolicyTol; otherwise the error wraps ErrDimension,
+// ErrNonFinite or linalg.ErrNotStochastic.
 func NewTable(numStates, numActions int, probs []float64) (*Table, error) {
 	if numStates <= 0 || numActions <= 0 || len(probs) != numStates*numActions {
 		return nil, fmt.Errorf("mdp: table policy: %d probabilities for %d states x %d actions: %w",
-			len(probs), numStates, numActions, linalg.ErrDimension)
+			len(probs), numStates, numActions, ErrDimension)
 	}
 	for s := 0; s < numStates; s++ {
 		if err := checkDist(probs[s*numActions : (s+1)*numActions]); err != nil {
@@ -230,7 +230,7 @@ func checkDist(p []float64) error {
 	var sum float64
 	for i, v := range p {
 		if math.IsNaN(v) || math.IsInf(v, 0) {
-			return fmt.Errorf("entry %d: %w", i, linalg.ErrNonFinite)
+			return fmt.Errorf("entry %d: %w", i, ErrNonFinite)
 		}
 		if v < 0 {
 			return fmt.Errorf("entry %d = %v negative: %w", i, v, linalg.ErrNotStochastic)

@@ -4,8 +4,6 @@ import (
 	"fmt"
 	"math"
 	"math/rand/v2"
-
-	"github.com/successor-go/successor/linalg"
 )
 
 // RandomConfig configures RandomFinite. The zero value means the
@@ -31,7 +29,7 @@ type RandomConfig struct {
 // from the flat Dirichlet distribution (normalised exponentials); the
 // terminal states are drawn uniformly; the start distribution is uniform
 // over the non-terminal states. The same rng state gives the same MDP.
-// The error wraps linalg.ErrDimension for negative sizes or a
+// The error wraps ErrDimension for negative sizes or a
 // TerminalFraction outside [0, 1).
 func RandomFinite(rng *rand.Rand, cfg RandomConfig) (*Finite, error) {
 	n, na, b := cfg.States, cfg.Actions, cfg.Branching
@@ -45,10 +43,10 @@ func RandomFinite(rng *rand.Rand, cfg RandomConfig) (*Finite, error) {
 		b = 3
 	}
 	if n < 0 || na < 0 || b < 0 || !(cfg.TerminalFraction >= 0 && cfg.TerminalFraction < 1) {
-		return nil, fmt.Errorf("mdp: random: bad config %+v: %w", cfg, linalg.ErrDimension)
+		return nil, fmt.Errorf("mdp: random: bad config %+v: %w", cfg, ErrDimension)
 	}
 	if n > MaxRows/na {
-		return nil, fmt.Errorf("mdp: random: %d states x %d actions too large: %w", n, na, linalg.ErrDimension)
+		return nil, fmt.Errorf("mdp: random: %d states x %d actions too large: %w", n, na, ErrDimension)
 	}
 	pool := n
 	if !cfg.SelfLoops && n > 1 {

@@ -245,17 +245,17 @@ func TestNewErrors(t *testing.T) {
 		{"start length", 2, 1, ok, []bool{false, true}, []float64{1}, linalg.ErrDimension},
 		{"start NaN", 2, 1, ok, []bool{false, true}, []float64{math.NaN(), 0}, linalg.ErrNonFinite},
 		{"start negative", 2, 1, ok, []bool{false, true}, []float64{1.5, -0.5}, linalg.ErrNotStochastic},
-		{"start empty", 2, 1, ok, []bool{false, true}, []float64{0, 0}, ErrInvalid},
+		{"start empty", 2, 1, ok, []bool{false, true}, []float64{0, 0}, ErrConfig},
 		{"start sum", 2, 1, ok, []bool{false, true}, []float64{0.5, 0}, linalg.ErrNotStochastic},
-		{"state range", 2, 1, []Transition{{0, 0, 2, 1}}, []bool{false, true}, []float64{1, 0}, ErrInvalid},
-		{"negative state", 2, 1, []Transition{{-1, 0, 1, 1}}, []bool{false, true}, []float64{1, 0}, ErrInvalid},
-		{"action range", 2, 1, []Transition{{0, 1, 1, 1}}, []bool{false, true}, []float64{1, 0}, ErrInvalid},
+		{"state range", 2, 1, []Transition{{0, 0, 2, 1}}, []bool{false, true}, []float64{1, 0}, ErrConfig},
+		{"negative state", 2, 1, []Transition{{-1, 0, 1, 1}}, []bool{false, true}, []float64{1, 0}, ErrConfig},
+		{"action range", 2, 1, []Transition{{0, 1, 1, 1}}, []bool{false, true}, []float64{1, 0}, ErrConfig},
 		{"prob NaN", 2, 1, []Transition{{0, 0, 1, math.NaN()}}, []bool{false, true}, []float64{1, 0}, linalg.ErrNonFinite},
 		{"prob negative", 2, 1, []Transition{{0, 0, 1, 1.5}, {0, 0, 0, -0.5}}, []bool{false, true}, []float64{1, 0}, linalg.ErrNotStochastic},
 		{"row sum", 2, 1, []Transition{{0, 0, 1, 0.5}}, []bool{false, true}, []float64{1, 0}, linalg.ErrNotStochastic},
 		{"missing row", 2, 2, ok, []bool{false, true}, []float64{1, 0}, linalg.ErrNotStochastic},
-		{"terminal mass", 2, 1, []Transition{{0, 0, 1, 1}, {1, 0, 0, 1}}, []bool{false, true}, []float64{1, 0}, ErrInvalid},
-		{"terminal half loop", 2, 1, []Transition{{0, 0, 1, 1}, {1, 0, 1, 0.5}}, []bool{false, true}, []float64{1, 0}, ErrInvalid},
+		{"terminal mass", 2, 1, []Transition{{0, 0, 1, 1}, {1, 0, 0, 1}}, []bool{false, true}, []float64{1, 0}, ErrConfig},
+		{"terminal half loop", 2, 1, []Transition{{0, 0, 1, 1}, {1, 0, 1, 0.5}}, []bool{false, true}, []float64{1, 0}, ErrConfig},
 	} {
 		t.Run(tc.name, func(t *testing.T) {
 			_, err := New(tc.n, tc.na, tc.tr, tc.term, tc.start)

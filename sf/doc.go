@@ -77,17 +77,21 @@
 // # Files
 //
 // Table.Save and Linear.Save write the file atomically (a temporary file in
-// the same directory, synced, then renamed). The format, all little-endian:
+// the same directory, synced, then renamed; mode 0644). The format is the
+// library's framing (package internal/fileio), all little-endian:
 //
 //	offset  size  content
-//	0       8     magic: "SFTABLE\x00" (Table) or "SFLINEAR" (Linear)
-//	8       4     format version, uint32 (currently 1)
-//	12      24    three sizes, uint64: S, A, D (Table) or A, D, M (Linear)
-//	36      8n    the n = S*A*D (or A*D*M) values as IEEE-754 float64 bits,
+//	0       4     magic: "SFTB" (Table) or "SFLN" (Linear)
+//	4       4     format version, uint32 (currently 2)
+//	8       8     payload length, uint64: 24 + 8n
+//	16      24    three sizes, int64: S, A, D (Table) or A, D, M (Linear)
+//	40      8n    the n = S*A*D (or A*D*M) values as IEEE-754 float64 bits,
 //	              in the order of Table.Data or Linear.W
-//	36+8n   4     CRC-32 (IEEE polynomial) of bytes [0, 36+8n)
+//	40+8n   4     CRC-32C (Castagnoli polynomial) of bytes [0, 40+8n)
 //
-// Values round-trip bit for bit. LoadTable and LoadLinear reject a file
-// whose magic, version, length or checksum is wrong with an error wrapping
-// ErrCorrupt, never returning a wrong table.
+// Values round-trip bit for bit, non-finite ones included (a diverged
+// table can be saved for inspection). LoadTable and LoadLinear reject a
+// file whose magic, version, length, sizes or checksum is wrong with an
+// error wrapping ErrCorrupt, never returning a wrong table; sizes are
+// checked against the bytes present before anything is allocated.
 package sf

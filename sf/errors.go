@@ -4,28 +4,35 @@ import (
 	"errors"
 	"fmt"
 
-	"github.com/successor-go/successor/linalg"
+	"github.com/successor-go/successor/internal/errs"
 )
 
 // Sentinel errors. Errors returned by this package wrap one of these (or a
-// linalg sentinel for a failed solve), so callers can branch with errors.Is.
+// linalg sentinel for a failed solve or a policy that is not a
+// distribution), so callers can branch with errors.Is. All but
+// ErrZeroVector are the library's shared sentinels: linalg, mdp, gpi and
+// the other packages re-export the same values under the same names, so
+// errors.Is(err, sf.ErrDimension) and errors.Is(err, linalg.ErrDimension)
+// are the same test.
 var (
-	// ErrDimension: sizes of arguments do not agree. It is linalg's
-	// sentinel, so errors.Is works across the two packages.
-	ErrDimension = linalg.ErrDimension
+	// ErrDimension: sizes of arguments do not agree.
+	ErrDimension = errs.Dimension
 	// ErrNonFinite: an input or a learned value is NaN or infinite.
-	ErrNonFinite = linalg.ErrNonFinite
+	ErrNonFinite = errs.NonFinite
 	// ErrDiscount: a discount factor is outside its allowed range.
-	ErrDiscount = linalg.ErrDiscount
+	ErrDiscount = errs.Discount
+	// ErrConfig: a settings field or a parameter has an invalid value (a
+	// step size, a trace, a target, a regularisation strength, a missing
+	// policy or task).
+	ErrConfig = errs.Config
 	// ErrDiverged: a learner produced a non-finite value.
-	ErrDiverged = errors.New("diverged")
-	// ErrCorrupt: a saved file is truncated, altered or not of this format.
-	ErrCorrupt = errors.New("corrupt file")
+	ErrDiverged = errs.Diverged
+	// ErrCorrupt: saved data are truncated, altered, of another format or
+	// version, or out of range.
+	ErrCorrupt = errs.Corrupt
 	// ErrZeroVector: a vector of zero length cannot be projected to the
 	// unit sphere.
 	ErrZeroVector = errors.New("zero vector")
-	// ErrSettings: a settings field has an invalid value.
-	ErrSettings = errors.New("invalid settings")
 )
 
 // DivergenceError reports the update at which a learner first produced a

@@ -81,7 +81,7 @@ type TDLambda struct {
 
 // NewTDLambda returns a TD(lambda) learner updating t in place for the
 // features phi and discount gamma in [0, 1]. Errors wrap ErrDiscount,
-// ErrDimension or ErrSettings (lambda outside [0, 1], an unknown trace, a
+// ErrDimension or ErrConfig (lambda outside [0, 1], an unknown trace, a
 // bad step).
 func NewTDLambda(t *Table, phi FeatureMap, gamma float64, s *LambdaSettings) (*TDLambda, error) {
 	if s == nil {
@@ -91,10 +91,10 @@ func NewTDLambda(t *Table, phi FeatureMap, gamma float64, s *LambdaSettings) (*T
 		return nil, fmt.Errorf("sf: td lambda: gamma %v outside [0, 1]: %w", gamma, ErrDiscount)
 	}
 	if !(s.Lambda >= 0 && s.Lambda <= 1) {
-		return nil, fmt.Errorf("sf: td lambda: lambda %v outside [0, 1]: %w", s.Lambda, ErrSettings)
+		return nil, fmt.Errorf("sf: td lambda: lambda %v outside [0, 1]: %w", s.Lambda, ErrConfig)
 	}
 	if s.Trace != Accumulating && s.Trace != Replacing {
-		return nil, fmt.Errorf("sf: td lambda: unknown trace %d: %w", int(s.Trace), ErrSettings)
+		return nil, fmt.Errorf("sf: td lambda: unknown trace %d: %w", int(s.Trace), ErrConfig)
 	}
 	if phi.Dim() != t.D || len(t.Data) != t.S*t.A*t.D {
 		return nil, fmt.Errorf("sf: td lambda: features of dimension %d for a table of %d: %w", phi.Dim(), t.D, ErrDimension)
@@ -108,7 +108,7 @@ func NewTDLambda(t *Table, phi FeatureMap, gamma float64, s *LambdaSettings) (*T
 		cut = 1e-4
 	}
 	if math.IsNaN(cut) {
-		return nil, fmt.Errorf("sf: td lambda: cutoff NaN: %w", ErrSettings)
+		return nil, fmt.Errorf("sf: td lambda: cutoff NaN: %w", ErrConfig)
 	}
 	return &TDLambda{
 		Table:  t,

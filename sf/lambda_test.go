@@ -104,8 +104,8 @@ func TestTDLambdaErrorsAndAllocs(t *testing.T) {
 	tb, _ := NewTable(3, 2, 3)
 	phi := OneHotState{N: 3}
 	for _, s := range []*LambdaSettings{{Lambda: 1.5}, {Trace: 9}, {Step: StepSize{Power: 2}}} {
-		if _, err := NewTDLambda(tb, phi, 0.9, s); !errors.Is(err, ErrSettings) {
-			t.Errorf("%+v: err = %v, want ErrSettings", s, err)
+		if _, err := NewTDLambda(tb, phi, 0.9, s); !errors.Is(err, ErrConfig) {
+			t.Errorf("%+v: err = %v, want ErrConfig", s, err)
 		}
 	}
 	if _, err := NewTDLambda(tb, phi, 2, nil); !errors.Is(err, ErrDiscount) {

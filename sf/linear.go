@@ -173,7 +173,7 @@ func NewLinearTD(l *Linear, gamma float64, s *LinearTDSettings) (*LinearTD, erro
 	case Sampled:
 	case Expected:
 		if s.Policy == nil {
-			return nil, fmt.Errorf("sf: linear td: expected target without a policy: %w", ErrSettings)
+			return nil, fmt.Errorf("sf: linear td: expected target without a policy: %w", ErrConfig)
 		}
 		lt.policy = s.Policy
 	case Greedy:
@@ -182,7 +182,7 @@ func NewLinearTD(l *Linear, gamma float64, s *LinearTDSettings) (*LinearTD, erro
 		}
 		lt.task = append([]float64(nil), s.Task...)
 	default:
-		return nil, fmt.Errorf("sf: linear td: unknown target %d: %w", int(s.Target), ErrSettings)
+		return nil, fmt.Errorf("sf: linear td: unknown target %d: %w", int(s.Target), ErrConfig)
 	}
 	return lt, nil
 }

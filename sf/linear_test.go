@@ -147,7 +147,7 @@ func TestLinearAllocsAndErrors(t *testing.T) {
 		t.Errorf("NewLinear(0,1,1): err = %v", err)
 	}
 	lin, _ := NewLinear(3, 4, 6)
-	if _, err := NewLinearTD(lin, 0.9, &LinearTDSettings{Target: Expected}); !errors.Is(err, ErrSettings) {
+	if _, err := NewLinearTD(lin, 0.9, &LinearTDSettings{Target: Expected}); !errors.Is(err, ErrConfig) {
 		t.Errorf("no policy: err = %v", err)
 	}
 	if _, err := NewLinearTD(lin, 0.9, &LinearTDSettings{Target: Greedy, Task: []float64{1}}); !errors.Is(err, ErrDimension) {

@@ -2,11 +2,16 @@ package sf
 
 import (
 	"bytes"
+	"encoding/binary"
 	"errors"
+	"hash/crc32"
 	"math"
 	"os"
 	"path/filepath"
+	"runtime"
 	"testing"
+
+	"github.com/successor-go/successor/internal/fileio"
 )
 
 func sampleTable() *Table {
@@ -44,6 +49,11 @@ func TestSaveLoad(t *testing.T) {
 	got, err := LoadTable(path)
 	if err != nil {
 		t.Fatal(err)
+	}
+	if fi, err := os.Stat(path); err != nil {
+		t.Error(err)
+	} else if runtime.GOOS != "windows" && fi.Mode().Perm() != 0o644 {
+		t.Errorf("saved file has mode %v, want 0644", fi.Mode().Perm())
 	}
 	if got.S != tb.S || got.A != tb.A || got.D != tb.D || !sameBits(got.Data, tb.Data) {
 		t.Errorf("table round trip: got %+v, want %+v", got, tb)
@@ -108,8 +118,67 @@ func TestLoadCorrupt(t *testing.T) {
 	if tb.Data != nil {
 		t.Error("a failed load changed the table")
 	}
+	// Sizes out of range, with a valid checksum: each is refused before
+	// anything of their product is allocated.
+	for _, tc := range []struct {
+		name  string
+		sizes [3]uint64
+	}{
+		{"zero", [3]uint64{0, 3, 2}},
+		{"negative", [3]uint64{2, math.MaxUint64, 2}},
+		{"2^31-1", [3]uint64{1<<31 - 1, 3, 2}},
+		{"product overflows", [3]uint64{1 << 31, 1 << 31, 1 << 31}},
+	} {
+		if err := tb.UnmarshalBinary(withSizes(b, tc.sizes)); !errors.Is(err, ErrCorrupt) {
+			t.Errorf("sizes %s: err = %v, want ErrCorrupt", tc.name, err)
+		}
+	}
+	old := bytes.Clone(b)
+	old[4] = 1 // the previous format version
+	if err := tb.UnmarshalBinary(fileio.Reseal(old)); !errors.Is(err, ErrCorrupt) {
+		t.Errorf("version 1: err = %v, want ErrCorrupt", err)
+	}
 	if _, err := (&Table{S: 2, A: 2, D: 2, Data: make([]float64, 3)}).MarshalBinary(); !errors.Is(err, ErrDimension) {
 		t.Errorf("inconsistent table: err = %v, want ErrDimension", err)
+	}
+}
+
+// withSizes returns a copy of the record b with its three sizes replaced
+// and its checksum recomputed.
+func withSizes(b []byte, sizes [3]uint64) []byte {
+	c := bytes.Clone(b)
+	for i, n := range sizes {
+		binary.LittleEndian.PutUint64(c[fileio.HeaderLen+8*i:], n)
+	}
+	return fileio.Reseal(c)
+}
+
+// TestFileLayout checks a saved table byte by byte against the layout of
+// the package doc ("Files").
+func TestFileLayout(t *testing.T) {
+	tb := sampleTable()
+	b, err := tb.MarshalBinary()
+	if err != nil {
+		t.Fatal(err)
+	}
+	n := len(tb.Data)
+	if len(b) != 40+8*n+4 || cap(b) != len(b) {
+		t.Fatalf("%d bytes (capacity %d), want 40 + 8*%d + 4 allocated once", len(b), cap(b), n)
+	}
+	le := binary.LittleEndian
+	if string(b[:4]) != "SFTB" || le.Uint32(b[4:]) != 2 || le.Uint64(b[8:]) != uint64(24+8*n) {
+		t.Errorf("header % x", b[:16])
+	}
+	if le.Uint64(b[16:]) != 2 || le.Uint64(b[24:]) != 3 || le.Uint64(b[32:]) != 2 {
+		t.Errorf("sizes % x, want 2, 3, 2", b[16:40])
+	}
+	for i, v := range tb.Data {
+		if le.Uint64(b[40+8*i:]) != math.Float64bits(v) {
+			t.Errorf("value %d: bits %x, want %x", i, le.Uint64(b[40+8*i:]), math.Float64bits(v))
+		}
+	}
+	if le.Uint32(b[40+8*n:]) != crc32.Checksum(b[:40+8*n], crc32.MakeTable(crc32.Castagnoli)) {
+		t.Error("trailer is not the CRC-32C of the rest")
 	}
 }
 
@@ -122,20 +191,23 @@ func FuzzLoadTable(f *testing.F) {
 	small, _ := NewTable(1, 1, 1)
 	sb, _ := small.MarshalBinary()
 	f.Add(sb)
+	f.Add(withSizes(b, [3]uint64{1<<31 - 1, 3, 2}))
 	f.Fuzz(func(t *testing.T, data []byte) {
-		var tb Table
-		if err := tb.UnmarshalBinary(data); err != nil {
-			if !errors.Is(err, ErrCorrupt) {
-				t.Fatalf("error %v does not wrap ErrCorrupt", err)
+		for _, data := range [][]byte{data, fileio.Reseal(data)} {
+			var tb Table
+			if err := tb.UnmarshalBinary(data); err != nil {
+				if !errors.Is(err, ErrCorrupt) {
+					t.Fatalf("error %v does not wrap ErrCorrupt", err)
+				}
+				continue
 			}
-			return
-		}
-		out, err := tb.MarshalBinary()
-		if err != nil {
-			t.Fatal(err)
-		}
-		if !bytes.Equal(out, data) {
-			t.Fatal("accepted input does not re-encode to the same bytes")
+			out, err := tb.MarshalBinary()
+			if err != nil {
+				t.Fatal(err)
+			}
+			if !bytes.Equal(out, data) {
+				t.Fatal("accepted input does not re-encode to the same bytes")
+			}
 		}
 	})
 }
@@ -176,20 +248,23 @@ func FuzzLoadLinear(f *testing.F) {
 	b, _ := lin.MarshalBinary()
 	f.Add(b)
 	f.Add(b[:len(b)-1])
+	f.Add(withSizes(b, [3]uint64{2, 2, 1<<31 - 1}))
 	f.Fuzz(func(t *testing.T, data []byte) {
-		var l Linear
-		if err := l.UnmarshalBinary(data); err != nil {
-			if !errors.Is(err, ErrCorrupt) {
-				t.Fatalf("error %v does not wrap ErrCorrupt", err)
+		for _, data := range [][]byte{data, fileio.Reseal(data)} {
+			var l Linear
+			if err := l.UnmarshalBinary(data); err != nil {
+				if !errors.Is(err, ErrCorrupt) {
+					t.Fatalf("error %v does not wrap ErrCorrupt", err)
+				}
+				continue
 			}
-			return
-		}
-		out, err := l.MarshalBinary()
-		if err != nil {
-			t.Fatal(err)
-		}
-		if !bytes.Equal(out, data) {
-			t.Fatal("accepted input does not re-encode to the same bytes")
+			out, err := l.MarshalBinary()
+			if err != nil {
+				t.Fatal(err)
+			}
+			if !bytes.Equal(out, data) {
+				t.Fatal("accepted input does not re-encode to the same bytes")
+			}
 		}
 	})
 }

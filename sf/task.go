@@ -38,7 +38,7 @@ type TaskFit struct {
 // unprojected w.
 //
 // Errors wrap ErrDimension (len(dst) != d, len(rewards) != n, no samples),
-// ErrNonFinite, linalg.ErrBadParameter (lambda negative or not finite),
+// ErrNonFinite, ErrConfig (lambda negative or not finite),
 // linalg.ErrRankDeficient (lambda = 0 and phis without full column rank,
 // e.g. fewer samples than features) or ErrZeroVector. On error dst is
 // unchanged.
@@ -93,7 +93,7 @@ type TaskEstimator struct {
 // NewTaskEstimator returns an estimator of d task weights with ridge
 // strength lambda > 0 (recursive least squares starts from the prior
 // w = 0 with precision lambda; a small lambda such as 1e-6 approximates
-// plain least squares). Errors wrap ErrDimension or linalg.ErrBadParameter.
+// plain least squares). Errors wrap ErrDimension or ErrConfig.
 func NewTaskEstimator(d int, lambda float64, s *TaskSettings) (*TaskEstimator, error) {
 	r, err := linalg.NewRLS(d, lambda)
 	if err != nil {

@@ -157,7 +157,7 @@ func TestTaskErrors(t *testing.T) {
 	}{
 		{"dst length", make([]float64, 3), []float64{1, 2, 3}, 0, nil, ErrDimension},
 		{"rewards length", dst, []float64{1, 2}, 0, nil, ErrDimension},
-		{"negative lambda", dst, []float64{1, 2, 3}, -1, nil, linalg.ErrBadParameter},
+		{"negative lambda", dst, []float64{1, 2, 3}, -1, nil, ErrConfig},
 		{"zero vector", dst, []float64{0, 0, 0}, 0, &TaskSettings{Unit: true}, ErrZeroVector},
 		{"non-finite", dst, []float64{0, math.NaN(), 0}, 0, nil, ErrNonFinite},
 	} {
@@ -176,7 +176,7 @@ func TestTaskErrors(t *testing.T) {
 	if err := est.Observe([]float64{1, math.Inf(1)}, 0); !errors.Is(err, ErrNonFinite) {
 		t.Errorf("estimator non-finite: err = %v", err)
 	}
-	if _, err := NewTaskEstimator(2, 0, nil); !errors.Is(err, linalg.ErrBadParameter) {
+	if _, err := NewTaskEstimator(2, 0, nil); !errors.Is(err, ErrConfig) {
 		t.Errorf("estimator lambda 0: err = %v", err)
 	}
 }

@@ -70,10 +70,10 @@ type StepSize struct {
 
 func (st StepSize) resolve() (StepSize, error) {
 	if !(st.Power >= 0 && st.Power <= 1) {
-		return st, fmt.Errorf("step power %v outside [0, 1]: %w", st.Power, ErrSettings)
+		return st, fmt.Errorf("step power %v outside [0, 1]: %w", st.Power, ErrConfig)
 	}
 	if !(st.Alpha >= 0 && st.Alpha <= 1) {
-		return st, fmt.Errorf("step %v outside [0, 1]: %w", st.Alpha, ErrSettings)
+		return st, fmt.Errorf("step %v outside [0, 1]: %w", st.Alpha, ErrConfig)
 	}
 	if st.Alpha == 0 {
 		st.Alpha = 0.1
@@ -182,7 +182,7 @@ type TD struct {
 // NewTD returns a TD(0) learner updating t in place for the features phi and
 // discount gamma in [0, 1]. It returns an error wrapping ErrDiscount,
 // ErrDimension (phi.Dim() != t.D, a task or policy of the wrong size),
-// ErrSettings (a missing policy or task, an unknown target or a bad step)
+// ErrConfig (a missing policy or task, an unknown target or a bad step)
 // or linalg.ErrNotStochastic (a policy that is not a distribution).
 func NewTD(t *Table, phi FeatureMap, gamma float64, s *TDSettings) (*TD, error) {
 	if s == nil {
@@ -237,7 +237,7 @@ func NewTD(t *Table, phi FeatureMap, gamma float64, s *TDSettings) (*TD, error) 
 	case Sampled:
 	case Expected:
 		if s.Policy == nil {
-			return nil, fmt.Errorf("sf: td: expected target without a policy: %w", ErrSettings)
+			return nil, fmt.Errorf("sf: td: expected target without a policy: %w", ErrConfig)
 		}
 		p, err := policyProbs(t.S, t.A, s.Policy)
 		if err != nil {
@@ -249,7 +249,7 @@ func NewTD(t *Table, phi FeatureMap, gamma float64, s *TDSettings) (*TD, error) 
 			return nil, err
 		}
 	default:
-		return nil, fmt.Errorf("sf: td: unknown target %d: %w", int(s.Target), ErrSettings)
+		return nil, fmt.Errorf("sf: td: unknown target %d: %w", int(s.Target), ErrConfig)
 	}
 	return l, nil
 }

@@ -310,11 +310,11 @@ func TestTDSettingsErrors(t *testing.T) {
 	}{
 		{"gamma", phi, 1.1, nil, ErrDiscount},
 		{"dim", OneHotState{N: 4}, 0.9, nil, ErrDimension},
-		{"no policy", phi, 0.9, &TDSettings{Target: Expected}, ErrSettings},
+		{"no policy", phi, 0.9, &TDSettings{Target: Expected}, ErrConfig},
 		{"task length", phi, 0.9, &TDSettings{Target: Greedy, Task: []float64{1}}, ErrDimension},
-		{"step", phi, 0.9, &TDSettings{Step: StepSize{Alpha: 2}}, ErrSettings},
-		{"power", phi, 0.9, &TDSettings{Step: StepSize{Power: -1}}, ErrSettings},
-		{"target", phi, 0.9, &TDSettings{Target: 7}, ErrSettings},
+		{"step", phi, 0.9, &TDSettings{Step: StepSize{Alpha: 2}}, ErrConfig},
+		{"power", phi, 0.9, &TDSettings{Step: StepSize{Power: -1}}, ErrConfig},
+		{"target", phi, 0.9, &TDSettings{Target: 7}, ErrConfig},
 	} {
 		if _, err := NewTD(tb, tc.phi, tc.gamma, tc.set); !errors.Is(err, tc.want) {
 			t.Errorf("%s: err = %v, want %v", tc.name, err, tc.want)

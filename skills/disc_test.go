@@ -241,7 +241,7 @@ func TestUpdateDiverged(t *testing.T) {
 		}
 		copy(before, tc.p)
 		_, err := tc.d.Update([]float64{math.Inf(1), 0}, tc.z)
-		var de *DivergedError
+		var de *DivergenceError
 		if !errors.Is(err, ErrDiverged) || !errors.As(err, &de) || de.Step != 2 {
 			t.Errorf("%T: error %v, want divergence at step 2", tc.d, err)
 		}

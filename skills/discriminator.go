@@ -42,7 +42,7 @@ type Discriminator interface {
 	// Update takes one optimiser step on the mean negative log-likelihood
 	// -(1/n) sum_i log q(z_i | x_i) of a minibatch of n pairs, given as x
 	// (n rows of InDim, row-major) and z (n rows of ZDim), and returns the
-	// loss before the step. It returns a *DivergedError, and leaves the
+	// loss before the step. It returns a *DivergenceError, and leaves the
 	// weights unchanged, if the loss or the gradient is not finite. It
 	// panics if the lengths do not describe n >= 1 pairs.
 	Update(x, z []float64) (loss float64, err error)
@@ -190,14 +190,14 @@ func (c *core) step(loss float64, g []float64) error {
 		e := c.enc.(*linear)
 		norm := sparseClipNorm(g, e.rows, e.out, c.opt.ClipNorm)
 		if !isFinite(loss) || !isFinite(norm) {
-			return &DivergedError{Step: c.steps, Loss: loss}
+			return &DivergenceError{Step: c.steps, Loss: loss}
 		}
 		sparseAdamStep(c.adam, e.p, g, e.rows, e.out)
 		return nil
 	}
 	norm := nn.ClipNorm(g, c.opt.ClipNorm)
 	if !isFinite(loss) || !isFinite(norm) {
-		return &DivergedError{Step: c.steps, Loss: loss}
+		return &DivergenceError{Step: c.steps, Loss: loss}
 	}
 	c.adam.Step(c.enc.params(), g)
 	return nil

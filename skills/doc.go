@@ -60,7 +60,7 @@
 // dL/dlog kappa = kappa (A_d(kappa) - mean_i phi_i . z_i) with
 // A_d = I_{d/2}/I_{d/2-1} (VMFMeanLength); for the categorical family,
 // dL/dl_i = (q_i - z_i)/n. Updates return the loss, report a non-finite
-// loss or gradient as a *DivergedError naming the update, and allocate
+// loss or gradient as a *DivergenceError naming the update, and allocate
 // nothing once the scratch buffers have been sized by the first minibatch.
 //
 // # Mutual information
@@ -86,9 +86,11 @@
 //
 // # Saving
 //
-// Discriminators marshal to a documented binary format (magic, version,
-// CRC-32; see marshal.go) that round-trips weights, kappa and optimiser
-// state bit-exactly. Marshal and Unmarshal embed one in a larger
+// Discriminators marshal to a documented binary format (the library's
+// framing: magic, version, payload length, CRC-32C; payload in
+// marshal.go) that round-trips weights, kappa and optimiser state
+// bit-exactly; loaders refuse anything else with an error wrapping
+// ErrCorrupt. Marshal and Unmarshal embed one in a larger
 // checkpoint; Save writes a file atomically and Load reads it back.
 //
 // Discriminators and feature maps are not safe for concurrent use; Clone

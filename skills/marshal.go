@@ -1,261 +1,197 @@
 package skills
 
 import (
-	"encoding/binary"
 	"fmt"
-	"hash/crc32"
 	"math"
 	"math/rand/v2"
-	"os"
 
 	"github.com/successor-go/successor/internal/fileio"
 )
 
-// Binary format of a discriminator (versions 1 and 2), little-endian
-// throughout:
+// Binary format of a discriminator: a record of the library's framing
+// (package internal/fileio: magic "SKDS", format version 3, payload
+// length, payload, CRC-32C). The payload, little-endian, integers as
+// int64, floats as their IEEE-754 bits, flags as one byte (0 or 1):
 //
-//	magic      4 bytes "SKDS"
-//	version    uint32: 1 for dense Adam, 2 for any other optimiser
-//	kind       uint8: 1 = VMF, 2 = Softmax
-//	in         uint32   observation length
-//	zdim       uint32   d (VMF) or K (Softmax)
-//	layers     uint32   number of hidden layers h
-//	hidden     h x uint32 widths
-//	tanh       uint8 (0 or 1)
-//	maxBatch   uint32   Net.MaxBatch as configured
-//	optim      5 x float64: learn rate, beta1, beta2, eps, clip norm
-//	method     version 2 only: uint8 OptimMethod, never 0 (OptimAdam)
-//	steps      uint64   updates taken
-//	VMF only:  learnKappa uint8 (0 or 1), maxKappa float64, kappa float64
-//	           (log kappa when learned), kappa Adam step uint64, moments
-//	           m, v float64
-//	params     uint64 count P, then P x float64 (layer by layer, W then b)
-//	adam       step uint64, P x float64 first moments, P x float64 second
-//	crc        uint32 CRC-32 (IEEE) of every byte before it
+//	kind       one byte: 1 = VMF, 2 = Softmax
+//	in         observation length
+//	zdim       d (VMF) or K (Softmax)
+//	layers     number of hidden layers h
+//	hidden     h widths
+//	tanh       flag
+//	maxBatch   Net.MaxBatch as configured
+//	optim      5 floats: learn rate, beta1, beta2, eps, clip norm
+//	method     one byte: the OptimMethod
+//	steps      updates taken
+//	VMF only:  learnKappa flag, maxKappa, kappa (log kappa when learned),
+//	           the kappa Adam step and moments m, v
+//	params     the P parameters (P follows from the shape: layer by layer,
+//	           W then b)
+//	adam       step, then P first and P second moments
 //
-// Floats are stored as their IEEE-754 bits, so a round trip is bit-exact;
-// the loader accepts only finite values and rejects trailing bytes, so
-// MarshalBinary of a loaded value reproduces its input. Dense Adam is
-// written as version 1, unchanged, so files written before sparse Adam
-// existed load as they are and discriminators that do not use it write the
-// same bytes as before; version 2 adds the method byte, and a version 2
-// file naming dense Adam is rejected (its encoding is version 1). The sparse
-// optimiser keeps the same state as dense Adam (global step, moments).
+// Floats are stored as their bits, so a round trip is bit-exact; the
+// loader accepts only finite values and rejects trailing bytes, so
+// MarshalBinary of a loaded value reproduces its input. Versions 1 and 2
+// were this package's own framing (with a CRC-32 IEEE); their files are
+// refused as of another version. The sparse optimiser keeps the same
+// state as dense Adam (global step, moments).
 
 const (
 	fileMagic   = "SKDS"
-	fileVersion = 2
+	fileVersion = 3
 	kindVMF     = 1
 	kindSoftmax = 2
 )
 
-type enc []byte
-
-func (b enc) u8(v uint8) enc    { return append(b, v) }
-func (b enc) u32(v int) enc     { return binary.LittleEndian.AppendUint32(b, uint32(v)) }
-func (b enc) u64(v uint64) enc  { return binary.LittleEndian.AppendUint64(b, v) }
-func (b enc) f64(v float64) enc { return b.u64(math.Float64bits(v)) }
-func (b enc) floats(v []float64) enc {
-	for _, x := range v {
-		b = b.f64(x)
+// headerSize is the payload length before the weights, for the Encoder's
+// buffer.
+func headerSize(kind uint8, net *Net) int {
+	n := 1 + 8*3 + 8*len(net.Hidden) + 1 + 8 + 8*5 + 1 + 8
+	if kind == kindVMF {
+		n += 1 + 8*2 + 8 + 8*2
 	}
-	return b
-}
-func (b enc) flag(v bool) enc {
-	if v {
-		return b.u8(1)
-	}
-	return b.u8(0)
+	return n
 }
 
-type dec struct {
-	b   []byte
-	bad bool
-}
-
-func (d *dec) take(n int) []byte {
-	if d.bad || n > len(d.b) {
-		d.bad = true
-		return make([]byte, n)
-	}
-	p := d.b[:n]
-	d.b = d.b[n:]
-	return p
-}
-func (d *dec) u8() uint8    { return d.take(1)[0] }
-func (d *dec) u32() int     { return int(binary.LittleEndian.Uint32(d.take(4))) }
-func (d *dec) u64() uint64  { return binary.LittleEndian.Uint64(d.take(8)) }
-func (d *dec) f64() float64 { return math.Float64frombits(d.u64()) }
-func (d *dec) flag() bool {
-	v := d.u8()
-	if v > 1 {
-		d.bad = true
-	}
-	return v == 1
-}
-func (d *dec) floats(dst []float64) {
-	for i := range dst {
-		dst[i] = d.f64()
-	}
-}
-
-func appendHeader(b enc, kind uint8, c *core, in, zdim int, net *Net) enc {
-	b = append(b, fileMagic...)
-	version := 1
-	if c.opt.Method != OptimAdam {
-		version = 2
-	}
-	b = b.u32(version).u8(kind).u32(in).u32(zdim).u32(len(net.Hidden))
-	for _, h := range net.Hidden {
-		b = b.u32(h)
-	}
-	b = b.flag(net.Tanh).u32(net.MaxBatch)
+func newFileEncoder(kind uint8, c *core, in, zdim int, net *Net) *fileio.Encoder {
+	np := len(c.enc.params())
+	e := fileio.NewEncoder(fileMagic, fileVersion, headerSize(kind, net)+8*np+8+16*np)
+	e.Uint8(kind)
+	e.Int(in)
+	e.Int(zdim)
+	e.Int(len(net.Hidden))
+	e.Ints(net.Hidden)
+	e.Bool(net.Tanh)
+	e.Int(net.MaxBatch)
 	o := c.opt
-	b = b.f64(o.LearnRate).f64(o.Beta1).f64(o.Beta2).f64(o.Eps).f64(o.ClipNorm)
-	if version == 2 {
-		b = b.u8(uint8(o.Method))
+	e.Float64(o.LearnRate)
+	e.Float64(o.Beta1)
+	e.Float64(o.Beta2)
+	e.Float64(o.Eps)
+	e.Float64(o.ClipNorm)
+	e.Uint8(uint8(o.Method))
+	e.Int(c.steps)
+	return e
+}
+
+func sealWeights(what string, e *fileio.Encoder, c *core) ([]byte, error) {
+	e.Float64s(c.enc.params())
+	e.Int(c.adam.T)
+	e.Float64s(c.adam.M)
+	e.Float64s(c.adam.V)
+	b, err := e.Seal()
+	if err != nil {
+		return nil, fmt.Errorf("skills: save %s: %w", what, err)
 	}
-	return b.u64(uint64(c.steps))
-}
-
-func appendWeights(b enc, c *core) enc {
-	p := c.enc.params()
-	b = b.u64(uint64(len(p))).floats(p)
-	return b.u64(uint64(c.adam.T)).floats(c.adam.M).floats(c.adam.V)
-}
-
-func seal(b enc) []byte {
-	return binary.LittleEndian.AppendUint32(b, crc32.ChecksumIEEE(b))
+	return b, nil
 }
 
 // MarshalBinary encodes v exactly: configuration, weights, kappa and
-// optimiser state (format in marshal.go). It never fails.
+// optimiser state (format in marshal.go).
 func (v *VMF) MarshalBinary() ([]byte, error) {
-	b := appendHeader(nil, kindVMF, &v.core, v.InDim(), v.dim, &v.net)
-	b = b.flag(v.learn).f64(v.maxKappa)
+	e := newFileEncoder(kindVMF, &v.core, v.InDim(), v.dim, &v.net)
+	e.Bool(v.learn)
+	e.Float64(v.maxKappa)
 	if v.learn {
-		b = b.f64(v.rho[0])
+		e.Float64(v.rho[0])
 	} else {
-		b = b.f64(v.kappa)
+		e.Float64(v.kappa)
 	}
-	b = b.u64(uint64(v.kadam.T)).f64(v.kadam.M[0]).f64(v.kadam.V[0])
-	return seal(appendWeights(b, &v.core)), nil
+	e.Int(v.kadam.T)
+	e.Float64(v.kadam.M[0])
+	e.Float64(v.kadam.V[0])
+	return sealWeights("vmf", e, &v.core)
 }
 
 // MarshalBinary encodes c exactly: configuration, weights and optimiser
-// state (format in marshal.go). It never fails.
+// state (format in marshal.go).
 func (c *Softmax) MarshalBinary() ([]byte, error) {
-	b := appendHeader(nil, kindSoftmax, &c.core, c.InDim(), c.k, &c.net)
-	return seal(appendWeights(b, &c.core)), nil
+	e := newFileEncoder(kindSoftmax, &c.core, c.InDim(), c.k, &c.net)
+	return sealWeights("softmax", e, &c.core)
 }
 
 // header is the decoded common part of a saved discriminator.
 type header struct {
-	kind      uint8
-	in, zdim  int
-	net       Net
-	opt       Optim
-	steps     uint64
-	learn     bool
-	maxKappa  float64
-	kappa     float64
-	kt        uint64
-	km, kv    float64
-	remaining *dec
+	kind     uint8
+	in, zdim int
+	net      Net
+	opt      Optim
+	steps    int
+	learn    bool
+	maxKappa float64
+	kappa    float64
+	kt       int
+	km, kv   float64
+	d        *fileio.Decoder // positioned at the weights
 }
 
-func openData(data []byte) (*header, error) {
-	if len(data) < len(fileMagic)+4+4 {
-		return nil, fmt.Errorf("%d bytes: %w", len(data), ErrFormat)
+// openData checks the frame and decodes the header of data; what
+// prefixes the error messages.
+func openData(what string, data []byte) (*header, error) {
+	d, err := fileio.Open(what, data, fileMagic, fileVersion)
+	if err != nil {
+		return nil, err
 	}
-	if string(data[:len(fileMagic)]) != fileMagic {
-		return nil, fmt.Errorf("magic %q: %w", data[:len(fileMagic)], ErrFormat)
-	}
-	body := data[:len(data)-4]
-	if got, want := binary.LittleEndian.Uint32(data[len(data)-4:]), crc32.ChecksumIEEE(body); got != want {
-		return nil, fmt.Errorf("crc %08x, computed %08x: %w", got, want, ErrChecksum)
-	}
-	d := &dec{b: body[len(fileMagic):]}
-	version := d.u32()
-	if version < 1 || version > fileVersion {
-		return nil, fmt.Errorf("version %d (this code reads 1 to %d): %w", version, fileVersion, ErrVersion)
-	}
-	h := &header{remaining: d}
-	h.kind = d.u8()
-	h.in, h.zdim = d.u32(), d.u32()
-	nh := d.u32()
-	if d.bad || nh > maxHiddenLayers {
-		return nil, fmt.Errorf("%d hidden layers: %w", nh, ErrFormat)
-	}
-	if nh > 0 {
+	h := &header{d: d}
+	h.kind = d.Uint8("kind")
+	h.in, h.zdim = d.Size("in", 1, maxWidth), d.Size("zdim", 1, maxWidth)
+	if nh := d.Size("layers", 0, maxHiddenLayers); nh > 0 {
 		h.net.Hidden = make([]int, nh)
-		for i := range h.net.Hidden {
-			h.net.Hidden[i] = d.u32()
-		}
+		d.ReadInts("hidden", h.net.Hidden)
 	}
-	h.net.Tanh = d.flag()
-	h.net.MaxBatch = d.u32()
-	h.opt = Optim{LearnRate: d.f64(), Beta1: d.f64(), Beta2: d.f64(), Eps: d.f64(), ClipNorm: d.f64()}
-	if version == 2 {
-		h.opt.Method = OptimMethod(d.u8())
-		if !d.bad && h.opt.Method == OptimAdam {
-			return nil, fmt.Errorf("version 2 with dense adam, which is written as version 1: %w", ErrFormat)
-		}
+	h.net.Tanh = d.Bool("tanh")
+	h.net.MaxBatch = d.Size("max batch", 0, maxRowsNet)
+	h.opt = Optim{LearnRate: d.Float64("learn rate"), Beta1: d.Float64("beta1"), Beta2: d.Float64("beta2"),
+		Eps: d.Float64("eps"), ClipNorm: d.Float64("clip norm")}
+	h.opt.Method = OptimMethod(d.Uint8("method"))
+	h.steps = d.Size("steps", 0, math.MaxInt32)
+	switch h.kind {
+	case kindVMF:
+		h.learn = d.Bool("learn kappa")
+		h.maxKappa, h.kappa = d.Float64("max kappa"), d.Float64("kappa")
+		h.kt, h.km, h.kv = d.Size("kappa step", 0, math.MaxInt32), d.Float64("kappa m"), d.Float64("kappa v")
+	case kindSoftmax:
+	default:
+		d.Fail("kind", "%d is neither vmf (%d) nor softmax (%d)", h.kind, kindVMF, kindSoftmax)
 	}
-	h.steps = d.u64()
-	if h.kind == kindVMF {
-		h.learn = d.flag()
-		h.maxKappa, h.kappa = d.f64(), d.f64()
-		h.kt, h.km, h.kv = d.u64(), d.f64(), d.f64()
-	}
-	if d.bad {
-		return nil, fmt.Errorf("truncated header: %w", ErrFormat)
-	}
-	if h.kind != kindVMF && h.kind != kindSoftmax {
-		return nil, fmt.Errorf("kind %d: %w", h.kind, ErrFormat)
-	}
-	if h.steps > math.MaxInt32 || h.kt > math.MaxInt32 {
-		return nil, fmt.Errorf("step count %d: %w", max(h.steps, h.kt), ErrFormat)
+	if err := d.Err(); err != nil {
+		return nil, err
 	}
 	if err := h.net.check(); err != nil {
-		return nil, fmt.Errorf("%v: %w", err, ErrFormat)
+		return nil, d.Fail("net", "%v", err)
 	}
-	if h.in < 1 || h.in > maxWidth || h.zdim < 1 || h.zdim > maxWidth {
-		return nil, fmt.Errorf("sizes %d, %d: %w", h.in, h.zdim, ErrFormat)
-	}
-	// The parameter count follows from the shape; check it against the
-	// bytes left before allocating anything of that size.
-	var np uint64
-	prev := uint64(h.in)
+	// The parameter count follows from the shape (each size is at most
+	// maxWidth, so no product overflows); the parameters, their step and
+	// both moments must be exactly the bytes left, checked before
+	// anything of that size is allocated.
+	var np int
+	prev := h.in
 	for _, w := range append(append([]int(nil), h.net.Hidden...), h.zdim) {
-		np += prev*uint64(w) + uint64(w)
-		prev = uint64(w)
+		np += prev*w + w
+		prev = w
 	}
-	if uint64(len(d.b)) != 8+8*np+8+16*np {
-		return nil, fmt.Errorf("%d bytes left for %d parameters: %w", len(d.b), np, ErrFormat)
+	if d.Remaining() != 8*np+8+16*np {
+		return nil, d.Fail("weights", "%d bytes left for %d parameters, want %d", d.Remaining(), np, 8*np+8+16*np)
 	}
 	return h, nil
 }
 
 // readWeights fills the encoder parameters and Adam state of c.
 func (h *header) readWeights(c *core) error {
-	d := h.remaining
+	d := h.d
 	p := c.enc.params()
-	if n := d.u64(); n != uint64(len(p)) {
-		return fmt.Errorf("%d parameters, shape has %d: %w", n, len(p), ErrFormat)
+	d.ReadFloat64s("parameters", p)
+	t := d.Size("adam step", 0, math.MaxInt32)
+	d.ReadFloat64s("adam m", c.adam.M)
+	d.ReadFloat64s("adam v", c.adam.V)
+	if err := d.Finish(); err != nil {
+		return err
 	}
-	d.floats(p)
-	t := d.u64()
-	d.floats(c.adam.M)
-	d.floats(c.adam.V)
-	if d.bad || len(d.b) != 0 || t > math.MaxInt32 {
-		return fmt.Errorf("weights: %w", ErrFormat)
-	}
-	c.adam.T = int(t)
 	if !allFinite(p) || !allFinite(c.adam.M) || !allFinite(c.adam.V) {
-		return fmt.Errorf("weights: %w", ErrNonFinite)
+		return d.Fail("weights", "non-finite parameter or moment")
 	}
-	c.steps = int(h.steps)
+	c.adam.T = t
+	c.steps = h.steps
 	return nil
 }
 
@@ -265,28 +201,28 @@ func loadRNG() *rand.Rand { return rand.New(rand.NewPCG(0, 0)) }
 
 func (h *header) vmf() (*VMF, error) {
 	if h.kind != kindVMF {
-		return nil, fmt.Errorf("kind %d is not vmf: %w", h.kind, ErrFormat)
+		return nil, h.d.Fail("kind", "%d is not vmf", h.kind)
 	}
 	if !isFinite(h.maxKappa) || !isFinite(h.kappa) || !isFinite(h.km) || !isFinite(h.kv) {
-		return nil, fmt.Errorf("kappa: %w", ErrNonFinite)
+		return nil, h.d.Fail("kappa", "non-finite kappa or kappa moment")
 	}
 	c := VMFConfig{In: h.in, Dim: h.zdim, Net: h.net, Kappa: h.kappa, LearnKappa: h.learn, MaxKappa: h.maxKappa, Optim: h.opt}
 	if h.learn {
 		if !(h.kappa >= math.Log(minKappa) && h.kappa <= math.Log(h.maxKappa)) {
-			return nil, fmt.Errorf("log kappa %g: %w", h.kappa, ErrFormat)
+			return nil, h.d.Fail("kappa", "log kappa %g out of range", h.kappa)
 		}
 		c.Kappa = min(max(math.Exp(h.kappa), minKappa), c.MaxKappa) // for the range check only
 	}
 	v, err := buildVMF(&c, loadRNG())
 	if err != nil {
-		return nil, fmt.Errorf("%v: %w", err, ErrFormat)
+		return nil, h.d.Fail("configuration", "%v", err)
 	}
 	if h.learn {
 		v.rho[0] = h.kappa
 		v.kappa = math.Exp(h.kappa)
 		v.logNorm = VMFLogNorm(v.dim, v.kappa)
 	}
-	v.kadam.T, v.kadam.M[0], v.kadam.V[0] = int(h.kt), h.km, h.kv
+	v.kadam.T, v.kadam.M[0], v.kadam.V[0] = h.kt, h.km, h.kv
 	if err := h.readWeights(&v.core); err != nil {
 		return nil, err
 	}
@@ -295,12 +231,12 @@ func (h *header) vmf() (*VMF, error) {
 
 func (h *header) softmax() (*Softmax, error) {
 	if h.kind != kindSoftmax {
-		return nil, fmt.Errorf("kind %d is not softmax: %w", h.kind, ErrFormat)
+		return nil, h.d.Fail("kind", "%d is not softmax", h.kind)
 	}
 	c := SoftmaxConfig{In: h.in, K: h.zdim, Net: h.net, Optim: h.opt}
 	s, err := buildSoftmax(&c, loadRNG())
 	if err != nil {
-		return nil, fmt.Errorf("%v: %w", err, ErrFormat)
+		return nil, h.d.Fail("configuration", "%v", err)
 	}
 	if err := h.readWeights(&s.core); err != nil {
 		return nil, err
@@ -309,34 +245,33 @@ func (h *header) softmax() (*Softmax, error) {
 }
 
 // UnmarshalBinary replaces v with the VMF discriminator encoded by
-// MarshalBinary. It returns an error wrapping ErrFormat, ErrVersion,
-// ErrChecksum or ErrNonFinite if data is malformed, in which case v is
-// unchanged.
+// MarshalBinary. It returns an error wrapping ErrCorrupt if data is
+// malformed (a bad frame, another kind, sizes or settings out of range,
+// non-finite weights), in which case v is unchanged.
 func (v *VMF) UnmarshalBinary(data []byte) error {
-	h, err := openData(data)
+	h, err := openData("skills: load vmf", data)
 	if err != nil {
-		return fmt.Errorf("skills: load vmf: %w", err)
+		return err
 	}
 	w, err := h.vmf()
 	if err != nil {
-		return fmt.Errorf("skills: load vmf: %w", err)
+		return err
 	}
 	*v = *w
 	return nil
 }
 
 // UnmarshalBinary replaces c with the Softmax discriminator encoded by
-// MarshalBinary. It returns an error wrapping ErrFormat, ErrVersion,
-// ErrChecksum or ErrNonFinite if data is malformed, in which case c is
-// unchanged.
+// MarshalBinary. It returns an error wrapping ErrCorrupt if data is
+// malformed, in which case c is unchanged.
 func (c *Softmax) UnmarshalBinary(data []byte) error {
-	h, err := openData(data)
+	h, err := openData("skills: load softmax", data)
 	if err != nil {
-		return fmt.Errorf("skills: load softmax: %w", err)
+		return err
 	}
 	s, err := h.softmax()
 	if err != nil {
-		return fmt.Errorf("skills: load softmax: %w", err)
+		return err
 	}
 	*c = *s
 	return nil
@@ -355,42 +290,46 @@ func Marshal(d Discriminator) ([]byte, error) {
 }
 
 // Unmarshal decodes data written by Marshal (or either MarshalBinary) and
-// returns a *VMF or a *Softmax. It returns an error wrapping ErrFormat,
-// ErrVersion, ErrChecksum or ErrNonFinite if data is malformed.
+// returns a *VMF or a *Softmax. It returns an error wrapping ErrCorrupt if
+// data is malformed.
 func Unmarshal(data []byte) (Discriminator, error) {
-	h, err := openData(data)
+	h, err := openData("skills: unmarshal", data)
 	if err != nil {
-		return nil, fmt.Errorf("skills: unmarshal: %w", err)
+		return nil, err
 	}
-	var d Discriminator
 	if h.kind == kindVMF {
-		d, err = h.vmf()
-	} else {
-		d, err = h.softmax()
+		v, err := h.vmf()
+		if err != nil {
+			return nil, err
+		}
+		return v, nil
 	}
+	c, err := h.softmax()
 	if err != nil {
-		return nil, fmt.Errorf("skills: unmarshal: %w", err)
+		return nil, err
 	}
-	return d, nil
+	return c, nil
 }
 
 // Save writes Marshal(d) to path atomically: into a temporary file in the
 // same directory, synced, then renamed over path, so a crash leaves either
-// the old file or the new one. The file has mode 0600.
+// the old file or the new one. The file has mode 0644.
 func Save(path string, d Discriminator) error {
 	b, err := Marshal(d)
 	if err != nil {
 		return fmt.Errorf("skills: save: %w", err)
 	}
-	if err := fileio.WriteAtomic(path, b, 0o600); err != nil {
+	if err := fileio.WriteAtomic(path, b, fileio.FileMode); err != nil {
 		return fmt.Errorf("skills: save: %w", err)
 	}
 	return nil
 }
 
-// Load reads a discriminator written by Save.
+// Load reads a discriminator written by Save. A truncated, altered or
+// foreign file gives an error wrapping ErrCorrupt; a file that cannot be
+// read gives the os error.
 func Load(path string) (Discriminator, error) {
-	b, err := os.ReadFile(path)
+	b, err := fileio.ReadFile(path)
 	if err != nil {
 		return nil, fmt.Errorf("skills: load: %w", err)
 	}

@@ -4,12 +4,15 @@ import (
 	"bytes"
 	"encoding/binary"
 	"errors"
-	"hash/crc32"
 	"math"
 	"math/rand/v2"
 	"os"
 	"path/filepath"
+	"runtime"
+	"strings"
 	"testing"
+
+	"github.com/successor-go/successor/internal/fileio"
 )
 
 // trained returns a few discriminators of every kind after some updates,
@@ -70,6 +73,9 @@ func TestMarshalRoundTrip(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
+		if cap(b) != len(b) {
+			t.Errorf("%T: buffer of capacity %d for %d bytes, want one allocation at full size", d, cap(b), len(b))
+		}
 		e, err := Unmarshal(b)
 		if err != nil {
 			t.Fatalf("%T: %v", d, err)
@@ -115,6 +121,11 @@ func TestSaveLoad(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
+		if fi, err := os.Stat(path); err != nil {
+			t.Error(err)
+		} else if runtime.GOOS != "windows" && fi.Mode().Perm() != 0o644 {
+			t.Errorf("saved file has mode %v, want 0644", fi.Mode().Perm())
+		}
 		b1, _ := Marshal(d)
 		b2, _ := Marshal(e)
 		if !bytes.Equal(b1, b2) {
@@ -133,41 +144,50 @@ func TestSaveLoad(t *testing.T) {
 func TestUnmarshalErrors(t *testing.T) {
 	ds := trained(t)
 	good, _ := Marshal(ds[1])
-	reseal := func(b []byte) []byte {
-		b = append([]byte(nil), b[:len(b)-4]...)
-		return binary.LittleEndian.AppendUint32(b, crc32.ChecksumIEEE(b))
+	reseal := fileio.Reseal
+	mut := func(f func(b []byte)) []byte {
+		b := bytes.Clone(good)
+		f(b)
+		return b
 	}
-	flip := append([]byte(nil), good...)
-	flip[40] ^= 1
-	version := append([]byte(nil), good...)
-	version[4] = 3
-	kind := append([]byte(nil), good...)
-	kind[8] = 9
-	magic := append([]byte(nil), good...)
-	magic[0] = 'X'
+	const p = fileio.HeaderLen // payload offset
 	for _, tc := range []struct {
 		name string
 		b    []byte
-		want error
 	}{
-		{"empty", nil, ErrFormat},
-		{"magic", magic, ErrFormat},
-		{"flipped bit", flip, ErrChecksum},
-		{"truncated", good[:len(good)-9], ErrChecksum},
-		{"truncated, resealed", reseal(good[:len(good)-12]), ErrFormat},
-		{"version", reseal(version), ErrVersion},
-		{"kind", reseal(kind), ErrFormat},
-		{"trailing byte", reseal(append(append([]byte(nil), good[:len(good)-4]...), 0, 0, 0, 0, 0)), ErrFormat},
+		{"empty", nil},
+		{"magic", mut(func(b []byte) { b[0] = 'X' })},
+		{"flipped bit", mut(func(b []byte) { b[40] ^= 1 })},
+		{"truncated", good[:len(good)-9]},
+		{"truncated, resealed", reseal(good[:len(good)-12])},
+		{"version 2", reseal(mut(func(b []byte) { b[4] = 2 }))},
+		{"kind", reseal(mut(func(b []byte) { b[p] = 9 }))},
+		{"in 2^31-1", reseal(mut(func(b []byte) { binary.LittleEndian.PutUint64(b[p+1:], 1<<31-1) }))},
+		{"zdim 2^31-1", reseal(mut(func(b []byte) { binary.LittleEndian.PutUint64(b[p+9:], 1<<31-1) }))},
+		{"layers 2^31-1", reseal(mut(func(b []byte) { binary.LittleEndian.PutUint64(b[p+17:], 1<<31-1) }))},
+		{"negative steps", reseal(mut(func(b []byte) { binary.LittleEndian.PutUint64(b[p+25+1+8+40+1:], math.MaxUint64) }))},
+		{"trailing byte", reseal(append(bytes.Clone(good), 0))},
 	} {
-		if _, err := Unmarshal(tc.b); !errors.Is(err, tc.want) {
-			t.Errorf("%s: %v, want %v", tc.name, err, tc.want)
+		if _, err := Unmarshal(tc.b); !errors.Is(err, ErrCorrupt) {
+			t.Errorf("%s: %v, want ErrCorrupt", tc.name, err)
+		}
+	}
+	// Every truncation and every single-bit flip.
+	for n := range len(good) {
+		if _, err := Unmarshal(good[:n]); !errors.Is(err, ErrCorrupt) {
+			t.Fatalf("truncated to %d bytes: %v", n, err)
+		}
+	}
+	for i := range 8 * len(good) {
+		if _, err := Unmarshal(mut(func(b []byte) { b[i/8] ^= 1 << (i % 8) })); !errors.Is(err, ErrCorrupt) {
+			t.Fatalf("bit %d flipped: %v", i, err)
 		}
 	}
 	// Typed loaders reject the other kind and leave the receiver alone.
 	soft, _ := Marshal(ds[4])
 	v := ds[0].(*VMF)
 	before, _ := v.MarshalBinary()
-	if err := v.UnmarshalBinary(soft); !errors.Is(err, ErrFormat) {
+	if err := v.UnmarshalBinary(soft); !errors.Is(err, ErrCorrupt) {
 		t.Errorf("vmf from softmax bytes: %v", err)
 	}
 	after, _ := v.MarshalBinary()
@@ -175,18 +195,17 @@ func TestUnmarshalErrors(t *testing.T) {
 		t.Error("failed UnmarshalBinary changed the receiver")
 	}
 	var s Softmax
-	if err := s.UnmarshalBinary(good); !errors.Is(err, ErrFormat) {
+	if err := s.UnmarshalBinary(good); !errors.Is(err, ErrCorrupt) {
 		t.Errorf("softmax from vmf bytes: %v", err)
 	}
 	if err := s.UnmarshalBinary(soft); err != nil {
 		t.Errorf("softmax from its bytes: %v", err)
 	}
 	// Non-finite weights are refused.
-	nan := append([]byte(nil), good...)
-	i := bytes.Index(nan, nan[len(nan)-4-8*3:len(nan)-4-8*2]) // a second-moment value
-	binary.LittleEndian.PutUint64(nan[i:], math.Float64bits(math.NaN()))
-	if _, err := Unmarshal(reseal(nan)); !errors.Is(err, ErrNonFinite) {
-		t.Errorf("NaN moment: %v, want ErrNonFinite", err)
+	nan := bytes.Clone(good)
+	binary.LittleEndian.PutUint64(nan[len(nan)-4-8*2:], math.Float64bits(math.NaN())) // a second moment
+	if _, err := Unmarshal(reseal(nan)); !errors.Is(err, ErrCorrupt) || !strings.Contains(err.Error(), "non-finite") {
+		t.Errorf("NaN moment: %v, want ErrCorrupt naming the non-finite value", err)
 	}
 	if _, err := Marshal(fixedDisc{}); !errors.Is(err, ErrUnsupported) {
 		t.Errorf("Marshal of a foreign type: %v", err)
@@ -199,17 +218,25 @@ func FuzzUnmarshal(f *testing.F) {
 		f.Add(b)
 	}
 	f.Add([]byte("SKDS"))
-	f.Fuzz(func(t *testing.T, b []byte) {
-		d, err := Unmarshal(b)
-		if err != nil {
-			return
-		}
-		b2, err := Marshal(d)
-		if err != nil {
-			t.Fatal(err)
-		}
-		if !bytes.Equal(b, b2) {
-			t.Fatalf("round trip changed %d bytes into %d", len(b), len(b2))
+	b, _ := Marshal(trained(f)[0])
+	binary.LittleEndian.PutUint64(b[fileio.HeaderLen+1:], 1<<31-1) // in
+	f.Add(fileio.Reseal(b))
+	f.Fuzz(func(t *testing.T, data []byte) {
+		for _, b := range [][]byte{data, fileio.Reseal(data)} {
+			d, err := Unmarshal(b)
+			if err != nil {
+				if !errors.Is(err, ErrCorrupt) {
+					t.Fatalf("error %v does not wrap ErrCorrupt", err)
+				}
+				continue
+			}
+			b2, err := Marshal(d)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if !bytes.Equal(b, b2) {
+				t.Fatalf("round trip changed %d bytes into %d", len(b), len(b2))
+			}
 		}
 	})
 }

@@ -1,13 +1,14 @@
 package skills
 
 import (
+	"bytes"
 	"encoding/binary"
 	"errors"
-	"hash/crc32"
 	"math"
 	"math/rand/v2"
 	"testing"
 
+	"github.com/successor-go/successor/internal/fileio"
 	"github.com/successor-go/successor/internal/nn"
 )
 
@@ -226,36 +227,38 @@ func TestSparseConfigAndFormat(t *testing.T) {
 	if _, err := NewSoftmax(&SoftmaxConfig{In: 4, K: 3, Optim: Optim{Method: 7}}, rng); !errors.Is(err, ErrConfig) {
 		t.Errorf("optimiser 7: %v, want ErrConfig", err)
 	}
-	// Dense Adam is written as version 1, sparse Adam as version 2.
+	// Both optimisers are written as format version 3 with the method
+	// byte; each round-trips.
 	de, sp := sparsePair(t, "softmax", Optim{})
 	bd, _ := Marshal(de)
 	bs, _ := Marshal(sp)
-	if v := binary.LittleEndian.Uint32(bd[4:]); v != 1 {
-		t.Errorf("dense adam written as version %d, want 1", v)
+	for _, b := range [][]byte{bd, bs} {
+		if v := binary.LittleEndian.Uint32(b[4:]); v != 3 {
+			t.Errorf("written as version %d, want 3", v)
+		}
 	}
-	if v := binary.LittleEndian.Uint32(bs[4:]); v != 2 {
-		t.Errorf("sparse adam written as version %d, want 2", v)
+	for _, tc := range []struct {
+		b    []byte
+		want OptimMethod
+	}{{bd, OptimAdam}, {bs, OptimSparseAdam}} {
+		e, err := Unmarshal(tc.b)
+		if err != nil || discCore(e).opt.Method != tc.want {
+			t.Fatalf("%v round trip: %v", tc.want, err)
+		}
 	}
-	e, err := Unmarshal(bs)
-	if err != nil || discCore(e).opt.Method != OptimSparseAdam {
-		t.Fatalf("sparse round trip: %v", err)
+	// Payload of a linear softmax: kind 1, in 8, zdim 8, layers 8, tanh 1,
+	// maxBatch 8, optim 40: the method byte follows, after the 16-byte
+	// header.
+	const at = fileio.HeaderLen + 1 + 8 + 8 + 8 + 1 + 8 + 40
+	if bs[at] != uint8(OptimSparseAdam) || bd[at] != uint8(OptimAdam) {
+		t.Fatalf("method bytes %d, %d at offset %d, want %d, %d", bs[at], bd[at], at, OptimSparseAdam, OptimAdam)
 	}
-	// A version 2 file naming dense Adam, or an unknown method, is refused.
-	reseal := func(b []byte) []byte {
-		b = append([]byte(nil), b[:len(b)-4]...)
-		return binary.LittleEndian.AppendUint32(b, crc32.ChecksumIEEE(b))
-	}
-	// Header of a linear softmax: magic 4, version 4, kind 1, in 4, zdim 4,
-	// layers 4, tanh 1, maxBatch 4, optim 40: the method byte is at 66.
-	const at = 4 + 4 + 1 + 4 + 4 + 4 + 1 + 4 + 40
-	if bs[at] != uint8(OptimSparseAdam) {
-		t.Fatalf("method byte %d at offset %d, want %d", bs[at], at, OptimSparseAdam)
-	}
-	for _, m := range []uint8{uint8(OptimAdam), 9} {
-		b := append([]byte(nil), bs...)
+	// An unknown method is refused.
+	for _, m := range []uint8{2, 9} {
+		b := bytes.Clone(bs)
 		b[at] = m
-		if _, err := Unmarshal(reseal(b)); !errors.Is(err, ErrFormat) {
-			t.Errorf("version 2 with method %d: %v, want ErrFormat", m, err)
+		if _, err := Unmarshal(fileio.Reseal(b)); !errors.Is(err, ErrCorrupt) {
+			t.Errorf("method %d: %v, want ErrCorrupt", m, err)
 		}
 	}
 }

@@ -1,26 +1,34 @@
 package usf
 
 import (
-	"errors"
 	"fmt"
 
+	"github.com/successor-go/successor/internal/errs"
 	"github.com/successor-go/successor/internal/vec"
 	"github.com/successor-go/successor/sf"
 )
 
-// Sentinel errors. ErrDimension, ErrDiscount, ErrNonFinite, ErrDiverged
-// and ErrSettings are sf's (and so linalg's), so errors.Is works across
-// packages.
+// Sentinel errors. All but ErrZeroVector (which is sf's) are the library's
+// shared sentinels: linalg, sf and the other packages re-export the same
+// values under the same names, so errors.Is works across packages.
 var (
-	ErrDimension = sf.ErrDimension
-	ErrDiscount  = sf.ErrDiscount
-	ErrNonFinite = sf.ErrNonFinite
-	ErrDiverged  = sf.ErrDiverged
-	ErrSettings  = sf.ErrSettings
+	// ErrDimension: sizes of arguments do not agree.
+	ErrDimension = errs.Dimension
+	// ErrDiscount: a discount factor is outside [0, 1].
+	ErrDiscount = errs.Discount
+	// ErrNonFinite: an input is NaN or infinite.
+	ErrNonFinite = errs.NonFinite
+	// ErrDiverged: an update produced a non-finite value (an
+	// *sf.DivergenceError).
+	ErrDiverged = errs.Diverged
+	// ErrConfig: a configuration field has an invalid value, or a required
+	// rng is nil.
+	ErrConfig = errs.Config
+	// ErrCorrupt: saved bytes are truncated, altered, of another format or
+	// version, or out of range.
+	ErrCorrupt = errs.Corrupt
 	// ErrZeroVector: a vector of zero length has no direction.
 	ErrZeroVector = sf.ErrZeroVector
-	// ErrCorrupt: saved bytes are truncated, altered or not of this format.
-	ErrCorrupt = errors.New("corrupt data")
 )
 
 // Approximator is a universal successor feature approximator psi(s, a, z)

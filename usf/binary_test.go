@@ -4,10 +4,11 @@ import (
 	"bytes"
 	"encoding/binary"
 	"errors"
-	"hash/crc32"
+	"math"
 	"math/rand/v2"
 	"testing"
 
+	"github.com/successor-go/successor/internal/fileio"
 	"github.com/successor-go/successor/sf"
 )
 
@@ -174,9 +175,35 @@ func TestLoadCorrupt(t *testing.T) {
 		if err := tc.fresh().UnmarshalBinary(tc.good); err != nil {
 			t.Errorf("%s: good data: %v", tc.name, err)
 		}
+		if cap(tc.good) != len(tc.good) {
+			t.Errorf("%s: buffer of capacity %d for %d bytes, want one allocation at full size", tc.name, cap(tc.good), len(tc.good))
+		}
 		for _, bad := range [][]byte{nil, tc.good[:8], tc.good[:len(tc.good)-1], flipByte(tc.good, 0), flipByte(tc.good, 13), flipByte(tc.good, len(tc.good)/2), flipByte(tc.good, len(tc.good)-2)} {
 			if err := tc.fresh().UnmarshalBinary(bad); !errors.Is(err, ErrCorrupt) {
 				t.Errorf("%s: corrupt data accepted or wrong error: %v", tc.name, err)
+			}
+		}
+	}
+	// Every truncation and every single-bit flip of the small records.
+	for _, tc := range []struct {
+		name  string
+		good  []byte
+		fresh func() loader
+	}{
+		{"linear", mustMarshal(t, lin), func() loader { return new(Linear) }},
+		{"tabular", mustMarshal(t, tab), func() loader { return new(Tabular) }},
+		{"index replay", mustMarshal(t, indexReplay(t)), func() loader { return new(Replay) }},
+	} {
+		for n := range len(tc.good) {
+			if err := tc.fresh().UnmarshalBinary(tc.good[:n]); !errors.Is(err, ErrCorrupt) {
+				t.Fatalf("%s truncated to %d bytes: %v", tc.name, n, err)
+			}
+		}
+		for i := range 8 * len(tc.good) {
+			c := bytes.Clone(tc.good)
+			c[i/8] ^= 1 << (i % 8)
+			if err := tc.fresh().UnmarshalBinary(c); !errors.Is(err, ErrCorrupt) {
+				t.Fatalf("%s with bit %d flipped: %v", tc.name, i, err)
 			}
 		}
 	}
@@ -187,6 +214,73 @@ func TestLoadCorrupt(t *testing.T) {
 	}
 	if !bytes.Equal(before, mustMarshal(t, x.u)) {
 		t.Error("failed load changed the receiver")
+	}
+}
+
+// putInt returns a copy of the record b with the int64 at payload offset
+// off set to v, resealed so that the field check, not the checksum, meets
+// it.
+func putInt(b []byte, off int, v uint64) []byte {
+	c := bytes.Clone(b)
+	binary.LittleEndian.PutUint64(c[fileio.HeaderLen+off:], v)
+	return fileio.Reseal(c)
+}
+
+// TestLoadOutOfRange checks that contents out of range, under a valid
+// checksum, are refused as corrupt: giant and overflowing sizes, and visit
+// counts that no run can produce.
+func TestLoadOutOfRange(t *testing.T) {
+	tab, _ := NewTabular(3, 2, [][]float64{{1, 0}, {0, 1}}, 0.9, &TabularConfig{Step: sf.StepSize{Power: 0.5}})
+	tb := mustMarshal(t, tab)
+	visits := len(tb) - fileio.TrailerLen - 8*2*3*2 // payload offset of the visit counts, in the record
+	lin, _ := NewLinear(3, 2, 2, 0.9, nil)
+	lb := mustMarshal(t, lin)
+	rep := indexReplay(t)
+	rb := mustMarshal(t, rep)
+	putFloat := func(b []byte, at int, v float64) []byte {
+		c := bytes.Clone(b)
+		binary.LittleEndian.PutUint64(c[at:], math.Float64bits(v))
+		return fileio.Reseal(c)
+	}
+	type loader interface{ UnmarshalBinary([]byte) error }
+	for _, tc := range []struct {
+		name string
+		b    []byte
+		into loader
+	}{
+		{"tabular states 2^31-1", putInt(tb, 0, 1<<31-1), new(Tabular)},
+		{"tabular K 2^31-1", putInt(tb, 24, 1<<31-1), new(Tabular)},
+		{"tabular sizes overflow", putInt(putInt(putInt(tb, 0, 1<<32), 8, 1<<32), 16, 1<<32), new(Tabular)},
+		{"tabular negative steps", putInt(tb, 56, math.MaxUint64), new(Tabular)},
+		{"tabular gamma 2", putFloat(tb, fileio.HeaderLen+32, 2), new(Tabular)},
+		{"tabular negative visits", putFloat(tb, visits, -1), new(Tabular)},
+		{"tabular NaN visits", putFloat(tb, visits, math.NaN()), new(Tabular)},
+		{"tabular infinite visits", putFloat(tb, visits, math.Inf(1)), new(Tabular)},
+		{"tabular fractional visits", putFloat(tb, visits, 0.5), new(Tabular)},
+		{"linear obs 2^31-1", putInt(lb, 0, 1<<31-1), new(Linear)},
+		{"linear d 2^62", putInt(lb, 16, 1<<62), new(Linear)},
+		{"replay capacity 2^31-1", putInt(rb, 0, 1<<31-1), new(Replay)},
+		{"replay size beyond capacity", putInt(rb, 24, 6), new(Replay)},
+		{"replay obs 2^31-1", putInt(rb, 8, 1<<31-1), new(Replay)},
+	} {
+		if err := tc.into.UnmarshalBinary(tc.b); !errors.Is(err, ErrCorrupt) {
+			t.Errorf("%s: %v, want ErrCorrupt", tc.name, err)
+		}
+	}
+	// The unaltered records load.
+	for _, b := range [][]byte{tb, lb, rb} {
+		var err error
+		switch string(b[:4]) {
+		case tabularMagic:
+			err = new(Tabular).UnmarshalBinary(b)
+		case linearMagic:
+			err = new(Linear).UnmarshalBinary(b)
+		default:
+			err = new(Replay).UnmarshalBinary(b)
+		}
+		if err != nil {
+			t.Errorf("%s: %v", b[:4], err)
+		}
 	}
 }
 
@@ -204,12 +298,9 @@ func fuzzRoundTrip[T any, P interface {
 	MarshalBinary() ([]byte, error)
 }](t *testing.T, data []byte) {
 	roundTrip[T, P](t, data)
-	// Re-seal the mutated bytes with a valid checksum so that mutations
-	// reach the field checks, not only the CRC.
-	if len(data) >= 4 {
-		body := bytes.Clone(data[:len(data)-4])
-		roundTrip[T, P](t, binary.LittleEndian.AppendUint32(body, crc32.ChecksumIEEE(body)))
-	}
+	// Re-seal the mutated bytes with a valid length and checksum so that
+	// mutations reach the field checks, not only the CRC.
+	roundTrip[T, P](t, fileio.Reseal(data))
 }
 
 func roundTrip[T any, P interface {
@@ -236,8 +327,11 @@ func roundTrip[T any, P interface {
 func FuzzLoadNeural(f *testing.F) {
 	x := newRun(f)
 	x.steps(f, 3)
-	f.Add(mustMarshal(f, x.u))
+	b := mustMarshal(f, x.u)
+	f.Add(b)
 	f.Add([]byte(neuralMagic))
+	f.Add(putInt(b, 0, 1<<31-1))               // obs
+	f.Add(putInt(b, 8*3+8*2+8+8+1+8, 1<<31-1)) // length of the network
 	f.Fuzz(fuzzRoundTrip[Neural])
 }
 
@@ -249,23 +343,31 @@ func FuzzLoadReplay(f *testing.F) {
 	replayLoadWords = 1 << 16
 	x := newRun(f)
 	x.steps(f, 3)
-	f.Add(mustMarshal(f, x.r))
+	b := mustMarshal(f, x.r)
+	f.Add(b)
 	f.Add([]byte(replayMagic))
 	f.Add(mustMarshal(f, indexReplay(f)))
+	f.Add(putInt(b, 0, 1<<31-1))  // capacity
+	f.Add(putInt(b, 24, 1<<31-1)) // size
 	f.Fuzz(fuzzRoundTrip[Replay])
 }
 
 func FuzzLoadLinear(f *testing.F) {
 	lin, _ := NewLinear(3, 2, 2, 0.9, &LinearConfig{Affine: true})
 	lin.W[3] = 1.5
-	f.Add(mustMarshal(f, lin))
+	b := mustMarshal(f, lin)
+	f.Add(b)
+	f.Add(putInt(b, 0, 1<<31-1)) // obs
 	f.Fuzz(fuzzRoundTrip[Linear])
 }
 
 func FuzzLoadTabular(f *testing.F) {
 	tab, _ := NewTabular(3, 2, [][]float64{{1, 0}, {0, 1}}, 0.9, &TabularConfig{Step: sf.StepSize{Power: 0.5}})
 	tab.Tables[1].Data[2] = -2
-	f.Add(mustMarshal(f, tab))
+	b := mustMarshal(f, tab)
+	f.Add(b)
+	f.Add(putInt(b, 0, 1<<31-1))  // states
+	f.Add(putInt(b, 24, 1<<31-1)) // K
 	f.Fuzz(fuzzRoundTrip[Tabular])
 }
 

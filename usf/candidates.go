@@ -30,7 +30,7 @@ type CandidateConfig struct {
 // with cfg.Sigma > 0, by normal-then-normalise. The drawn vectors lie on
 // the unit sphere, where the policy of z is scale-free anyway (pi_z is
 // greedy in psi(s, ., z) . z). Errors wrap ErrDimension (empty w),
-// ErrNonFinite, ErrSettings (negative N, Kappa or Sigma) or ErrZeroVector
+// ErrNonFinite, ErrConfig (negative N, Kappa or Sigma) or ErrZeroVector
 // (w = 0 with N > 0).
 func Candidates(w []float64, cfg *CandidateConfig, rng *rand.Rand) ([][]float64, error) {
 	var c CandidateConfig
@@ -46,7 +46,7 @@ func Candidates(w []float64, cfg *CandidateConfig, rng *rand.Rand) ([][]float64,
 		}
 	}
 	if c.N < 0 || !(c.Kappa >= 0) || !(c.Sigma >= 0) || math.IsInf(c.Kappa, 0) || math.IsInf(c.Sigma, 0) {
-		return nil, fmt.Errorf("usf: candidates: config %+v: %w", c, ErrSettings)
+		return nil, fmt.Errorf("usf: candidates: config %+v: %w", c, ErrConfig)
 	}
 	out := make([][]float64, 0, c.N+1)
 	out = append(out, append([]float64(nil), w...))
@@ -58,7 +58,7 @@ func Candidates(w []float64, cfg *CandidateConfig, rng *rand.Rand) ([][]float64,
 		return nil, fmt.Errorf("usf: candidates: w = 0 has no direction: %w", ErrZeroVector)
 	}
 	if rng == nil {
-		return nil, fmt.Errorf("usf: candidates: nil rng: %w", ErrSettings)
+		return nil, fmt.Errorf("usf: candidates: nil rng: %w", ErrConfig)
 	}
 	for range c.N {
 		z := make([]float64, len(w))

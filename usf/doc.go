@@ -110,11 +110,15 @@
 // # Saving
 //
 // Tabular, Linear, Neural and Replay implement encoding.BinaryMarshaler and
-// encoding.BinaryUnmarshaler. Each encoding starts with a four-byte magic
-// and a version and ends with a CRC-32 (IEEE) of the rest; loading checks
-// them and returns an error wrapping ErrCorrupt. A caller can embed several
-// of them, length-prefixed, in one checkpoint file (write it to a temporary
-// file in the same directory, fsync, rename). A *rand.Rand built on
-// rand.PCG is saved by marshalling the PCG. Train N updates, save, load and
-// train N more gives the same bits as 2N updates uninterrupted.
+// encoding.BinaryUnmarshaler. Each encoding is a record of the library's
+// framing (package internal/fileio): a four-byte magic, a format version,
+// the payload length, the payload (documented in each MarshalBinary) and a
+// CRC-32C of the rest. Loading checks all of it, refuses sizes that the
+// bytes present cannot hold before allocating, and returns an error
+// wrapping ErrCorrupt (a Replay's capacity, allocated in full, is bounded
+// at 2^28 words). A caller can embed several of them, length-prefixed, in
+// one checkpoint file (write it to a temporary file in the same directory,
+// fsync, rename). A *rand.Rand built on rand.PCG is saved by marshalling
+// the PCG. Train N updates, save, load and train N more gives the same
+// bits as 2N updates uninterrupted.
 package usf

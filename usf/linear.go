@@ -45,7 +45,7 @@ type Linear struct {
 
 // NewLinear returns a zeroed linear USF for observations of dimension obs,
 // the given number of actions and features of dimension dim, with discount
-// gamma in [0, 1]. Errors wrap ErrDimension, ErrDiscount or ErrSettings.
+// gamma in [0, 1]. Errors wrap ErrDimension, ErrDiscount or ErrConfig.
 func NewLinear(obs, actions, dim int, gamma float64, cfg *LinearConfig) (*Linear, error) {
 	if err := checkGamma("linear", gamma); err != nil {
 		return nil, err
@@ -61,7 +61,7 @@ func NewLinear(obs, actions, dim int, gamma float64, cfg *LinearConfig) (*Linear
 		c.Alpha = 0.1
 	}
 	if !(c.Alpha > 0) || math.IsInf(c.Alpha, 0) {
-		return nil, fmt.Errorf("usf: linear: step %v: %w", c.Alpha, ErrSettings)
+		return nil, fmt.Errorf("usf: linear: step %v: %w", c.Alpha, ErrConfig)
 	}
 	e := dim
 	if c.Affine {

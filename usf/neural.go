@@ -68,7 +68,7 @@ type Neural struct {
 // given number of actions and features of dimension dim, with discount
 // gamma in [0, 1], weights drawn from rng. The target network starts as a
 // copy of the online network. Errors wrap ErrDimension, ErrDiscount or
-// ErrSettings.
+// ErrConfig.
 func NewNeural(obs, actions, dim int, gamma float64, cfg *NeuralConfig, rng *rand.Rand) (*Neural, error) {
 	if err := checkGamma("neural", gamma); err != nil {
 		return nil, err
@@ -96,10 +96,10 @@ func NewNeural(obs, actions, dim int, gamma float64, cfg *NeuralConfig, rng *ran
 		c.TargetEvery = 100
 	}
 	if !(c.LR > 0) || c.TargetEvery < 0 || !(c.Tau >= 0 && c.Tau <= 1) || math.IsNaN(c.Clip) || math.IsInf(c.LR, 0) {
-		return nil, fmt.Errorf("usf: neural: config %+v: %w", c, ErrSettings)
+		return nil, fmt.Errorf("usf: neural: config %+v: %w", c, ErrConfig)
 	}
 	if rng == nil {
-		return nil, fmt.Errorf("usf: neural: nil rng: %w", ErrSettings)
+		return nil, fmt.Errorf("usf: neural: nil rng: %w", ErrConfig)
 	}
 	sizes := append([]int{obs + dim}, c.Hidden...)
 	sizes = append(sizes, actions*dim)
@@ -113,7 +113,7 @@ func NewNeural(obs, actions, dim int, gamma float64, cfg *NeuralConfig, rng *ran
 	acts[len(acts)-1] = nn.Identity
 	net, err := nn.New(&nn.Config{Sizes: sizes, Acts: acts, MaxBatch: c.MaxBatch}, rng)
 	if err != nil {
-		return nil, fmt.Errorf("usf: neural: %v: %w", err, ErrSettings)
+		return nil, fmt.Errorf("usf: neural: %v: %w", err, ErrConfig)
 	}
 	u := &Neural{
 		net:         net,

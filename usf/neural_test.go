@@ -208,9 +208,9 @@ func TestNewNeuralErrors(t *testing.T) {
 	}{
 		{"gamma", ErrDiscount, func() error { _, err := NewNeural(2, 2, 2, -0.1, nil, rng); return err }},
 		{"sizes", ErrDimension, func() error { _, err := NewNeural(0, 2, 2, 0.9, nil, rng); return err }},
-		{"rng", ErrSettings, func() error { _, err := NewNeural(2, 2, 2, 0.9, nil, nil); return err }},
-		{"tau", ErrSettings, func() error { _, err := NewNeural(2, 2, 2, 0.9, &NeuralConfig{Tau: 2}, rng); return err }},
-		{"hidden", ErrSettings, func() error { _, err := NewNeural(2, 2, 2, 0.9, &NeuralConfig{Hidden: []int{0}}, rng); return err }},
+		{"rng", ErrConfig, func() error { _, err := NewNeural(2, 2, 2, 0.9, nil, nil); return err }},
+		{"tau", ErrConfig, func() error { _, err := NewNeural(2, 2, 2, 0.9, &NeuralConfig{Tau: 2}, rng); return err }},
+		{"hidden", ErrConfig, func() error { _, err := NewNeural(2, 2, 2, 0.9, &NeuralConfig{Hidden: []int{0}}, rng); return err }},
 	} {
 		if err := tc.f(); !errors.Is(err, tc.err) {
 			t.Errorf("%s: err %v, want %v", tc.name, err, tc.err)

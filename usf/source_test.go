@@ -132,8 +132,8 @@ func TestCandidates(t *testing.T) {
 		{nil, nil, ErrDimension},
 		{[]float64{0, 0}, &CandidateConfig{N: 1}, ErrZeroVector},
 		{[]float64{1, math.Inf(1)}, nil, ErrNonFinite},
-		{w, &CandidateConfig{N: -1}, ErrSettings},
-		{w, &CandidateConfig{N: 1, Kappa: -1}, ErrSettings},
+		{w, &CandidateConfig{N: -1}, ErrConfig},
+		{w, &CandidateConfig{N: 1, Kappa: -1}, ErrConfig},
 	} {
 		if _, err := Candidates(tc.w, tc.cfg, rng); !errors.Is(err, tc.err) {
 			t.Errorf("w %v cfg %+v: err %v, want %v", tc.w, tc.cfg, err, tc.err)

@@ -62,7 +62,7 @@ type Tabular struct {
 // NewTabular returns a zeroed tabular USF for the given number of states
 // and actions over the set zs (each of the same length d >= 1), with
 // discount gamma in [0, 1]. Errors wrap ErrDimension, ErrDiscount,
-// ErrNonFinite or ErrSettings.
+// ErrNonFinite or ErrConfig.
 func NewTabular(states, actions int, zs [][]float64, gamma float64, cfg *TabularConfig) (*Tabular, error) {
 	if err := checkGamma("tabular", gamma); err != nil {
 		return nil, err
@@ -194,10 +194,10 @@ func (t *Tabular) hashZ(z []float64) uint64 {
 // resolveStep applies the defaults of sf.StepSize.
 func resolveStep(st sf.StepSize) (alpha, power float64, err error) {
 	if !(st.Power >= 0 && st.Power <= 1) {
-		return 0, 0, fmt.Errorf("step power %v outside [0, 1]: %w", st.Power, ErrSettings)
+		return 0, 0, fmt.Errorf("step power %v outside [0, 1]: %w", st.Power, ErrConfig)
 	}
 	if !(st.Alpha >= 0 && st.Alpha <= 1) {
-		return 0, 0, fmt.Errorf("step %v outside [0, 1]: %w", st.Alpha, ErrSettings)
+		return 0, 0, fmt.Errorf("step %v outside [0, 1]: %w", st.Alpha, ErrConfig)
 	}
 	alpha = st.Alpha
 	if alpha == 0 {

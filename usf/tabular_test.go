@@ -156,7 +156,7 @@ func TestNewTabularErrors(t *testing.T) {
 		{"empty", ErrDimension, func() error { _, err := NewTabular(2, 2, nil, 0.9, nil); return err }},
 		{"ragged", ErrDimension, func() error { _, err := NewTabular(2, 2, [][]float64{{1}, {1, 2}}, 0.9, nil); return err }},
 		{"states", ErrDimension, func() error { _, err := NewTabular(0, 2, z, 0.9, nil); return err }},
-		{"step", ErrSettings, func() error {
+		{"step", ErrConfig, func() error {
 			_, err := NewTabular(2, 2, z, 0.9, &TabularConfig{Step: sf.StepSize{Power: 2}})
 			return err
 		}},

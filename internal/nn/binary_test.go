@@ -4,10 +4,11 @@ import (
 	"bytes"
 	"encoding/binary"
 	"errors"
-	"hash/crc32"
 	"math"
 	"math/rand/v2"
 	"testing"
+
+	"github.com/successor-go/successor/internal/fileio"
 )
 
 func sameBits(a, b []float64) bool {
@@ -82,11 +83,22 @@ func TestLoadCorrupt(t *testing.T) {
 	good, _ := net.MarshalBinary()
 	opt := NewAdam(net.NumParams(), nil)
 	goodA, _ := opt.MarshalBinary()
+	if cap(good) != len(good) || cap(goodA) != len(goodA) {
+		t.Errorf("buffers of capacity %d, %d for %d, %d bytes, want one allocation at full size", cap(good), cap(goodA), len(good), len(goodA))
+	}
 	flip := func(b []byte, i int) []byte {
 		c := bytes.Clone(b)
 		c[i] ^= 1
 		return c
 	}
+	// put writes v at byte off of a copy of b and reseals it, so that the
+	// field check, not the checksum, rejects it.
+	put := func(b []byte, off int, v uint64) []byte {
+		c := bytes.Clone(b)
+		binary.LittleEndian.PutUint64(c[off:], v)
+		return fileio.Reseal(c)
+	}
+	const p = fileio.HeaderLen // payload offset
 	for _, tc := range []struct {
 		name string
 		b    []byte
@@ -95,12 +107,23 @@ func TestLoadCorrupt(t *testing.T) {
 		{"empty", nil, false},
 		{"short", good[:10], false},
 		{"magic", flip(good, 0), false},
+		{"version 1", fileio.Reseal(func() []byte { c := bytes.Clone(good); c[4] = 1; return c }()), false},
 		{"payload bit", flip(good, 30), false},
 		{"checksum bit", flip(good, len(good)-1), false},
 		{"truncated", good[:len(good)-5], false},
+		{"truncated, resealed", fileio.Reseal(good[:len(good)-5]), false},
+		{"trailing bytes, resealed", fileio.Reseal(append(bytes.Clone(good), 0, 0, 0, 0, 0, 0, 0, 0)), false},
 		{"adam as mlp", goodA, false},
 		{"mlp as adam", good, true},
 		{"adam bit", flip(goodA, 20), true},
+		{"max batch 2^31-1", put(good, p, 1<<31-1), false},
+		{"layers 2^31-1", put(good, p+8, 1<<31-1), false},
+		{"width 2^31-1", put(good, p+16, 1<<31-1), false},
+		{"negative width", put(good, p+16, math.MaxUint64), false},
+		{"activation 9", fileio.Reseal(func() []byte { c := bytes.Clone(good); c[p+16+3*8] = 9; return c }()), false},
+		{"adam count 2^31-1", put(goodA, p, 1<<31-1), true},
+		{"adam negative step", put(goodA, p+8+4*8, math.MaxUint64), true},
+		{"adam NaN eps", put(goodA, p+8+3*8, math.Float64bits(math.NaN())), true},
 	} {
 		var err error
 		if tc.adam {
@@ -114,6 +137,37 @@ func TestLoadCorrupt(t *testing.T) {
 			t.Errorf("%s: err %v, want ErrCorrupt", tc.name, err)
 		}
 	}
+	// Every truncation and every single-bit flip (CRC-32C detects them
+	// all).
+	for _, b := range [][]byte{good, goodA} {
+		for n := range len(b) {
+			var m MLP
+			var o Adam
+			if m.UnmarshalBinary(b[:n]) == nil || o.UnmarshalBinary(b[:n]) == nil {
+				t.Fatalf("truncated to %d of %d bytes: accepted", n, len(b))
+			}
+		}
+		for i := range 8 * len(b) {
+			c := bytes.Clone(b)
+			c[i/8] ^= 1 << (i % 8)
+			var m MLP
+			var o Adam
+			if err := m.UnmarshalBinary(c); !errors.Is(err, ErrCorrupt) {
+				t.Fatalf("bit %d flipped: mlp %v", i, err)
+			}
+			if err := o.UnmarshalBinary(c); !errors.Is(err, ErrCorrupt) {
+				t.Fatalf("bit %d flipped: adam %v", i, err)
+			}
+		}
+	}
+}
+
+// giant returns b resealed with the int64 at payload offset off set to
+// 2^31-1, a header that claims far more than the bytes present.
+func giant(b []byte, off int) []byte {
+	c := bytes.Clone(b)
+	binary.LittleEndian.PutUint64(c[fileio.HeaderLen+off:], 1<<31-1)
+	return fileio.Reseal(c)
 }
 
 // FuzzLoadMLP checks that the loader never panics, and that whatever it
@@ -124,20 +178,12 @@ func FuzzLoadMLP(f *testing.F) {
 	f.Add(b)
 	f.Add(b[:len(b)-1])
 	f.Add([]byte("NNML"))
+	f.Add(giant(b, 8))  // layers
+	f.Add(giant(b, 16)) // first width
 	f.Fuzz(func(t *testing.T, data []byte) {
 		mlpRoundTrip(t, data)
-		mlpRoundTrip(t, reseal(data))
+		mlpRoundTrip(t, fileio.Reseal(data))
 	})
-}
-
-// reseal replaces the last four bytes of data by the CRC-32 of the rest,
-// so that fuzzed mutations reach the field checks, not only the checksum.
-func reseal(data []byte) []byte {
-	if len(data) < 4 {
-		return data
-	}
-	body := bytes.Clone(data[:len(data)-4])
-	return binary.LittleEndian.AppendUint32(body, crc32.ChecksumIEEE(body))
 }
 
 func mlpRoundTrip(t *testing.T, data []byte) {
@@ -164,9 +210,10 @@ func FuzzLoadAdam(f *testing.F) {
 	b, _ := o.MarshalBinary()
 	f.Add(b)
 	f.Add([]byte("NNAD"))
+	f.Add(giant(b, 0)) // parameter count
 	f.Fuzz(func(t *testing.T, data []byte) {
 		adamRoundTrip(t, data)
-		adamRoundTrip(t, reseal(data))
+		adamRoundTrip(t, fileio.Reseal(data))
 	})
 }
 

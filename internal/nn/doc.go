@@ -20,7 +20,7 @@
 //	target.CopyFrom(net)           // hard refresh, or
 //	target.Blend(net, 0.005)       // Polyak: target = (1-tau) target + tau net
 //	b, _ := net.MarshalBinary()    // exact bytes; UnmarshalBinary checks magic,
-//	b, _ = opt.MarshalBinary()     // version, sizes and a CRC-32 checksum
+//	b, _ = opt.MarshalBinary()     // version, sizes and a CRC-32C checksum
 //
 // Forward keeps the activations of the batch it was given, and Backward
 // uses them, so call Backward after the Forward it belongs to, with no
@@ -70,12 +70,15 @@
 //
 // # Binary formats
 //
-// MLP.MarshalBinary writes, little-endian: the magic "NNML", version
-// uint32 = 1, MaxBatch uint32, the layer count L uint32, the L+1 sizes
-// uint32, the L activations uint8, the parameter count uint64, the
-// parameters as IEEE-754 float64 bits, and a CRC-32 (IEEE) of everything
-// before it. Adam.MarshalBinary writes the magic "NNAD", version uint32 = 1,
-// the parameter count uint64, alpha, beta1, beta2, eps as float64 bits, the
-// step t uint64, the first and second moments, and the CRC-32. Loading
-// checks all of it and wraps ErrCorrupt on any mismatch.
+// Both records use the library's framing (package internal/fileio: a
+// four-byte magic, a uint32 format version, the payload length, the
+// payload, a CRC-32C), format version 2, integers as int64 and floats as
+// their IEEE-754 bits, little-endian. The MLP payload (magic "NNML"):
+// MaxBatch, the layer count L, the L+1 sizes, the L activations as one
+// byte each, and the parameters (their count follows from the sizes).
+// The Adam payload (magic "NNAD"): the parameter count P, alpha, beta1,
+// beta2, eps, the step t, then P first and P second moments. Loading
+// checks all of it, bounds every size (MaxLayers, MaxWidth, MaxRows, at
+// most 2^26 parameters, no more than the bytes present) before allocating,
+// and wraps ErrCorrupt on any mismatch.
 package nn

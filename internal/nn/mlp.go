@@ -1,20 +1,24 @@
 package nn
 
 import (
-	"errors"
 	"fmt"
 	"math"
 	"math/rand/v2"
+
+	"github.com/successor-go/successor/internal/errs"
 )
 
-// ErrConfig is wrapped by errors about an invalid network or optimiser
-// configuration.
-var ErrConfig = errors.New("invalid configuration")
-
-// ErrCorrupt is wrapped by errors about saved bytes that cannot be loaded:
-// wrong magic, unknown version, inconsistent sizes, short data or a bad
-// checksum.
-var ErrCorrupt = errors.New("corrupt data")
+// Sentinel errors, the library's shared ones (package internal/errs), so
+// that errors.Is works across packages.
+var (
+	// ErrConfig is wrapped by errors about an invalid network or optimiser
+	// configuration.
+	ErrConfig = errs.Config
+	// ErrCorrupt is wrapped by errors about saved bytes that cannot be
+	// loaded: wrong magic, unknown version, inconsistent sizes, short data
+	// or a bad checksum.
+	ErrCorrupt = errs.Corrupt
+)
 
 // Activation is the elementwise nonlinearity of a layer.
 type Activation uint8
