@@ -9,7 +9,7 @@ import "fmt"
 // are scored from m's own start distribution. m is not modified.
 //
 // Errors are those of New for start: they wrap linalg.ErrDimension,
-// linalg.ErrNonFinite, linalg.ErrNotStochastic or ErrInvalid.
+// linalg.ErrNonFinite, linalg.ErrNotStochastic or ErrConfig.
 func WithStart(m *Finite, start []float64) (*Finite, error) {
 	n, na := m.NumStates(), m.NumActions()
 	var tr []Transition

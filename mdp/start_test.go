@@ -75,7 +75,7 @@ func TestWithStart(t *testing.T) {
 		want  error
 	}{
 		{[]float64{1, 0}, linalg.ErrDimension},
-		{[]float64{0, 0, 0, 0}, ErrInvalid},
+		{[]float64{0, 0, 0, 0}, ErrConfig},
 		{[]float64{0.5, 0.6, -0.1, 0}, linalg.ErrNotStochastic},
 		{[]float64{math.NaN(), 0, 0, 1}, linalg.ErrNonFinite},
 	} {
@@ -87,7 +87,7 @@ func TestWithStart(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if _, err := WithStart(all, UniformStart(all)); !errors.Is(err, ErrInvalid) {
-		t.Errorf("all terminal: error %v, want ErrInvalid", err)
+	if _, err := WithStart(all, UniformStart(all)); !errors.Is(err, ErrConfig) {
+		t.Errorf("all terminal: error %v, want ErrConfig", err)
 	}
 }

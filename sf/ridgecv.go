@@ -5,8 +5,6 @@ import (
 	"math"
 
 	"gonum.org/v1/gonum/mat"
-
-	"github.com/successor-go/successor/linalg"
 )
 
 // RidgeCV chooses the ridge penalty lambda of InferTask from grid by
@@ -38,7 +36,7 @@ import (
 //
 // Errors wrap ErrDimension (no groups, an empty grid, lengths that do not
 // match), ErrNonFinite (a non-finite feature, count or sum) or
-// linalg.ErrBadParameter (a count or a penalty that is not positive and
+// ErrConfig (a count or a penalty that is not positive and
 // finite).
 func RidgeCV(phis mat.Matrix, counts, sums, grid []float64) (lambda, cv float64, err error) {
 	m, d := phis.Dims()
@@ -52,13 +50,13 @@ func RidgeCV(phis mat.Matrix, counts, sums, grid []float64) (lambda, cv float64,
 	}
 	for _, lam := range grid {
 		if !(lam > 0) || math.IsInf(lam, 0) {
-			return 0, 0, fmt.Errorf("sf: ridge cv: grid penalty %v: %w", lam, linalg.ErrBadParameter)
+			return 0, 0, fmt.Errorf("sf: ridge cv: grid penalty %v: %w", lam, ErrConfig)
 		}
 	}
 	x := mat.DenseCopyOf(phis)
 	for c := range m {
 		if !(counts[c] > 0) || math.IsInf(counts[c], 0) {
-			return 0, 0, fmt.Errorf("sf: ridge cv: count %v of group %d: %w", counts[c], c, linalg.ErrBadParameter)
+			return 0, 0, fmt.Errorf("sf: ridge cv: count %v of group %d: %w", counts[c], c, ErrConfig)
 		}
 		if math.IsNaN(sums[c]) || math.IsInf(sums[c], 0) {
 			return 0, 0, fmt.Errorf("sf: ridge cv: reward sum of group %d: %w", c, ErrNonFinite)

@@ -9,7 +9,6 @@ import (
 	"gonum.org/v1/gonum/mat"
 
 	"github.com/successor-go/successor/internal/vec"
-	"github.com/successor-go/successor/linalg"
 )
 
 // bruteCV returns the mean squared leave-one-group-out error of ridge
@@ -131,9 +130,9 @@ func TestRidgeCVErrors(t *testing.T) {
 		{"counts length", x, []float64{1}, one, grid, ErrDimension},
 		{"sums length", x, one, []float64{1}, grid, ErrDimension},
 		{"empty grid", x, one, one, nil, ErrDimension},
-		{"zero penalty", x, one, one, []float64{0}, linalg.ErrBadParameter},
-		{"infinite penalty", x, one, one, []float64{math.Inf(1)}, linalg.ErrBadParameter},
-		{"zero count", x, []float64{1, 0}, one, grid, linalg.ErrBadParameter},
+		{"zero penalty", x, one, one, []float64{0}, ErrConfig},
+		{"infinite penalty", x, one, one, []float64{math.Inf(1)}, ErrConfig},
+		{"zero count", x, []float64{1, 0}, one, grid, ErrConfig},
 		{"NaN sum", x, one, []float64{1, math.NaN()}, grid, ErrNonFinite},
 		{"NaN feature", mat.NewDense(2, 2, []float64{1, math.NaN(), 0, 1}), one, one, grid, ErrNonFinite},
 	} {

@@ -7,16 +7,20 @@ import (
 	"slices"
 	"strings"
 
+	"github.com/successor-go/successor/internal/errs"
 	"github.com/successor-go/successor/sf"
 	"github.com/successor-go/successor/skills"
 )
 
 // Sentinel errors wrapped by this package.
 var (
-	// ErrConfig is wrapped by errors about an invalid configuration.
-	ErrConfig = errors.New("invalid configuration")
-	// ErrDiverged is wrapped when a learner produces a non-finite value.
-	ErrDiverged = errors.New("learner diverged")
+	// ErrConfig is wrapped by errors about an invalid configuration (the
+	// library's shared sentinel: errors.Is(err, sf.ErrConfig) is the same
+	// test).
+	ErrConfig = errs.Config
+	// ErrDiverged is wrapped when a learner produces a non-finite value
+	// (shared, as ErrConfig).
+	ErrDiverged = errs.Diverged
 	// ErrCheckpoint is wrapped by errors about a missing, truncated,
 	// corrupted or incompatible checkpoint file.
 	ErrCheckpoint = errors.New("bad checkpoint")
