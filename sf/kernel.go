@@ -207,6 +207,8 @@ func axpy(y, x []float64, a float64) {
 }
 
 // dot2 returns (x . y, u . v) in one pass; all four have length len(x).
+// Each product is summed with two interleaved partial sums, an order of its
+// own (not vec.Dot's), which the linear learner's results are defined with.
 func dot2(x, y, u, v []float64) (float64, float64) {
 	n := len(x)
 	y, u, v = y[:n], u[:n], v[:n]
