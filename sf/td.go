@@ -446,7 +446,8 @@ func (l *TD) mixture(next int) []float64 {
 	return m
 }
 
-// mapKind names the built-in feature maps with a fast path in Update.
+// mapKind names the built-in sparse feature maps, whose entries update
+// adds without forming phi.
 type mapKind uint8
 
 const (

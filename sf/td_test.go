@@ -236,7 +236,7 @@ func TestTDOneStep(t *testing.T) {
 		}
 	}
 
-	// Fast paths against the generic path, for every target.
+	// The sparse paths against the dense ones, for every target.
 	lab, _ := NewLabels([]int{0, -1, 1, 2, -1}, 3, true)
 	fn := FeatureFunc{D: 4, F: lab.Features}
 	pi := mdp.RandomPolicy(rand.New(rand.NewPCG(1, 1)), randomMDP(t, 1, mdp.RandomConfig{States: 5, Actions: 2}))
@@ -245,7 +245,7 @@ func TestTDOneStep(t *testing.T) {
 		target Target
 		step   StepSize
 	}{
-		{Sampled, StepSize{Alpha: 0.3}}, // the fast path of Update
+		{Sampled, StepSize{Alpha: 0.3}}, // the one-row pass of update
 		{Sampled, StepSize{Power: 0.8}},
 		{Expected, StepSize{Power: 0.8}},
 		{Greedy, StepSize{Power: 0.8}},
