@@ -317,6 +317,11 @@ func (l *TD) update(s, a, next int, terminal bool, nextAction int, phi []float64
 	if uint(s) >= uint(t.S) || uint(a) >= uint(na) {
 		panic(fmt.Sprintf("sf: td: pair (%d, %d) out of range", s, a))
 	}
+	an := nextAction // the action the Sampled or Greedy target bootstraps from
+	if l.target == Greedy && !terminal {
+		k := next * na * d
+		an, _ = greedy(t.Data[k:k+na*d], l.task, na, d)
+	}
 	pair := s*na + a
 	cur := t.Data[pair*d : pair*d+d : pair*d+d]
 	st := l.step
@@ -351,11 +356,7 @@ func (l *TD) update(s, a, next int, terminal bool, nextAction int, phi []float64
 	case l.target == Expected:
 		sum = kernelRow(cur, l.mixture(next), f, st)
 	default:
-		an := nextAction
-		if l.target == Greedy {
-			k := next * na * d
-			an, _ = greedy(t.Data[k:k+na*d], l.task, na, d)
-		} else if uint(an) >= uint(na) {
+		if uint(an) >= uint(na) {
 			panic(fmt.Sprintf("sf: td: next action %d out of range [0, %d)", an, na))
 		}
 		q := (next*na + an) * d
