@@ -71,6 +71,7 @@ func ExampleEvaluate() {
 	fmt.Println("Theorem 1 holds:", gpi.CheckDominance(res.GPI.Q, [][]float64{res.Sources[0].Q, res.Sources[1].Q}, 2, 0, gamma, 1e-12) == nil)
 	// Derived by hand: stepping right from cell 1 pays 1 at once, from cell
 	// 0 one step later, 0.5 * 1; stepping left never reaches cell 2.
+
 	// Output:
 	// GPI policy: [0 0] winners: [0 0]
 	// V gpi [0.50 1.00], V right [0.50 1.00], V left [0.00 0.00]
@@ -91,6 +92,7 @@ func ExampleGapBound() {
 	// Derived by hand from Theorem 2 of Barreto et al. (2017):
 	// min_j ||w - w_j|| = ||(0, 0, 0.1)|| = 0.1 (to the bench task), so the
 	// bound is 2/(1 - 0.9) (1 * 0.1 + 0) = 2.
+
 	// Output:
 	// Q* - Q^gpi <= 2.0
 }
@@ -137,6 +139,7 @@ func ExampleSFQLearning() {
 	// is measured against the exact oracle (mdp.OptimalExpected gives the
 	// 1, the uniform policy the 0), and gpi's TestSFQLearningBeatsQLearning
 	// checks the comparison on other seeds.
+
 	// Output:
 	// SF Q-learning -0.0  1.0  0.9  0.9  1.0  1.0  mean 0.92
 	// Q-learning    -0.0  1.0 -0.1 -0.1  0.0  1.0  mean 0.52

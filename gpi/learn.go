@@ -365,7 +365,7 @@ func (g *sfqAgent) act(s int, rng *rand.Rand) (int, error) {
 			return 0, fmt.Errorf("NaN action value in state %d: %w", s, ErrDiverged)
 		}
 	}
-	a := randomArgmax(g.best, rng)
+	a := vec.ArgmaxRandom(g.best, rng)
 	g.winner = g.from[a]
 	return a, nil
 }
@@ -404,7 +404,7 @@ func (g *qAgent) begin(i int, w []float64) error {
 
 func (g *qAgent) act(s int, rng *rand.Rand) (int, error) {
 	na := g.m.NumActions()
-	return randomArgmax(g.q[s*na:(s+1)*na], rng), nil
+	return vec.ArgmaxRandom(g.q[s*na:(s+1)*na], rng), nil
 }
 
 func (g *qAgent) update(s, a, next int, terminal bool) error {
@@ -413,7 +413,7 @@ func (g *qAgent) update(s, a, next int, terminal bool) error {
 	target := vec.Dot(g.f, g.w)
 	if !terminal {
 		nq := g.q[next*na : (next+1)*na]
-		target += g.cfg.gamma * nq[argmax(nq)]
+		target += g.cfg.gamma * nq[vec.Argmax(nq)]
 	}
 	i := s*na + a
 	g.q[i] += g.cfg.alpha * (target - g.q[i])
@@ -427,45 +427,7 @@ func (g *qAgent) update(s, a, next int, terminal bool) error {
 func (g *qAgent) policy(dst mdp.Deterministic) error {
 	na := g.m.NumActions()
 	for s := range dst {
-		dst[s] = argmax(g.q[s*na : (s+1)*na])
+		dst[s] = vec.Argmax(g.q[s*na : (s+1)*na])
 	}
 	return nil
-}
-
-// randomArgmax returns an index of the largest entry of x, drawn uniformly
-// among ties with rng (one draw only when there is a tie).
-func randomArgmax(x []float64, rng *rand.Rand) int {
-	best, ties := 0, 1
-	for i := 1; i < len(x); i++ {
-		switch v := x[i]; {
-		case v > x[best]:
-			best, ties = i, 1
-		case v == x[best]:
-			ties++
-		}
-	}
-	if ties == 1 {
-		return best
-	}
-	k := rng.IntN(ties)
-	for i, v := range x {
-		if v == x[best] {
-			if k == 0 {
-				return i
-			}
-			k--
-		}
-	}
-	return best
-}
-
-// argmax returns the index of the largest entry, ties to the lowest.
-func argmax(x []float64) int {
-	best := 0
-	for i, v := range x[1:] {
-		if v > x[best] {
-			best = i + 1
-		}
-	}
-	return best
 }

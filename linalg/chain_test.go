@@ -8,6 +8,7 @@ import (
 
 	"gonum.org/v1/gonum/mat"
 
+	"github.com/successor-go/successor/internal/testtol"
 	"github.com/successor-go/successor/linalg"
 )
 
@@ -39,17 +40,17 @@ func TestFundamentalDrunkardsWalk(t *testing.T) {
 		if err := linalg.Fundamental(&n, q); err != nil {
 			t.Fatal(err)
 		}
-		if !mat.EqualApprox(&n, wantN, tolExact) {
+		if !mat.EqualApprox(&n, wantN, testtol.Exact) {
 			t.Errorf("N = %v, want %v", mat.Formatted(&n), mat.Formatted(wantN))
 		}
 		for i := 0; i < 3; i++ {
-			if got := mat.Sum(n.RowView(i)); math.Abs(got-wantT[i]) > tolExact {
+			if got := mat.Sum(n.RowView(i)); math.Abs(got-wantT[i]) > testtol.Exact {
 				t.Errorf("t[%d] = %v, want %v", i, got, wantT[i])
 			}
 		}
 		var b mat.Dense
 		b.Mul(&n, drunkR)
-		if !mat.EqualApprox(&b, wantB, tolExact) {
+		if !mat.EqualApprox(&b, wantB, testtol.Exact) {
 			t.Errorf("B = %v, want %v", mat.Formatted(&b), mat.Formatted(wantB))
 		}
 	}
@@ -111,7 +112,7 @@ func TestFundamentalProperties(t *testing.T) {
 		for i := 0; i < n; i++ {
 			prod.Set(i, i, prod.At(i, i)-1)
 			for j := 0; j < n; j++ {
-				if nm.At(i, j) < -tolExact {
+				if nm.At(i, j) < -testtol.Exact {
 					t.Errorf("seed %d: N[%d][%d] = %v negative", seed, i, j, nm.At(i, j))
 				}
 			}
@@ -137,7 +138,7 @@ func TestStationaryLandOfOz(t *testing.T) {
 			t.Fatal(err)
 		}
 		for i, w := range want {
-			if math.Abs(pi.AtVec(i)-w) > tolExact {
+			if math.Abs(pi.AtVec(i)-w) > testtol.Exact {
 				t.Errorf("pi = %v, want %v", mat.Formatted(pi.T()), want)
 				break
 			}
@@ -183,10 +184,10 @@ func TestStationaryProperties(t *testing.T) {
 		var back mat.VecDense
 		back.MulVec(p.T(), &pi)
 		back.SubVec(&back, &pi)
-		if d := mat.Norm(&back, math.Inf(1)); d > tolExact {
+		if d := mat.Norm(&back, math.Inf(1)); d > testtol.Exact {
 			t.Errorf("seed %d: ||pi P - pi|| = %.3g", seed, d)
 		}
-		if s := mat.Sum(&pi); math.Abs(s-1) > tolExact {
+		if s := mat.Sum(&pi); math.Abs(s-1) > testtol.Exact {
 			t.Errorf("seed %d: sum pi = %v", seed, s)
 		}
 		// Reference: gonum LU on (P^T - I) with the last row set to ones.
@@ -208,7 +209,7 @@ func TestStationaryProperties(t *testing.T) {
 			if math.Abs(pi.AtVec(i)-ref.AtVec(i)) > 1e-10 {
 				t.Errorf("seed %d: pi[%d] = %v, gonum %v", seed, i, pi.AtVec(i), ref.AtVec(i))
 			}
-			if uniform && math.Abs(pi.AtVec(i)-1/float64(n)) > tolExact {
+			if uniform && math.Abs(pi.AtVec(i)-1/float64(n)) > testtol.Exact {
 				t.Errorf("seed %d: grid pi[%d] = %v, want 1/n", seed, i, pi.AtVec(i))
 			}
 		}
@@ -259,7 +260,7 @@ func TestExplicitZerosOutsideBand(t *testing.T) {
 		t.Fatal(err)
 	}
 	for i := 0; i < 40; i++ {
-		if math.Abs(pi.AtVec(i)-1.0/40) > tolExact {
+		if math.Abs(pi.AtVec(i)-1.0/40) > testtol.Exact {
 			t.Fatalf("pi[%d] = %v, want 1/40", i, pi.AtVec(i))
 		}
 	}
@@ -268,7 +269,7 @@ func TestExplicitZerosOutsideBand(t *testing.T) {
 	if err := linalg.SolveSuccessor(&x, p, 0.9, b); err != nil {
 		t.Fatal(err)
 	}
-	if d := maxRelDiff(&x, gonumSolve(line, 0.9, b)); d > tolSolve {
+	if d := maxRelDiff(&x, gonumSolve(line, 0.9, b)); d > testtol.Solve {
 		t.Errorf("solve differs from gonum LU by %.3g", d)
 	}
 }

@@ -8,6 +8,7 @@ import (
 
 	"gonum.org/v1/gonum/mat"
 
+	"github.com/successor-go/successor/internal/testtol"
 	"github.com/successor-go/successor/linalg"
 )
 
@@ -46,11 +47,11 @@ func TestSuccessorPowerSeries(t *testing.T) {
 		}
 		want := 1 / (1 - gamma)
 		for i := 0; i < n; i++ {
-			if s := mat.Sum(m.RowView(i)); math.Abs(s-want) > tolExact*want*float64(n) {
+			if s := mat.Sum(m.RowView(i)); math.Abs(s-want) > testtol.Exact*want*float64(n) {
 				t.Errorf("seed %d: row %d sums to %v, want 1/(1-gamma) = %v", seed, i, s, want)
 			}
 			for j := 0; j < n; j++ {
-				if m.At(i, j) < -tolExact {
+				if m.At(i, j) < -testtol.Exact {
 					t.Errorf("seed %d: M[%d][%d] = %v negative", seed, i, j, m.At(i, j))
 				}
 			}
@@ -118,7 +119,7 @@ func TestSolveSuccessorAgainstGonum(t *testing.T) {
 			t.Fatalf("%s: %v", c.name, err)
 		}
 		want := gonumSolve(c.p, c.gamma, b)
-		if d := maxRelDiff(&x, want); d > tolSolve {
+		if d := maxRelDiff(&x, want); d > testtol.Solve {
 			t.Errorf("%s: differs from gonum LU by %.3g", c.name, d)
 		}
 		// Successor on the same path, against gonum's solve for I.
@@ -130,7 +131,7 @@ func TestSolveSuccessorAgainstGonum(t *testing.T) {
 		for i := 0; i < n; i++ {
 			eye.Set(i, i, 1)
 		}
-		if d := maxRelDiff(&m, gonumSolve(c.p, c.gamma, eye)); d > tolSolve {
+		if d := maxRelDiff(&m, gonumSolve(c.p, c.gamma, eye)); d > testtol.Solve {
 			t.Errorf("%s: successor differs from gonum LU by %.3g", c.name, d)
 		}
 		// b may be dst.

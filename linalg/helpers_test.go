@@ -9,12 +9,6 @@ import (
 	"github.com/successor-go/successor/linalg"
 )
 
-// Tolerance tiers (common practice, as in the math package's tests).
-const (
-	tolExact = 1e-12 // direct solves on well-conditioned problems
-	tolSolve = 1e-10 // direct solves compared with another direct solver
-)
-
 // randStochastic returns a dense n x n row-stochastic matrix whose entries
 // are zero with probability zero (0 <= zero < 1), with at least one
 // positive entry per row.

@@ -3,9 +3,9 @@ package linalg
 import (
 	"fmt"
 	"math"
-	"math/rand/v2"
 	"runtime"
 	"sort"
+	"sync"
 )
 
 // IterMethod selects the Krylov method of the iterative solver.
@@ -31,39 +31,6 @@ const (
 	// IterSettings.Restart).
 	IterGMRES
 )
-
-// Precond selects the preconditioner of the iterative solver.
-type Precond int
-
-const (
-	// PrecondAuto uses PrecondSGS when I - gamma P is diagonally dominant
-	// by rows with a positive diagonal (always so for a sub-stochastic P
-	// and gamma < 1) and PrecondJacobi otherwise, since the triangular
-	// solves of Gauss-Seidel can amplify errors exponentially on a
-	// matrix far from dominance.
-	PrecondAuto Precond = iota
-	// PrecondSGS is symmetric Gauss-Seidel, M = (D + L) D^-1 (D + U) for
-	// A = L + D + U, applied by Eisenstat's trick so that one preconditioned
-	// product costs about one product with P. With several workers it is
-	// block symmetric Gauss-Seidel over the workers' row blocks.
-	PrecondSGS
-	// PrecondJacobi is the diagonal preconditioner M = D (entries of D that
-	// are not positive are replaced by 1).
-	PrecondJacobi
-)
-
-// String returns the preconditioner's name.
-func (p Precond) String() string {
-	switch p {
-	case PrecondAuto:
-		return "auto"
-	case PrecondSGS:
-		return "sgs"
-	case PrecondJacobi:
-		return "jacobi"
-	}
-	return fmt.Sprintf("Precond(%d)", int(p))
-}
 
 // String returns the method's name.
 func (m IterMethod) String() string {
@@ -179,39 +146,21 @@ type IterSolver struct {
 	// the Hessenberg matrix (column j at hess[j(m+1):]), the Givens
 	// rotations and the rotated right-hand side (then the coefficients).
 	basis, hess, cs, sn, gv []float64
-	gk                      int // basis vectors combined by kGMRESUpdate
 
+	// Arguments of the block kernels, set by the caller of forBlocks:
+	// the scalars of the current step; the vectors of op, scaleW and mgs;
+	// fuseDir, which makes sweepUpper first set opSrc = w r + beta opSrc
+	// (the CG direction); and gk, the basis vectors gmresUpdate combines.
 	alpha, beta, omega  float64
-	fuseDir             bool // kOp1 first sets opSrc = w r + beta opSrc (CG)
 	opDst, opSrc, opDot []float64
+	fuseDir             bool
+	gk                  int
 
-	// parallel team
-	nw     int
+	// Row blocks: block k is rows bounds[k] to bounds[k+1]-1; part[k]
+	// holds its partial sums during forBlocks.
 	bounds []int
-	req    []chan int
-	done   chan struct{}
-	out    [][4]float64
+	part   [][2]float64
 }
-
-// Kernels run by the team over row blocks.
-const (
-	kResidual     = iota // r = b - A x (true residual); r.r
-	kOp1                 // SGS: t = (D + U_b)^-1 opSrc
-	kOp2                 // opDst = K opSrc; opDst.opDot, opDst.opDst
-	kRHS                 // r = bh = (D + L_b)^-1 b (SGS) or b
-	kToX                 // x = (D + U_b)^-1 y in place (SGS)
-	kToY                 // y = (D + U_b) x in place (SGS)
-	kInitR               // r = r - q (r holds bh); r.r, r.w r
-	kCGDir               // p = w r + beta p
-	kCGUpdate            // y += alpha p; r -= alpha q; r.w r, r.r
-	kBiDir               // p = r + beta (p - omega v); phat = w p
-	kBiS                 // s = r - alpha v (s in q); shat = w s; s.s
-	kBiUpdate            // y += alpha phat + omega shat; r = s - omega t (t in r); rhat.r, r.r
-	kBiUpdateHalf        // y += alpha phat
-	kScaleW              // opDst = alpha opSrc; phat = w opDst
-	kMGS                 // opDst -= alpha opSrc; opDst.opDot (if opDot != nil), opDst.opDst
-	kGMRESUpdate         // y += w (V[:, :gk] gv[:gk]) (pv as scratch)
-)
 
 // iterStatus is how a Krylov run ended.
 type iterStatus int
@@ -222,21 +171,6 @@ const (
 	stBreakdown                   // an inner product or curvature that the method divides by vanished
 	stNonFinite                   // a non-finite residual
 )
-
-// breakTol is the cosine below which BiCGSTAB treats one of its inner
-// products (rhat.r for rho, rhat.v for alpha, t.s for omega) as a
-// breakdown: the quantity is then pure rounding noise relative to the
-// norms of its factors (a relative error of about 1e-16/breakTol).
-const breakTol = 1e-14
-
-// maxBreakdowns is the number of BiCGSTAB breakdowns (the first with
-// rhat = r0, then with pseudo-random shadows) after which IterAuto hands
-// over to GMRES. A diverging BiCGSTAB ends in breakdowns too: rho shrinks
-// relative to the growing residual.
-const maxBreakdowns = 3
-
-// defaultRestart is GMRES's restart length m when IterSettings.Restart is 0.
-const defaultRestart = 30
 
 func grow(s []float64, n int) []float64 {
 	if cap(s) < n {
@@ -410,8 +344,7 @@ func (s *IterSolver) Solve(dst []float64, p *CSR, gamma float64, b []float64, se
 	if err := s.compactIndices(); err != nil {
 		return IterResult{}, err
 	}
-	s.startTeam(cfg.Workers)
-	defer s.stopTeam()
+	s.splitRows(cfg.Workers)
 	if s.sgs {
 		s.diagPositions()
 	}
@@ -432,7 +365,7 @@ func (s *IterSolver) Solve(dst []float64, p *CSR, gamma float64, b []float64, se
 	checks := 0 // runs whose recurrence residual met the target but the true one did not
 	for {
 		if warm && s.sgs {
-			s.run(kToY)
+			s.forBlocks((*IterSolver).toY)
 		}
 		var st iterStatus
 		switch method {
@@ -444,10 +377,10 @@ func (s *IterSolver) Solve(dst []float64, p *CSR, gamma float64, b []float64, se
 			st = s.gmres(&res, target, cfg.MaxIter, restart, warm)
 		}
 		if s.sgs {
-			s.run(kToX)
+			s.forBlocks((*IterSolver).toX)
 		}
 		warm = true
-		rr := s.run(kResidual)[0]
+		rr := s.forBlocks((*IterSolver).residual)[0]
 		res.Residual = math.Sqrt(rr) / bnorm
 		if res.Residual <= cfg.Tol {
 			return res, nil
@@ -569,578 +502,20 @@ func (s *IterSolver) compactIndices() error {
 	return nil
 }
 
-// diagPositions fills dpos.
-func (s *IterSolver) diagPositions() {
-	if cap(s.dpos) < s.n {
-		s.dpos = make([]int32, s.n)
-	}
-	s.dpos = s.dpos[:s.n]
-	for i := 0; i < s.n; i++ {
-		ind, _ := s.p.Row(i)
-		s.dpos[i] = int32(sort.SearchInts(ind, i))
-	}
-}
-
-// lowerNorm returns sqrt(||D + L_b||_1 ||D + L_b||_inf), a bound on the
-// 2-norm of D + L_b (the block lower triangle used by SGS).
-func (s *IterSolver) lowerNorm() float64 {
-	if cap(s.t) < s.n {
-		s.t = make([]float64, s.n)
-	}
-	col := s.t[:s.n] // column sums; t is overwritten before use
-	clear(col)
-	var rowMax float64
-	for w := 0; w < s.nw; w++ {
-		lo, hi := s.bounds[w], s.bounds[w+1]
-		for i := lo; i < hi; i++ {
-			ind, val := s.p.Row(i)
-			sum := math.Abs(s.d[i])
-			col[i] += sum
-			for k, j := range ind[:s.dpos[i]] {
-				if j >= lo {
-					a := s.gamma * math.Abs(val[k])
-					sum += a
-					col[j] += a
-				}
-			}
-			rowMax = max(rowMax, sum)
-		}
-	}
-	var colMax float64
-	for _, v := range col {
-		colMax = max(colMax, v)
-	}
-	return max(1, math.Sqrt(rowMax*colMax))
-}
-
-// op sets dst = K src and returns dst.dot and dst.dst.
-func (s *IterSolver) op(dst, src, dot []float64) (float64, float64) {
-	s.opDst, s.opSrc, s.opDot = dst, src, dot
-	if s.sgs {
-		s.run(kOp1)
-	}
-	o := s.run(kOp2)
-	return o[0], o[1]
-}
-
-// cg runs conjugate gradients on K y = bh with weights w from the current y
-// (zero unless warm). A non-positive curvature p.K p is a breakdown.
-func (s *IterSolver) cg(res *IterResult, target float64, maxIter int, warm bool) iterStatus {
-	s.fuseDir = false
-	defer func() { s.fuseDir = false }()
-	if warm {
-		s.op(s.q, s.x, s.q)
-	} else {
-		clear(s.q)
-	}
-	s.run(kRHS)
-	o := s.run(kInitR)
-	rr, rz := o[0], o[1]
-	if math.Sqrt(rr) <= target {
-		return stConverged
-	}
-	s.beta = 0
-	s.run(kCGDir)
-	for res.Iterations < maxIter {
-		res.Iterations++
-		pq, _ := s.op(s.q, s.pv, s.pv)
-		s.fuseDir = false
-		if !(pq > 0) {
-			if math.IsNaN(pq) {
-				return stNonFinite
-			}
-			return stBreakdown
-		}
-		s.alpha = rz / pq
-		o := s.run(kCGUpdate)
-		rzNew, rrNew := o[0], o[1]
-		if math.Sqrt(rrNew) <= target {
-			return stConverged
-		}
-		if math.IsNaN(rrNew) || math.IsInf(rrNew, 0) {
-			return stNonFinite
-		}
-		s.beta = rzNew / rz
-		rz = rzNew
-		if s.sgs {
-			s.fuseDir = true // done by the next product's first sweep
-		} else {
-			s.run(kCGDir)
-		}
-	}
-	return stMaxIter
-}
-
-// bicgstab runs right-preconditioned BiCGSTAB (van der Vorst 1992,
-// Algorithm Bi-CGSTAB) on K y = bh with weights w from the current y. The
-// shadow residual rhat is r0 when shadow is 0 and otherwise the shadow-th
-// pseudo-random vector (see randomShadow). It reports a breakdown when
-// rho = rhat.r, rhat.v or t.s (whose ratio is omega) falls below breakTol
-// times the norms of its two factors; y then holds the last iterate
-// (including the alpha step when omega broke down).
-func (s *IterSolver) bicgstab(res *IterResult, target float64, maxIter int, warm bool, shadow int) iterStatus {
-	n := s.n
-	s.rhat = grow(s.rhat, n)
-	s.v = grow(s.v, n)
-	s.phat = grow(s.phat, n)
-	s.shat = grow(s.shat, n)
-	if warm {
-		s.op(s.q, s.x, s.q)
-	} else {
-		clear(s.q)
-	}
-	s.run(kRHS)
-	rr := s.run(kInitR)[0]
-	if math.Sqrt(rr) <= target {
-		return stConverged
-	}
-	if math.IsNaN(rr) || math.IsInf(rr, 0) {
-		return stNonFinite
-	}
-	var rhoNew, rhatNorm float64
-	if shadow == 0 {
-		copy(s.rhat, s.r)
-		rhoNew, rhatNorm = rr, math.Sqrt(rr)
-	} else {
-		rhoNew, rhatNorm = s.randomShadow(shadow)
-	}
-	clear(s.pv)
-	clear(s.v)
-	rho, alpha, omega := 1.0, 1.0, 1.0
-	for res.Iterations < maxIter {
-		res.Iterations++
-		if !(math.Abs(rhoNew) > breakTol*rhatNorm*math.Sqrt(rr)) {
-			return stBreakdown
-		}
-		s.beta = (rhoNew / rho) * (alpha / omega)
-		s.omega = omega
-		rho = rhoNew
-		s.run(kBiDir)
-		rv, vv := s.op(s.v, s.phat, s.rhat)
-		if math.IsNaN(rv) || math.IsInf(vv, 0) {
-			return stNonFinite
-		}
-		if !(math.Abs(rv) > breakTol*rhatNorm*math.Sqrt(vv)) {
-			return stBreakdown
-		}
-		alpha = rho / rv
-		s.alpha = alpha
-		ss := s.run(kBiS)[0]
-		if math.Sqrt(ss) <= target {
-			s.run(kBiUpdateHalf)
-			return stConverged
-		}
-		// t = K shat, stored in r (r is rebuilt from s and t below).
-		ts, tt := s.op(s.r, s.shat, s.q)
-		if math.IsNaN(ts) || math.IsInf(tt, 0) {
-			return stNonFinite
-		}
-		if !(math.Abs(ts) > breakTol*math.Sqrt(tt*ss)) {
-			// omega ~ 0 would stall every later step: keep the alpha
-			// step and restart.
-			s.run(kBiUpdateHalf)
-			return stBreakdown
-		}
-		omega = ts / tt
-		s.omega = omega
-		o := s.run(kBiUpdate)
-		rhoNew, rr = o[0], o[1]
-		if math.Sqrt(rr) <= target {
-			return stConverged
-		}
-		if math.IsNaN(rr) || math.IsInf(rr, 0) {
-			return stNonFinite
-		}
-	}
-	return stMaxIter
-}
-
-// randomShadow fills rhat with the k-th pseudo-random shadow residual,
-// entries uniform in [-1, 1) from a PCG generator seeded by k (the same
-// bits on every call and machine), and returns rhat.r and ||rhat||.
-func (s *IterSolver) randomShadow(k int) (rho, norm float64) {
-	var g rand.PCG
-	g.Seed(0x5eed5eed, uint64(k))
-	var nn float64
-	r := s.r[:len(s.rhat)]
-	for i := range s.rhat {
-		v := float64(g.Uint64()>>11)*0x1p-52 - 1
-		s.rhat[i] = v
-		rho += v * r[i]
-		nn += v * v
-	}
-	return rho, math.Sqrt(nn)
-}
-
-// gmres runs restarted GMRES(m) (Saad & Schultz 1986, SIAM J. Sci. Stat.
-// Comput. 7(3); Saad 2003, Algorithm 6.9) on K W z = bh, y = W z, with W the
-// diagonal weights w (right preconditioning), from the current y. The
-// Arnoldi basis is orthogonalised by modified Gram-Schmidt, each axpy
-// fused with the next inner product, and the least-squares problem is
-// solved by Givens rotations, whose running residual |g[k]| is
-// ||bh - K y|| for the current iterate (in exact arithmetic). The
-// residual is recomputed from y at each restart.
-func (s *IterSolver) gmres(res *IterResult, target float64, maxIter, m int, warm bool) iterStatus {
-	n := s.n
-	s.basis = grow(s.basis, (m+1)*n)
-	s.phat = grow(s.phat, n)
-	s.hess = grow(s.hess, (m+1)*m)
-	s.cs = grow(s.cs, m)
-	s.sn = grow(s.sn, m)
-	s.gv = grow(s.gv, m+1)
-	vec := func(j int) []float64 { return s.basis[j*n : (j+1)*n] }
-	hess, cs, sn, gv := s.hess, s.cs, s.sn, s.gv
-	for {
-		if warm {
-			s.op(s.q, s.x, s.q)
-		} else {
-			clear(s.q)
-		}
-		warm = true
-		s.run(kRHS)
-		rr := s.run(kInitR)[0]
-		beta := math.Sqrt(rr)
-		if beta <= target {
-			return stConverged
-		}
-		if math.IsNaN(beta) || math.IsInf(beta, 0) {
-			return stNonFinite
-		}
-		if res.Iterations >= maxIter {
-			return stMaxIter
-		}
-		s.opDst, s.opSrc, s.alpha = vec(0), s.r, 1/beta
-		s.run(kScaleW) // v0 = r/beta, phat = w v0
-		clear(gv)
-		gv[0] = beta
-		k, st := 0, stMaxIter
-		for k < m && res.Iterations < maxIter {
-			res.Iterations++
-			h := hess[k*(m+1) : (k+1)*(m+1)]
-			w := vec(k + 1)
-			h0, ww := s.op(w, s.phat, vec(0))
-			h[0] = h0
-			for i := 0; i <= k; i++ {
-				s.opDst, s.opSrc, s.opDot, s.alpha = w, vec(i), nil, h[i]
-				if i < k {
-					s.opDot = vec(i + 1)
-				}
-				o := s.run(kMGS)
-				if i < k {
-					h[i+1] = o[0]
-				}
-				ww = o[1]
-			}
-			hn := math.Sqrt(ww)
-			h[k+1] = hn
-			for i := 0; i < k; i++ {
-				a, b := h[i], h[i+1]
-				h[i], h[i+1] = cs[i]*a+sn[i]*b, -sn[i]*a+cs[i]*b
-			}
-			rot := math.Hypot(h[k], h[k+1])
-			if math.IsNaN(rot) || math.IsInf(rot, 0) {
-				st = stNonFinite
-				break
-			}
-			if rot == 0 {
-				// K W is singular on the Krylov space: drop column k.
-				st = stBreakdown
-				break
-			}
-			cs[k], sn[k] = h[k]/rot, h[k+1]/rot
-			h[k], h[k+1] = rot, 0
-			gv[k], gv[k+1] = cs[k]*gv[k], -sn[k]*gv[k]
-			k++
-			if math.Abs(gv[k]) <= target || hn == 0 {
-				// Converged, or the Krylov space is invariant (the
-				// solution lies in it: a lucky breakdown).
-				st = stConverged
-				break
-			}
-			s.opDst, s.opSrc, s.alpha = w, w, 1/hn
-			s.run(kScaleW) // v_{k+1} = w/hn, phat = w v_{k+1}
-		}
-		// Solve the k x k triangular system H c = g, c into gv, and
-		// update y += W V c.
-		for i := k - 1; i >= 0; i-- {
-			sum := gv[i]
-			for j := i + 1; j < k; j++ {
-				sum -= hess[j*(m+1)+i] * gv[j]
-			}
-			gv[i] = sum / hess[i*(m+1)+i]
-		}
-		s.gk = k
-		s.opDot = nil
-		if k > 0 {
-			s.run(kGMRESUpdate)
-		}
-		if st != stMaxIter || res.Iterations >= maxIter {
-			return st
-		}
-	}
-}
-
-// kernel runs kernel k over the rows of block w and returns its partial
-// sums.
-func (s *IterSolver) kernel(k, w int) (o [4]float64) {
-	lo, hi := s.bounds[w], s.bounds[w+1]
-	p, g := s.p, s.gamma
-	ptr, ind, val := s.ptr32, s.ind32, p.Val
-	switch k {
-	case kResidual:
-		x, b, r := s.x, s.b[:hi], s.r[:hi]
-		var rr float64
-		for i := lo; i < hi; i++ {
-			ri, rv := ind[ptr[i]:ptr[i+1]], val[ptr[i]:ptr[i+1]]
-			rv = rv[:len(ri)]
-			var sum float64
-			for t, j := range ri {
-				sum += rv[t] * x[j]
-			}
-			v := b[i] - (x[i] - g*sum)
-			r[i] = v
-			rr += v * v
-		}
-		o[0] = rr
-	case kOp1:
-		// t = (D + U_b)^-1 src, backward over the block.
-		t, src, dinv := s.t[:hi], s.opSrc[:hi], s.dinv[:hi]
-		// With fuseDir, the CG direction src = w r + beta src is formed
-		// row by row on the way (the sweeps read only row i of src).
-		fuse, wt, r, beta := s.fuseDir, s.w[:hi], s.r[:hi], s.beta
-		for i := hi - 1; i >= lo; i-- {
-			a, e := int(ptr[i])+int(s.dpos[i]), int(ptr[i+1])
-			if a < e && int(ind[a]) == i {
-				a++
-			}
-			// Sum far columns first so that the dependence on t[i+1]
-			// enters last.
-			var sum float64
-			for k := e - 1; k >= a; k-- {
-				if j := int(ind[k]); j < hi {
-					sum += val[k] * t[j]
-				}
-			}
-			si := src[i]
-			if fuse {
-				si = wt[i]*r[i] + beta*si
-				src[i] = si
-			}
-			t[i] = (si + g*sum) * dinv[i]
-		}
-	case kOp2:
-		dst, src, dot := s.opDst[:hi], s.opSrc, s.opDot[:hi]
-		var dd, d2 float64
-		if !s.sgs {
-			for i := lo; i < hi; i++ {
-				ri, rv := ind[ptr[i]:ptr[i+1]], val[ptr[i]:ptr[i+1]]
-				rv = rv[:len(ri)]
-				var sum float64
-				for t, j := range ri {
-					sum += rv[t] * src[j]
-				}
-				v := src[i] - g*sum
-				dst[i] = v
-				dd += v * dot[i]
-				d2 += v * v
-			}
-			o[0], o[1] = dd, d2
-			return o
-		}
-		// dst = t + (D + L_b)^-1 (src - D t + E t), forward over the block;
-		// the solved part is dst - t.
-		t, d, dinv := s.t, s.d[:hi], s.dinv[:hi]
-		for i := lo; i < hi; i++ {
-			a, e := int(ptr[i]), int(ptr[i+1])
-			m := a + int(s.dpos[i])
-			var sumL, sumE float64
-			for k := a; k < m; k++ {
-				j := int(ind[k])
-				if j < lo {
-					sumE += val[k] * t[j]
-				} else {
-					sumL += val[k] * (dst[j] - t[j])
-				}
-			}
-			for k := e - 1; k >= m; k-- {
-				j := int(ind[k])
-				if j < hi {
-					break
-				}
-				sumE += val[k] * t[j]
-			}
-			ti := t[i]
-			v := ti + (src[i]-d[i]*ti-g*sumE+g*sumL)*dinv[i]
-			dst[i] = v
-			dd += v * dot[i]
-			d2 += v * v
-		}
-		o[0], o[1] = dd, d2
-	case kRHS:
-		bh, b := s.r[:hi], s.b[:hi]
-		if !s.sgs {
-			copy(bh[lo:hi], b[lo:hi])
-			return o
-		}
-		dinv := s.dinv[:hi]
-		for i := lo; i < hi; i++ {
-			a := int(ptr[i])
-			m := a + int(s.dpos[i])
-			var sum float64
-			for k := a; k < m; k++ {
-				if j := int(ind[k]); j >= lo {
-					sum += val[k] * bh[j]
-				}
-			}
-			bh[i] = (b[i] + g*sum) * dinv[i]
-		}
-	case kToX:
-		// x = (D + U_b)^-1 y in place, backward.
-		x, dinv := s.x[:hi], s.dinv[:hi]
-		for i := hi - 1; i >= lo; i-- {
-			a, e := int(ptr[i])+int(s.dpos[i]), int(ptr[i+1])
-			var sum float64
-			for k := a; k < e; k++ {
-				j := int(ind[k])
-				if j >= hi {
-					break
-				}
-				if j > i {
-					sum += val[k] * x[j]
-				}
-			}
-			x[i] = (x[i] + g*sum) * dinv[i]
-		}
-	case kToY:
-		// y = (D + U_b) x in place, forward (x[j], j > i, still unchanged).
-		x, d := s.x[:hi], s.d[:hi]
-		for i := lo; i < hi; i++ {
-			a, e := int(ptr[i])+int(s.dpos[i]), int(ptr[i+1])
-			var sum float64
-			for k := a; k < e; k++ {
-				j := int(ind[k])
-				if j >= hi {
-					break
-				}
-				if j > i {
-					sum += val[k] * x[j]
-				}
-			}
-			x[i] = d[i]*x[i] - g*sum
-		}
-	case kInitR:
-		r, q, w := s.r[:hi], s.q[:hi], s.w[:hi]
-		var rr, rz float64
-		for i := lo; i < hi; i++ {
-			v := r[i] - q[i]
-			r[i] = v
-			rr += v * v
-			rz += v * v * w[i]
-		}
-		o[0], o[1] = rr, rz
-	case kCGDir:
-		pv, r, w, beta := s.pv[:hi], s.r[:hi], s.w[:hi], s.beta
-		for i := lo; i < hi; i++ {
-			pv[i] = w[i]*r[i] + beta*pv[i]
-		}
-	case kCGUpdate:
-		y, r, pv, q, w, a := s.x[:hi], s.r[:hi], s.pv[:hi], s.q[:hi], s.w[:hi], s.alpha
-		var rz, rr float64
-		for i := lo; i < hi; i++ {
-			y[i] += a * pv[i]
-			v := r[i] - a*q[i]
-			r[i] = v
-			rr += v * v
-			rz += v * v * w[i]
-		}
-		o[0], o[1] = rz, rr
-	case kBiDir:
-		pv, r, v, ph, w, beta, om := s.pv[:hi], s.r[:hi], s.v[:hi], s.phat[:hi], s.w[:hi], s.beta, s.omega
-		for i := lo; i < hi; i++ {
-			t := r[i] + beta*(pv[i]-om*v[i])
-			pv[i] = t
-			ph[i] = w[i] * t
-		}
-	case kBiS:
-		r, v, q, sh, w, a := s.r[:hi], s.v[:hi], s.q[:hi], s.shat[:hi], s.w[:hi], s.alpha
-		var ss float64
-		for i := lo; i < hi; i++ {
-			t := r[i] - a*v[i]
-			q[i] = t
-			sh[i] = w[i] * t
-			ss += t * t
-		}
-		o[0] = ss
-	case kBiUpdate:
-		y, ph, sh, r, q, rhat, a, om := s.x[:hi], s.phat[:hi], s.shat[:hi], s.r[:hi], s.q[:hi], s.rhat[:hi], s.alpha, s.omega
-		var rhr, rr float64
-		for i := lo; i < hi; i++ {
-			y[i] += a*ph[i] + om*sh[i]
-			t := q[i] - om*r[i] // r holds t here
-			r[i] = t
-			rhr += rhat[i] * t
-			rr += t * t
-		}
-		o[0], o[1] = rhr, rr
-	case kBiUpdateHalf:
-		y, ph, a := s.x[:hi], s.phat[:hi], s.alpha
-		for i := lo; i < hi; i++ {
-			y[i] += a * ph[i]
-		}
-	case kScaleW:
-		dst, src, ph, w, a := s.opDst[:hi], s.opSrc[:hi], s.phat[:hi], s.w[:hi], s.alpha
-		for i := lo; i < hi; i++ {
-			v := a * src[i]
-			dst[i] = v
-			ph[i] = w[i] * v
-		}
-	case kMGS:
-		dst, src, a := s.opDst[:hi], s.opSrc[:hi], s.alpha
-		var dd, d2 float64
-		if s.opDot == nil {
-			for i := lo; i < hi; i++ {
-				v := dst[i] - a*src[i]
-				dst[i] = v
-				d2 += v * v
-			}
-		} else {
-			dot := s.opDot[:hi]
-			for i := lo; i < hi; i++ {
-				v := dst[i] - a*src[i]
-				dst[i] = v
-				dd += v * dot[i]
-				d2 += v * v
-			}
-		}
-		o[0], o[1] = dd, d2
-	case kGMRESUpdate:
-		n := s.n
-		y, w, tmp := s.x[:hi], s.w[:hi], s.pv[:hi]
-		c := s.gv[:s.gk]
-		v0 := s.basis[:n][:hi]
-		for i := lo; i < hi; i++ {
-			tmp[i] = c[0] * v0[i]
-		}
-		for j := 1; j < len(c); j++ {
-			vj, cj := s.basis[j*n : (j+1)*n][:hi], c[j]
-			for i := lo; i < hi; i++ {
-				tmp[i] += cj * vj[i]
-			}
-		}
-		for i := lo; i < hi; i++ {
-			y[i] += w[i] * tmp[i]
-		}
-	}
-	return o
-}
+// A blockKernel runs one step of the solver over the rows lo to hi-1 (a
+// row block) and returns its partial sums (inner products), if any. The
+// kernels are the methods of IterSolver with this signature, passed as
+// method expressions such as (*IterSolver).residual; their other
+// arguments are fields of the IterSolver.
+type blockKernel func(s *IterSolver, lo, hi int) [2]float64
 
 // parallelRows is the number of rows from which the default Workers uses
 // two goroutines.
 const parallelRows = 1 << 17
 
-// startTeam starts the helper goroutines and splits the rows into blocks
-// of about equal work (stored entries plus rows).
-func (s *IterSolver) startTeam(workers int) {
+// splitRows splits the rows into one block per worker, of about equal work
+// (stored entries plus rows).
+func (s *IterSolver) splitRows(workers int) {
 	if workers <= 0 {
 		workers = 1
 		if s.n >= parallelRows {
@@ -1148,13 +523,12 @@ func (s *IterSolver) startTeam(workers int) {
 		}
 	}
 	workers = max(1, min(workers, s.n))
-	s.nw = workers
 	if cap(s.bounds) < workers+1 {
 		s.bounds = make([]int, workers+1)
-		s.out = make([][4]float64, workers)
+		s.part = make([][2]float64, workers)
 	}
 	s.bounds = s.bounds[:workers+1]
-	s.out = s.out[:workers]
+	s.part = s.part[:workers]
 	nnz := s.p.Ptr[s.n]
 	s.bounds[0] = 0
 	for w := 1; w < workers; w++ {
@@ -1171,51 +545,63 @@ func (s *IterSolver) startTeam(workers int) {
 		s.bounds[w] = lo
 	}
 	s.bounds[workers] = s.n
-	if workers == 1 {
-		return
-	}
-	s.req = make([]chan int, workers)
-	s.done = make(chan struct{}, workers)
-	for w := 1; w < workers; w++ {
-		ch := make(chan int)
-		s.req[w] = ch
-		go func() {
-			for k := range ch {
-				s.out[w] = s.kernel(k, w)
-				s.done <- struct{}{}
-			}
-		}()
-	}
 }
 
-// stopTeam ends the helper goroutines.
-func (s *IterSolver) stopTeam() {
-	if s.nw > 1 {
-		for w := 1; w < s.nw; w++ {
-			close(s.req[w])
-		}
-		s.req, s.done = nil, nil
+// forBlocks runs k over every row block and returns the sums of the
+// blocks' partial sums, added in block order so that the bits do not
+// depend on scheduling. With one block k runs on the caller's goroutine;
+// with more, blocks 1, 2, ... each run on a goroutine started for this
+// call (fork-join) while the caller runs block 0.
+func (s *IterSolver) forBlocks(k blockKernel) [2]float64 {
+	nb := len(s.bounds) - 1
+	if nb == 1 {
+		return k(s, 0, s.n)
 	}
-	s.nw = 0
+	var wg sync.WaitGroup
+	for b := 1; b < nb; b++ {
+		wg.Go(func() { s.part[b] = k(s, s.bounds[b], s.bounds[b+1]) })
+	}
+	o := k(s, s.bounds[0], s.bounds[1])
+	wg.Wait()
+	for _, q := range s.part[1:] {
+		o[0] += q[0]
+		o[1] += q[1]
+	}
+	return o
 }
 
-// run executes kernel k over all blocks and returns the summed partials.
-func (s *IterSolver) run(k int) [4]float64 {
-	if s.nw <= 1 {
-		return s.kernel(k, 0)
-	}
-	for w := 1; w < s.nw; w++ {
-		s.req[w] <- k
-	}
-	o := s.kernel(k, 0)
-	for w := 1; w < s.nw; w++ {
-		<-s.done
-	}
-	for w := 1; w < s.nw; w++ {
-		for t := range o {
-			o[t] += s.out[w][t]
+// residual sets r = b - A x (the true residual of x) and returns r.r.
+func (s *IterSolver) residual(lo, hi int) (o [2]float64) {
+	p, g := s.p, s.gamma
+	ptr, ind, val := s.ptr32, s.ind32, p.Val
+	x, b, r := s.x, s.b[:hi], s.r[:hi]
+	var rr float64
+	for i := lo; i < hi; i++ {
+		ri, rv := ind[ptr[i]:ptr[i+1]], val[ptr[i]:ptr[i+1]]
+		rv = rv[:len(ri)]
+		var sum float64
+		for t, j := range ri {
+			sum += rv[t] * x[j]
 		}
+		v := b[i] - (x[i] - g*sum)
+		r[i] = v
+		rr += v * v
 	}
+	o[0] = rr
+	return o
+}
+
+// initR sets r = r - q (r holds bh, q holds K y) and returns r.r and r.w r.
+func (s *IterSolver) initR(lo, hi int) (o [2]float64) {
+	r, q, w := s.r[:hi], s.q[:hi], s.w[:hi]
+	var rr, rz float64
+	for i := lo; i < hi; i++ {
+		v := r[i] - q[i]
+		r[i] = v
+		rr += v * v
+		rz += v * v * w[i]
+	}
+	o[0], o[1] = rr, rz
 	return o
 }
 

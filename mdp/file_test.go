@@ -12,6 +12,7 @@ import (
 	"strings"
 	"testing"
 
+	"github.com/successor-go/successor/internal/testtol"
 	"github.com/successor-go/successor/linalg"
 )
 
@@ -100,7 +101,7 @@ func TestTextbookFiles(t *testing.T) {
 		tol   float64
 	}{
 		// Sutton & Barto 2nd ed., Example 6.2: 1/6 .. 5/6.
-		{"random_walk.json", 1, []float64{0, 1. / 6, 2. / 6, 3. / 6, 4. / 6, 5. / 6, 0}, tolExact},
+		{"random_walk.json", 1, []float64{0, 1. / 6, 2. / 6, 3. / 6, 4. / 6, 5. / 6, 0}, testtol.Exact},
 		// Sutton & Barto 2nd ed., Figure 3.2, the whole table as printed
 		// (rows 2-4 from memory, as in TestEvaluateTextbook).
 		{"gridworld_3_5.json", 0.9, []float64{

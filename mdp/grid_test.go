@@ -7,6 +7,7 @@ import (
 	"testing"
 	"unicode/utf8"
 
+	"github.com/successor-go/successor/internal/testtol"
 	"github.com/successor-go/successor/linalg"
 )
 
@@ -179,7 +180,7 @@ func TestGridTerminalLabelsAndRewards(t *testing.T) {
 	}
 	// Derived by hand: reaching the goal from k steps away pays 0.5^(k-1).
 	want := []float64{0.25, 0.5, 1, 0}
-	if d := maxDiff(res.V, want); d > tolExact {
+	if d := maxDiff(res.V, want); d > testtol.Exact {
 		t.Errorf("V* = %v, want %v", res.V, want)
 	}
 	if _, err := g.Weights(map[string]float64{"nope": 1}); !errors.Is(err, ErrConfig) {

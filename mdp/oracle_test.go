@@ -8,15 +8,13 @@ import (
 
 	"gonum.org/v1/gonum/mat"
 
+	"github.com/successor-go/successor/internal/testtol"
 	"github.com/successor-go/successor/linalg"
 )
 
-// Tolerance tiers.
-const (
-	tolExact = 1e-10 // dense exact solves
-	tolIter  = 1e-8  // iterative solves
-	tolBook  = 0.05  // values printed to one decimal in a book
-)
+// tolBook is the tolerance for values printed to one decimal in a book
+// (half a unit in the last place); the tiers are in internal/testtol.
+const tolBook = 0.05
 
 // randomWalk is Sutton & Barto, Reinforcement Learning: An Introduction,
 // 2nd ed., Example 6.2: states 0 (left exit, terminal), 1..5 = A..E,
@@ -155,7 +153,7 @@ func TestEvaluateTextbook(t *testing.T) {
 			// Sutton & Barto 2nd ed., Example 6.2: true values of A..E are
 			// 1/6 .. 5/6 (exits have value 0).
 			name: "random walk", m: walk, r: walkR, gamma: 1,
-			want: []float64{0, 1. / 6, 2. / 6, 3. / 6, 4. / 6, 5. / 6, 0}, tol: tolExact,
+			want: []float64{0, 1. / 6, 2. / 6, 3. / 6, 4. / 6, 5. / 6, 0}, tol: testtol.Exact,
 		},
 		{
 			// Sutton & Barto 2nd ed., Figure 3.2 (Example 3.5), printed to one
@@ -206,7 +204,7 @@ func TestEvaluateTextbook(t *testing.T) {
 				}
 				tol := tc.tol
 				if method == SolveIterative {
-					tol = math.Max(tol, tolIter)
+					tol = math.Max(tol, testtol.Iter)
 				}
 				if d := maxDiff(v.V, tc.want); d > tol {
 					t.Errorf("method %d: max |V - want| = %.3g > %.3g\ngot  %.4f", method, d, tol, v.V)
@@ -295,7 +293,7 @@ func TestOptimalClosedFormA(t *testing.T) {
 		t.Fatal(err)
 	}
 	want := 10 / (1 - math.Pow(0.9, 5))
-	if d := math.Abs(res.V[1] - want); d > tolExact {
+	if d := math.Abs(res.V[1] - want); d > testtol.Exact {
 		t.Errorf("v*(A) = %.12f, want %.12f", res.V[1], want)
 	}
 }
@@ -341,10 +339,10 @@ func TestOptimalBruteForce(t *testing.T) {
 				best[s] = math.Max(best[s], v.V[s])
 			}
 		}
-		if d := maxDiff(res.V, best); d > tolExact {
+		if d := maxDiff(res.V, best); d > testtol.Exact {
 			t.Errorf("seed %d (n=%d A=%d gamma=%v): |V* - brute force| = %g", seed, n, na, gamma, d)
 		}
-		if res.Residual > tolExact {
+		if res.Residual > testtol.Exact {
 			t.Errorf("seed %d: residual %g", seed, res.Residual)
 		}
 	}
@@ -384,11 +382,11 @@ func TestBellmanIdentities(t *testing.T) {
 				for k, j := range next {
 					q += gamma * p[k] * v.V[j]
 				}
-				if d := math.Abs(q - v.Q[s*na+a]); d > tolExact {
+				if d := math.Abs(q - v.Q[s*na+a]); d > testtol.Exact {
 					t.Errorf("seed %d: Q(%d,%d) backup off by %g", seed, s, a, d)
 				}
 			}
-			if d := math.Abs(vs - v.V[s]); d > tolExact {
+			if d := math.Abs(vs - v.V[s]); d > testtol.Exact {
 				t.Errorf("seed %d: V(%d) != pi.Q by %g", seed, s, d)
 			}
 		}
@@ -415,7 +413,7 @@ func TestDenseIterativeAgree(t *testing.T) {
 			t.Fatal(err)
 		}
 		scale := 1 / (1 - gamma)
-		if diff := maxDiff(d.Q, it.Q); diff > tolIter*scale {
+		if diff := maxDiff(d.Q, it.Q); diff > testtol.Iter*scale {
 			t.Errorf("gamma %v: dense and iterative Q differ by %g", gamma, diff)
 		}
 		if d.Solve.Method == it.Solve.Method {
@@ -598,7 +596,7 @@ func TestStateActionChainGivesQ(t *testing.T) {
 			t.Fatal(err)
 		}
 		for i := range rbar {
-			if d := math.Abs(q.At(i, 0) - v.Q[i]); d > tolExact {
+			if d := math.Abs(q.At(i, 0) - v.Q[i]); d > testtol.Exact {
 				t.Fatalf("seed %d: Q[%d] = %v from the state-action chain, %v from Evaluate", seed, i, q.At(i, 0), v.Q[i])
 			}
 		}

@@ -5,6 +5,7 @@ import (
 	"math"
 	"math/rand/v2"
 
+	"github.com/successor-go/successor/internal/vec"
 	"github.com/successor-go/successor/linalg"
 )
 
@@ -182,22 +183,18 @@ func (p Softmax) Probs(dst []float64, s int) {
 	}
 }
 
-// argmax returns the first index of the maximum of q. It panics on an
-// empty slice or a NaN entry.
+// argmax returns the first index of the maximum of q (vec.Argmax). It
+// panics on an empty slice or a NaN entry.
 func argmax(q []float64) int {
 	if len(q) == 0 {
 		panic("mdp: no actions")
 	}
-	best := 0
-	for i, v := range q {
+	for _, v := range q {
 		if math.IsNaN(v) {
 			panic("mdp: NaN action value")
 		}
-		if v > q[best] {
-			best = i
-		}
 	}
-	return best
+	return vec.Argmax(q)
 }
 
 // SampleIndex draws an index i with probability p[i] using one rng.Float64

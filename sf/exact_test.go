@@ -9,6 +9,7 @@ import (
 
 	"gonum.org/v1/gonum/mat"
 
+	"github.com/successor-go/successor/internal/testtol"
 	"github.com/successor-go/successor/linalg"
 	"github.com/successor-go/successor/mdp"
 )
@@ -68,12 +69,12 @@ func TestExactOneHotState(t *testing.T) {
 							}
 						}
 					}
-					if d, sc := maxAbsDiff(psi.Row(s, a), want); d > tolExact*(1+sc) {
+					if d, sc := maxAbsDiff(psi.Row(s, a), want); d > testtol.Exact*(1+sc) {
 						t.Errorf("seed %d gamma %v: psi(%d,%d) off by %g from e_s + gamma P M", seed, gamma, s, a, d)
 					}
 					axpy(avg, psi.Row(s, a), probs[a])
 				}
-				if d, sc := maxAbsDiff(avg, mat.Row(nil, s, &sr)); d > tolExact*(1+sc) {
+				if d, sc := maxAbsDiff(avg, mat.Row(nil, s, &sr)); d > testtol.Exact*(1+sc) {
 					t.Errorf("seed %d gamma %v: sum_a pi psi(%d,a) off by %g from M[%d]", seed, gamma, s, d, s)
 				}
 			}
@@ -105,7 +106,7 @@ func TestExactOneHotStateAction(t *testing.T) {
 				if !m.Terminal(s) {
 					mat.Row(want, s*na+a, &sr)
 				}
-				if d, sc := maxAbsDiff(psi.Row(s, a), want); d > tolExact*(1+sc) {
+				if d, sc := maxAbsDiff(psi.Row(s, a), want); d > testtol.Exact*(1+sc) {
 					t.Errorf("seed %d: psi(%d,%d) off by %g from the state-action SR", seed, s, a, d)
 				}
 			}
@@ -124,12 +125,12 @@ func TestExactQ(t *testing.T) {
 		gamma           float64
 		tol             float64
 	}{
-		{5, 2, 0, 0.9, tolExact},
-		{12, 3, 0.2, 0.99, tolExact},
-		{30, 4, 0.1, 0.5, tolExact},
-		{20, 2, 0, 0, tolExact},
-		{2100, 2, 0.05, 0.9, tolIter}, // 4200 pairs, not banded: iterative
-		{2100, 2, 0.3, 1, tolIter},    // iterative at gamma = 1
+		{5, 2, 0, 0.9, testtol.Exact},
+		{12, 3, 0.2, 0.99, testtol.Exact},
+		{30, 4, 0.1, 0.5, testtol.Exact},
+		{20, 2, 0, 0, testtol.Exact},
+		{2100, 2, 0.05, 0.9, testtol.Iter}, // 4200 pairs, not banded: iterative
+		{2100, 2, 0.3, 1, testtol.Iter},    // iterative at gamma = 1
 	} {
 		t.Run(fmt.Sprintf("n=%d,A=%d,gamma=%v", tc.states, tc.actions, tc.gamma), func(t *testing.T) {
 			for seed := uint64(1); seed <= 3; seed++ {
@@ -180,7 +181,7 @@ func TestExactRandomWalk(t *testing.T) {
 	}
 	for s := 1; s <= 5; s++ {
 		v := 0.5*psi.Row(s, 0)[0] + 0.5*psi.Row(s, 1)[0]
-		if want := float64(s) / 6; math.Abs(v-want) > tolExact {
+		if want := float64(s) / 6; math.Abs(v-want) > testtol.Exact {
 			t.Errorf("V(%c) = %v, want %v", 'A'+s-1, v, want)
 		}
 	}
@@ -192,7 +193,7 @@ func TestExactRandomWalk(t *testing.T) {
 		for j := 1; j <= 5; j++ {
 			got := 0.5*sr.Row(i, 0)[j] + 0.5*sr.Row(i, 1)[j]
 			want := 2 * float64(min(i, j)*(6-max(i, j))) / 6
-			if math.Abs(got-want) > tolExact {
+			if math.Abs(got-want) > testtol.Exact {
 				t.Errorf("N[%d][%d] = %v, want %v", i, j, got, want)
 			}
 		}
@@ -230,7 +231,7 @@ func TestExactBellman(t *testing.T) {
 					axpy(want, psi.Row(s2, a2), gamma*prob[i]*q)
 				}
 			}
-			if d, sc := maxAbsDiff(psi.Row(s, a), want); d > tolExact*(1+sc) {
+			if d, sc := maxAbsDiff(psi.Row(s, a), want); d > testtol.Exact*(1+sc) {
 				t.Errorf("Bellman residual at (%d,%d) = %g", s, a, d)
 			}
 		}
@@ -303,7 +304,7 @@ func TestExactLongWalk(t *testing.T) {
 		v := 0.5 * (psi.Row(s, 0)[0] + psi.Row(s, 1)[0])
 		worst = max(worst, math.Abs(v-float64(s)/(n+1)))
 	}
-	if worst > tolIter {
+	if worst > testtol.Iter {
 		t.Errorf("max |V - i/(n+1)| = %g", worst)
 	}
 }

@@ -117,6 +117,7 @@ func ExampleTD() {
 	// 2 min(i,j) (6 - max(i,j)) / 6 of the symmetric walk absorbed at 0 and
 	// 6, gambler's ruin, from memory). The TD figure 2.997 is our own seeded
 	// run (a regression value), checked against the exact table above.
+
 	// Output:
 	// expected visits to C from C, moving right first: TD 2.997, exact 3.000
 	// max error below 0.01: true

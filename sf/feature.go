@@ -5,6 +5,7 @@ import (
 	"math"
 	"math/rand/v2"
 
+	"github.com/successor-go/successor/internal/vec"
 	"github.com/successor-go/successor/mdp"
 )
 
@@ -231,22 +232,12 @@ func NewRandom(n, d int, unit bool, rng *rand.Rand) (*NextState, error) {
 	f := &NextState{n: n, d: d, data: make([]float64, n*d)}
 	for s := 0; s < n; s++ {
 		r := f.data[s*d : (s+1)*d]
-		for {
-			var ss float64
-			for k := range r {
-				r[k] = rng.NormFloat64()
-				ss += r[k] * r[k]
-			}
-			if !unit {
-				break
-			}
-			if ss > 0 {
-				inv := 1 / math.Sqrt(ss)
-				for k := range r {
-					r[k] *= inv
-				}
-				break
-			}
+		if unit {
+			vec.SampleSphere(r, rng)
+			continue
+		}
+		for k := range r {
+			r[k] = rng.NormFloat64()
 		}
 	}
 	return f, nil

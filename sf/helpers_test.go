@@ -9,14 +9,6 @@ import (
 	"github.com/successor-go/successor/mdp"
 )
 
-// Tolerance tiers (common practice, as in gonum's tests): direct solves
-// agree to about 1e-12 relative; iterative solves to their tolerance; TD
-// estimates to a few per cent.
-const (
-	tolExact = 1e-10
-	tolIter  = 1e-7
-)
-
 // randomWalk returns the random walk of Sutton & Barto, Reinforcement
 // Learning 2nd ed., Example 6.2: states 0..6, with 0 and 6 terminal and
 // 1..5 the non-terminal states A..E; every episode starts in C (state 3).

@@ -160,21 +160,12 @@ func (l *TDLambda) Update(s, a, next int, terminal bool, nextAction int) error {
 	l.phi.Features(l.buf, s, a, next)
 	pair := s*na + a
 	cur := t.Data[pair*d : (pair+1)*d]
-	delta := l.delta
-	var check float64
-	if terminal {
-		for k := range delta {
-			delta[k] = l.buf[k] - cur[k]
-			check += delta[k]
-		}
-	} else {
+	var nxt []float64
+	if !terminal {
 		q := (next*na + nextAction) * d
-		nxt := t.Data[q : q+d]
-		for k := range delta {
-			delta[k] = l.buf[k] + l.gamma*nxt[k] - cur[k]
-			check += delta[k]
-		}
+		nxt = t.Data[q : q+d]
 	}
+	check := kernelDelta(l.delta, l.buf, nxt, cur, l.gamma)
 	l.steps++
 	if math.IsNaN(check) || math.IsInf(check, 0) {
 		l.err = &DivergenceError{Learner: "td lambda", Step: l.steps, State: s, Action: a}
@@ -191,7 +182,7 @@ func (l *TDLambda) Update(s, a, next int, terminal bool, nextAction int) error {
 	alpha := l.sched.step(0)
 	for j := 0; j < len(l.live); {
 		i := l.live[j]
-		axpy(t.Data[i*d:(i+1)*d], delta, alpha*l.e[i])
+		axpy(t.Data[i*d:(i+1)*d], l.delta, alpha*l.e[i])
 		if e := l.e[i] * l.decay; e > 0 && e > l.cutoff {
 			l.e[i] = e
 			j++

@@ -149,7 +149,7 @@ type TDSettings struct {
 // For the built-in one-hot and label maps the learner never forms phi (it
 // adds alpha at the one or two hot entries), and for NextState and random
 // features it reads the stored row in place. With such a map, the Sampled
-// target and a constant step below 1, Update makes one pass over the row:
+// target and a step below 1, Update makes one pass over the row:
 // about the cost of a row of multiply-adds (see BenchmarkTDRatio). The
 // Greedy and Expected targets read the A rows of the next state first.
 //
@@ -159,7 +159,7 @@ type TD struct {
 	Table *Table // the table being learned
 
 	phi    FeatureMap
-	kind   mapKind   // built-in map fast path
+	kind   mapKind   // built-in sparse map
 	labels []int     // label of each state, for kindLabels
 	lconst int       // index of the constant label dimension, or -1
 	sparse sparseMap // other sparse maps
@@ -169,10 +169,8 @@ type TD struct {
 	probs  []float64 // pi(a|s) at s*A + a, for Expected
 	task   []float64 // w, for Greedy
 	sched  schedule
+	step   step // the scalars of a constant step
 
-	fast  bool      // Update's fast path applies
-	alpha float64   // constant step (fast path)
-	om, h float64   // 1 - alpha and alpha*gamma/(1 - alpha) (fast path)
 	buf   []float64 // phi scratch for generic maps
 	mix   []float64 // expected-target scratch
 	steps int
@@ -228,8 +226,7 @@ func NewTD(t *Table, phi FeatureMap, gamma float64, s *TDSettings) (*TD, error) 
 		l.sparse, _ = phi.(sparseMap)
 		l.rows, _ = phi.(rowMap)
 	}
-	l.fast = l.kind != kindOther && (s.Target == Sampled || s.Target == Greedy) && l.sched.visits == nil && st.Alpha < 1
-	l.alpha, l.om, l.h = st.Alpha, 1-st.Alpha, st.Alpha*gamma/(1-st.Alpha)
+	l.step = newStep(st.Alpha, gamma)
 	if l.kind == kindState && t.D != t.S || l.kind == kindStateAction && t.D != t.S*t.A {
 		return nil, fmt.Errorf("sf: td: one-hot map of dimension %d does not match a table of %d states and %d actions: %w", t.D, t.S, t.A, ErrDimension)
 	}
@@ -286,102 +283,7 @@ func (l *TD) Err() error { return l.err }
 // earlier update produced a non-finite value; after that, updates do
 // nothing. It panics if an index is out of range. It does not allocate.
 func (l *TD) Update(s, a, next int, terminal bool, nextAction int) error {
-	t := l.Table
-	if l.fast && !terminal &&
-		uint(s) < uint(t.S) && uint(a) < uint(t.A) && uint(next) < uint(t.S) {
-		// Fast path: built-in one- or two-hot features, Sampled or Greedy
-		// target, constant step alpha < 1. One pass over the row:
-		// psi <- (1-alpha) (psi + h psi') (+ alpha at the hot entries), with
-		// h = alpha gamma / (1 - alpha): five operations per entry.
-		d, na := t.D, t.A
-		if l.target == Greedy {
-			k := next * na * d
-			nextAction, _ = greedy(t.Data[k:k+na*d], l.task, na, d)
-		} else if uint(nextAction) >= uint(na) {
-			panic(fmt.Sprintf("sf: td: next action %d out of range [0, %d)", nextAction, na))
-		}
-		i, j := -1, -1
-		switch l.kind {
-		case kindState:
-			i = s
-		case kindStateAction:
-			i = s*na + a
-		default:
-			i, j = l.labels[next], l.lconst
-		}
-		p := (s*na + a) * d
-		q := (next*na + nextAction) * d
-		cur := t.Data[p : p+d : p+d]
-		nxt := t.Data[q : q+d : q+d]
-		om, h := l.om, l.h
-		var s0, s1 float64
-		k := 0
-		for ; k <= d-8; k += 8 {
-			c := cur[k : k+8 : k+8]
-			x := nxt[k : k+8 : k+8]
-			v0 := om * (c[0] + h*x[0])
-			v1 := om * (c[1] + h*x[1])
-			v2 := om * (c[2] + h*x[2])
-			v3 := om * (c[3] + h*x[3])
-			v4 := om * (c[4] + h*x[4])
-			v5 := om * (c[5] + h*x[5])
-			v6 := om * (c[6] + h*x[6])
-			v7 := om * (c[7] + h*x[7])
-			c[0], c[1], c[2], c[3] = v0, v1, v2, v3
-			c[4], c[5], c[6], c[7] = v4, v5, v6, v7
-			s0 += (v0 + v1) + (v2 + v3)
-			s1 += (v4 + v5) + (v6 + v7)
-		}
-		for ; k < d; k++ {
-			v := om * (cur[k] + h*nxt[k])
-			cur[k] = v
-			s0 += v
-		}
-		if i >= 0 {
-			cur[i] += l.alpha
-			s0 += cur[i]
-		}
-		if j >= 0 {
-			cur[j] += l.alpha
-			s0 += cur[j]
-		}
-		l.steps++
-		if sum := s0 + s1; sum-sum != 0 {
-			l.err = &DivergenceError{Learner: "td", Step: l.steps, State: s, Action: a}
-			l.fast = false
-			return l.err
-		}
-		return nil
-	}
-	return l.updateMap(s, a, next, terminal, nextAction)
-}
-
-// updateMap is Update outside the fast path.
-func (l *TD) updateMap(s, a, next int, terminal bool, nextAction int) error {
-	if l.err != nil {
-		return l.err
-	}
-	t := l.Table
-	if uint(next) >= uint(t.S) {
-		panic(fmt.Sprintf("sf: td: next state %d out of range [0, %d)", next, t.S))
-	}
-	switch l.kind {
-	case kindState:
-		return l.update(s, a, next, terminal, nextAction, nil, s, 1, -1, 0)
-	case kindStateAction:
-		return l.update(s, a, next, terminal, nextAction, nil, s*t.A+a, 1, -1, 0)
-	case kindLabels:
-		return l.update(s, a, next, terminal, nextAction, nil, l.labels[next], 1, l.lconst, 1)
-	}
-	switch {
-	case l.sparse != nil:
-		i, vi, j, vj := l.sparse.hot(s, a, next)
-		return l.update(s, a, next, terminal, nextAction, nil, i, vi, j, vj)
-	case l.rows != nil:
-		return l.update(s, a, next, terminal, nextAction, l.rows.row(s, a, next), -1, 0, -1, 0)
-	}
-	l.phi.Features(l.buf, s, a, next)
-	return l.update(s, a, next, terminal, nextAction, l.buf, -1, 0, -1, 0)
+	return l.update(s, a, next, terminal, nextAction, nil)
 }
 
 // UpdateFeatures is Update with phi(s, a, next) given by the caller (len D),
@@ -392,79 +294,135 @@ func (l *TD) UpdateFeatures(s, a int, phi []float64, next int, terminal bool, ne
 	if l.err != nil {
 		return l.err
 	}
-	t := l.Table
-	if len(phi) != t.D {
-		panic(fmt.Sprintf("sf: td: feature slice has length %d, want %d", len(phi), t.D))
+	if len(phi) != l.Table.D {
+		panic(fmt.Sprintf("sf: td: feature slice has length %d, want %d", len(phi), l.Table.D))
 	}
+	return l.update(s, a, next, terminal, nextAction, phi)
+}
+
+// update is Update with the features phi, or with the learner's feature map
+// when phi is nil. The built-in sparse maps give the non-zero entries x,
+// added after the kernel's pass over the row; other maps give a dense f,
+// added in the pass. The target picks the kernel and the row or rows it
+// bootstraps from.
+func (l *TD) update(s, a, next int, terminal bool, nextAction int, phi []float64) error {
+	if l.err != nil {
+		return l.err
+	}
+	t := l.Table
+	d, na := t.D, t.A
 	if uint(next) >= uint(t.S) {
 		panic(fmt.Sprintf("sf: td: next state %d out of range [0, %d)", next, t.S))
 	}
-	return l.update(s, a, next, terminal, nextAction, phi, -1, 0, -1, 0)
-}
-
-// update is the common body: phi is either the dense slice f, or (f == nil)
-// the sparse entries (i, vi) and (j, vj), index -1 for none.
-func (l *TD) update(s, a, next int, terminal bool, nextAction int, f []float64, i int, vi float64, j int, vj float64) error {
-	t := l.Table
-	d := t.D
-	if uint(s) >= uint(t.S) || uint(a) >= uint(t.A) {
+	if uint(s) >= uint(t.S) || uint(a) >= uint(na) {
 		panic(fmt.Sprintf("sf: td: pair (%d, %d) out of range", s, a))
 	}
-	pair := s*t.A + a
+	an := nextAction // the action the Sampled or Greedy target bootstraps from
+	if l.target == Greedy && !terminal {
+		k := next * na * d
+		an, _ = greedy(t.Data[k:k+na*d], l.task, na, d)
+	}
+	pair := s*na + a
 	cur := t.Data[pair*d : pair*d+d : pair*d+d]
-	alpha := l.sched.step(pair)
-	var nxt []float64
-	if !terminal {
-		switch l.target {
-		case Sampled:
-			if uint(nextAction) >= uint(t.A) {
-				panic(fmt.Sprintf("sf: td: next action %d out of range [0, %d)", nextAction, t.A))
-			}
-			k := (next*t.A + nextAction) * d
-			nxt = t.Data[k : k+d : k+d]
-		case Expected:
-			if f == nil && alpha < 1 {
-				// One pass: mix the next rows and update together.
-				na := t.A
-				base := t.Data[next*na*d : (next+1)*na*d]
-				p := l.probs[next*na : (next+1)*na]
-				sum := kernelExpectedHot(cur, base, p, 1-alpha, alpha*l.gamma)
-				return l.finish(cur, sum, alpha, s, a, i, vi, j, vj)
-			}
-			nxt = l.mixture(next)
-		case Greedy:
-			k := next * t.A * d
-			a2, _ := greedy(t.Data[k:k+t.A*d], l.task, t.A, d)
-			k += a2 * d
-			nxt = t.Data[k : k+d : k+d]
-		}
+	st := l.step
+	if l.sched.visits != nil {
+		st = newStep(l.sched.step(pair), l.gamma)
+	}
+	f := phi
+	x := sparse{i: -1, j: -1}
+	switch {
+	case f != nil:
+	case l.kind == kindState:
+		x = sparse{i: s, vi: 1, j: -1}
+	case l.kind == kindStateAction:
+		x = sparse{i: pair, vi: 1, j: -1}
+	case l.kind == kindLabels:
+		x = sparse{i: l.labels[next], vi: 1, j: l.lconst, vj: 1}
+	case l.sparse != nil:
+		x.i, x.vi, x.j, x.vj = l.sparse.hot(s, a, next)
+	case l.rows != nil:
+		f = l.rows.row(s, a, next)
+	default:
+		l.phi.Features(l.buf, s, a, next)
+		f = l.buf
 	}
 	var sum float64
-	om := 1 - alpha
 	switch {
-	case f == nil && nxt != nil:
-		sum = kernelHot(cur, nxt, om, alpha*l.gamma)
-	case f == nil:
-		sum = kernelScale(cur, om)
-	case nxt != nil:
-		sum = kernelDense(cur, nxt, f, om, alpha*l.gamma, alpha)
+	case terminal:
+		sum = kernelTerminal(cur, f, st)
+	case l.target == Expected && f == nil && st.om != 0:
+		// One pass: mix the next rows and update together.
+		sum = kernelExpected(cur, t.Data[next*na*d:(next+1)*na*d], l.probs[next*na:(next+1)*na], st)
+	case l.target == Expected:
+		sum = kernelRow(cur, l.mixture(next), f, st)
 	default:
-		sum = kernelTerminal(cur, f, om, alpha)
+		if uint(an) >= uint(na) {
+			panic(fmt.Sprintf("sf: td: next action %d out of range [0, %d)", an, na))
+		}
+		q := (next*na + an) * d
+		nxt := t.Data[q : q+d : q+d]
+		if f != nil || st.om == 0 {
+			sum = kernelRow(cur, nxt, f, st)
+			break
+		}
+		// The kernel of the Sampled and Greedy targets for sparse
+		// features and a step below 1, cur = om*(cur + h*nxt): the
+		// common case, written out here since a call costs about a
+		// tenth of an update at d = 16 (BenchmarkTDRatio). The sparse
+		// features join s0 before s1 does.
+		om, h := st.om, st.h
+		var s0, s1 float64
+		k := 0
+		for ; k <= d-8; k += 8 {
+			c := cur[k : k+8 : k+8]
+			y := nxt[k : k+8 : k+8]
+			v0 := om * (c[0] + h*y[0])
+			v1 := om * (c[1] + h*y[1])
+			v2 := om * (c[2] + h*y[2])
+			v3 := om * (c[3] + h*y[3])
+			v4 := om * (c[4] + h*y[4])
+			v5 := om * (c[5] + h*y[5])
+			v6 := om * (c[6] + h*y[6])
+			v7 := om * (c[7] + h*y[7])
+			c[0], c[1], c[2], c[3] = v0, v1, v2, v3
+			c[4], c[5], c[6], c[7] = v4, v5, v6, v7
+			s0 += (v0 + v1) + (v2 + v3)
+			s1 += (v4 + v5) + (v6 + v7)
+		}
+		for ; k < d; k++ {
+			v := om * (cur[k] + h*nxt[k])
+			cur[k] = v
+			s0 += v
+		}
+		return l.count(s, a, x.add(cur, st.alpha, s0)+s1)
 	}
-	return l.finish(cur, sum, alpha, s, a, i, vi, j, vj)
+	return l.count(s, a, x.add(cur, st.alpha, sum))
 }
 
-// finish adds the sparse features to the updated row, counts the update
-// and checks the row for divergence.
-func (l *TD) finish(cur []float64, sum, alpha float64, s, a, i int, vi float64, j int, vj float64) error {
-	if i >= 0 {
-		cur[i] += alpha * vi
-		sum += cur[i]
+// sparse holds the non-zero entries of a sparse feature vector: vi at
+// index i and vj at index j, index -1 for none.
+type sparse struct {
+	i, j   int
+	vi, vj float64
+}
+
+// add adds alpha times the features to the row cur and returns sum plus
+// the new values of the entries it changed.
+func (x sparse) add(cur []float64, alpha, sum float64) float64 {
+	if x.i >= 0 {
+		cur[x.i] += alpha * x.vi
+		sum += cur[x.i]
 	}
-	if j >= 0 {
-		cur[j] += alpha * vj
-		sum += cur[j]
+	if x.j >= 0 {
+		cur[x.j] += alpha * x.vj
+		sum += cur[x.j]
 	}
+	return sum
+}
+
+// count counts an update of psi(s, a) whose new row sums to sum, and stops
+// the learner if that is not finite.
+func (l *TD) count(s, a int, sum float64) error {
 	l.steps++
 	if sum-sum != 0 { // NaN or an infinity in the updated row
 		l.err = &DivergenceError{Learner: "td", Step: l.steps, State: s, Action: a}
@@ -489,7 +447,8 @@ func (l *TD) mixture(next int) []float64 {
 	return m
 }
 
-// mapKind names the built-in feature maps with a fast path in Update.
+// mapKind names the built-in sparse feature maps, whose entries update
+// adds without forming phi.
 type mapKind uint8
 
 const (

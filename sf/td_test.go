@@ -6,6 +6,7 @@ import (
 	"math/rand/v2"
 	"testing"
 
+	"github.com/successor-go/successor/internal/testtol"
 	"github.com/successor-go/successor/mdp"
 )
 
@@ -89,9 +90,9 @@ func tableError(m *mdp.Finite, learned, exact *Table) (diff, scale float64) {
 // step 1/(1+n)^0.7) converges to Exact on Sutton & Barto 2nd ed. Example
 // 6.2 (gamma = 1, one-hot state features, so psi counts expected visits;
 // largest entry 3, see TestExactRandomWalk). Seeded stream from C. Budgets
-// and the 0.02 relative tolerance: at 1e6 transitions the error is about
-// 0.005 of the largest entry for this seed (0.016 absolute); the small
-// budget of 3e4 must be worse.
+// and the relative tolerance testtol.TD (0.02): at 1e6 transitions the
+// error is about 0.005 of the largest entry for this seed (0.016
+// absolute); the small budget of 3e4 must be worse.
 func TestTDRandomWalk(t *testing.T) {
 	m := randomWalk(t)
 	pi := mdp.Uniform{N: 2}
@@ -114,8 +115,8 @@ func TestTDRandomWalk(t *testing.T) {
 			t.Errorf("budget %d: error %.4f did not fall below %.4f", budget, d, prev)
 		}
 		prev = d
-		if i == 1 && d > 0.02*sc {
-			t.Errorf("budget %d: max error %.4f > 0.02 * %.3f", budget, d, sc)
+		if i == 1 && d > testtol.TD*sc {
+			t.Errorf("budget %d: max error %.4f > %g * %.3f", budget, d, testtol.TD, sc)
 		}
 	}
 }
@@ -124,7 +125,8 @@ func TestTDRandomWalk(t *testing.T) {
 // psi . w must reach mdp.Optimal's Q* for the reward phi . w, since psi . w
 // follows Q-learning for that reward exactly (derived by hand: dot the
 // update with w). Uniform behaviour with exploring starts, seeded random
-// MDPs with stochastic transitions, decaying step; tolerance 0.02 of max |Q*|.
+// MDPs with stochastic transitions, decaying step; tolerance testtol.TD
+// (0.02) of max |Q*|.
 func TestTDGreedy(t *testing.T) {
 	compared := 0 // seeds whose psi was compared with the exact SFs
 	for seed := uint64(1); seed <= 3; seed++ {
@@ -152,8 +154,8 @@ func TestTDGreedy(t *testing.T) {
 		}
 		d, sc := maxAbsDiff(q, opt.Q)
 		t.Logf("seed %d: max |psi.w - Q*| = %.4f, max |Q*| = %.3f", seed, d, sc)
-		if d > 0.02*sc {
-			t.Errorf("seed %d: max |psi.w - Q*| = %.4f > 0.02 * %.3f", seed, d, sc)
+		if d > testtol.TD*sc {
+			t.Errorf("seed %d: max |psi.w - Q*| = %.4f > %g * %.3f", seed, d, testtol.TD, sc)
 		}
 		// Where the optimal action is unique by a clear margin (gap of
 		// Q* above 0.05 of its scale at every state), psi itself must be
@@ -174,8 +176,8 @@ func TestTDGreedy(t *testing.T) {
 		}
 		d, sc = tableError(m, tb, ex)
 		t.Logf("seed %d: max |psi - psi*| = %.4f of largest entry %.3f", seed, d, sc)
-		if d > 0.02*sc {
-			t.Errorf("seed %d: max |psi - psi*| = %.4f > 0.02 * %.3f", seed, d, sc)
+		if d > testtol.TD*sc {
+			t.Errorf("seed %d: max |psi - psi*| = %.4f > %g * %.3f", seed, d, testtol.TD, sc)
 		}
 		compared++
 	}
@@ -188,7 +190,7 @@ func TestTDGreedy(t *testing.T) {
 
 // TestTDExpected checks the Expected target against Exact for a policy that
 // differs from the behaviour (off-policy evaluation), on a seeded random
-// MDP; tolerance 0.02 of the largest entry.
+// MDP; tolerance testtol.TD (0.02) of the largest entry.
 func TestTDExpected(t *testing.T) {
 	rng := rand.New(rand.NewPCG(4, 4))
 	m := randomMDP(t, 4, mdp.RandomConfig{States: 8, Actions: 3, TerminalFraction: 0.2})
@@ -207,8 +209,8 @@ func TestTDExpected(t *testing.T) {
 	runTD(t, m, mdp.Uniform{N: 3}, l, 300000, 30, true, rng)
 	d, sc := tableError(m, tb, ex)
 	t.Logf("max error %.4f of largest entry %.3f", d, sc)
-	if d > 0.02*sc {
-		t.Errorf("max error %.4f > 0.02 * %.3f", d, sc)
+	if d > testtol.TD*sc {
+		t.Errorf("max error %.4f > %g * %.3f", d, testtol.TD, sc)
 	}
 }
 
@@ -234,7 +236,7 @@ func TestTDOneStep(t *testing.T) {
 		}
 	}
 
-	// Fast paths against the generic path, for every target.
+	// The sparse paths against the dense ones, for every target.
 	lab, _ := NewLabels([]int{0, -1, 1, 2, -1}, 3, true)
 	fn := FeatureFunc{D: 4, F: lab.Features}
 	pi := mdp.RandomPolicy(rand.New(rand.NewPCG(1, 1)), randomMDP(t, 1, mdp.RandomConfig{States: 5, Actions: 2}))
@@ -243,7 +245,7 @@ func TestTDOneStep(t *testing.T) {
 		target Target
 		step   StepSize
 	}{
-		{Sampled, StepSize{Alpha: 0.3}}, // the fast path of Update
+		{Sampled, StepSize{Alpha: 0.3}}, // the one-row pass of update
 		{Sampled, StepSize{Power: 0.8}},
 		{Expected, StepSize{Power: 0.8}},
 		{Greedy, StepSize{Power: 0.8}},
@@ -386,8 +388,8 @@ func TestTDDepot(t *testing.T) {
 			t.Errorf("budget %d: error %.4f did not fall below %.4f", budget, d, prev)
 		}
 		prev = d
-		if i == 1 && d > 0.02*sc {
-			t.Errorf("budget %d: max error %.4f > 0.02 * %.3f", budget, d, sc)
+		if i == 1 && d > testtol.TD*sc {
+			t.Errorf("budget %d: max error %.4f > %g * %.3f", budget, d, testtol.TD, sc)
 		}
 	}
 }

@@ -50,6 +50,7 @@ func ExampleSoftmax_Reward() {
 	// value); the outside reference is log 4 = 1.386, the most either can
 	// be for four equally likely skills (derived by hand: log q(z|s) <= 0,
 	// so log q(z|s) - log p(z) <= -log(1/4)).
+
 	// Output:
 	// reward 1.382, log 4 = 1.386
 	// MI bound 1.382, accuracy 1.00

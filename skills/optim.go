@@ -74,7 +74,8 @@ type Optim struct {
 	LearnRate float64
 	// Beta1 and Beta2 are the moment decay rates. 0 means 0.9 and 0.999.
 	Beta1, Beta2 float64
-	// Eps is added to the root second moment. 0 means 1e-8.
+	// Eps is added to the root second moment. 0 means 1e-8. (The defaults
+	// are those of nn.AdamConfig.WithDefaults, Kingma & Ba 2015.)
 	Eps float64
 	// ClipNorm, if positive, rescales the gradient of the network weights
 	// to at most this Euclidean norm. 0 means no clipping.
@@ -83,18 +84,8 @@ type Optim struct {
 
 // resolve returns o with defaults filled in, or an error wrapping ErrConfig.
 func (o Optim) resolve() (Optim, error) {
-	if o.LearnRate == 0 {
-		o.LearnRate = 1e-3
-	}
-	if o.Beta1 == 0 {
-		o.Beta1 = 0.9
-	}
-	if o.Beta2 == 0 {
-		o.Beta2 = 0.999
-	}
-	if o.Eps == 0 {
-		o.Eps = 1e-8
-	}
+	c := nn.AdamConfig{LR: o.LearnRate, Beta1: o.Beta1, Beta2: o.Beta2, Eps: o.Eps}.WithDefaults()
+	o.LearnRate, o.Beta1, o.Beta2, o.Eps = c.LR, c.Beta1, c.Beta2, c.Eps
 	return o, o.check()
 }
 
@@ -194,6 +185,10 @@ func sparseClipNorm(g []float64, rows []int, out int, c float64) float64 {
 	return norm
 }
 
+// dot returns a . b summed left to right. It is not vec.Dot (four
+// interleaved partial sums): the discriminators' features and rewards were
+// defined with this order, and results such as the depot demo's depend on
+// its bits.
 func dot(a, b []float64) float64 {
 	b = b[:len(a)]
 	var s float64

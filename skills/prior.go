@@ -4,6 +4,8 @@ import (
 	"fmt"
 	"math"
 	"math/rand/v2"
+
+	"github.com/successor-go/successor/internal/vec"
 )
 
 // Prior is a distribution p(z) over skill vectors z in R^Dim. A skill is
@@ -41,7 +43,7 @@ func (u UniformSphere) Dim() int { return u.D }
 
 // Sample draws z by normalising a vector of D independent standard normal
 // draws (the normal distribution is rotation invariant, so its direction is
-// uniform). It panics if len(dst) != D or D < 2.
+// uniform; vec.SampleSphere). It panics if len(dst) != D or D < 2.
 func (u UniformSphere) Sample(dst []float64, rng *rand.Rand) {
 	if u.D < 2 {
 		panic(fmt.Sprintf("skills: uniform sphere: dimension %d < 2", u.D))
@@ -49,21 +51,7 @@ func (u UniformSphere) Sample(dst []float64, rng *rand.Rand) {
 	if len(dst) != u.D {
 		panic(fmt.Sprintf("skills: uniform sphere: len(dst) = %d, want %d", len(dst), u.D))
 	}
-	for {
-		var ss float64
-		for i := range dst {
-			v := rng.NormFloat64()
-			dst[i] = v
-			ss += v * v
-		}
-		if ss > 1e-300 { // a zero vector has probability zero; redraw it
-			inv := 1 / math.Sqrt(ss)
-			for i := range dst {
-				dst[i] *= inv
-			}
-			return
-		}
-	}
+	vec.SampleSphere(dst, rng)
 }
 
 // LogProb returns -log area(S^{D-1}) for every z; it does not check that

@@ -4,6 +4,8 @@ import (
 	"fmt"
 	"math"
 	"math/rand/v2"
+
+	"github.com/successor-go/successor/internal/vec"
 )
 
 // SoftmaxConfig configures a categorical discriminator. Zero fields other
@@ -121,12 +123,7 @@ func (c *Softmax) Optim() Optim { return c.opt }
 // logSoftmax writes log softmax(l) into dst and returns the index of the
 // largest logit (the first one on ties).
 func logSoftmax(dst, l []float64) int {
-	best := 0
-	for i, v := range l {
-		if v > l[best] {
-			best = i
-		}
-	}
+	best := vec.Argmax(l)
 	mx := l[best]
 	var s float64
 	for _, v := range l {

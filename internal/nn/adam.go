@@ -12,6 +12,24 @@ type AdamConfig struct {
 	LR, Beta1, Beta2, Eps float64
 }
 
+// WithDefaults returns c with every zero field set to its default: LR
+// 0.001, Beta1 0.9, Beta2 0.999, Eps 1e-8 (Kingma & Ba 2015, Algorithm 1).
+func (c AdamConfig) WithDefaults() AdamConfig {
+	if c.LR == 0 {
+		c.LR = 0.001
+	}
+	if c.Beta1 == 0 {
+		c.Beta1 = 0.9
+	}
+	if c.Beta2 == 0 {
+		c.Beta2 = 0.999
+	}
+	if c.Eps == 0 {
+		c.Eps = 1e-8
+	}
+	return c
+}
+
 // Adam is the Adam optimiser (Kingma & Ba 2015, Algorithm 1) over a flat
 // parameter vector; see the package doc for the update.
 type Adam struct {
@@ -32,18 +50,7 @@ func NewAdam(n int, cfg *AdamConfig) *Adam {
 	if cfg != nil {
 		c = *cfg
 	}
-	if c.LR == 0 {
-		c.LR = 0.001
-	}
-	if c.Beta1 == 0 {
-		c.Beta1 = 0.9
-	}
-	if c.Beta2 == 0 {
-		c.Beta2 = 0.999
-	}
-	if c.Eps == 0 {
-		c.Eps = 1e-8
-	}
+	c = c.WithDefaults()
 	return &Adam{LR: c.LR, Beta1: c.Beta1, Beta2: c.Beta2, Eps: c.Eps, M: make([]float64, n), V: make([]float64, n)}
 }
 

@@ -65,3 +65,21 @@ func TestAdamClone(t *testing.T) {
 		t.Errorf("clone hyperparameters LR %v, Beta1 %v", c.LR, c.Beta1)
 	}
 }
+
+// TestAdamDefaults checks the defaults against Kingma & Ba 2015, the
+// caption of Algorithm 1 (alpha = 0.001, beta1 = 0.9, beta2 = 0.999,
+// eps = 1e-8), and that set fields are kept.
+func TestAdamDefaults(t *testing.T) {
+	want := AdamConfig{LR: 0.001, Beta1: 0.9, Beta2: 0.999, Eps: 1e-8}
+	if got := (AdamConfig{}).WithDefaults(); got != want {
+		t.Errorf("zero config: %+v, want %+v", got, want)
+	}
+	if o := NewAdam(1, nil); (AdamConfig{o.LR, o.Beta1, o.Beta2, o.Eps}) != want {
+		t.Errorf("NewAdam(nil): %+v", o)
+	}
+	set := AdamConfig{LR: 0.5, Beta2: 0.9}
+	want.LR, want.Beta2 = 0.5, 0.9
+	if got := set.WithDefaults(); got != want {
+		t.Errorf("partial config: %+v, want %+v", got, want)
+	}
+}

@@ -5,13 +5,13 @@ import (
 	"math"
 	"math/rand/v2"
 	"testing"
+
+	"github.com/successor-go/successor/internal/testtol"
 )
 
-// Tolerance tiers.
-const (
-	tolFD    = 1e-6  // relative error of backward vs central differences
-	tolExact = 1e-12 // same arithmetic in another order
-)
+// tolFD is the relative error allowed between backward and central
+// differences; the tiers are in internal/testtol.
+const tolFD = 1e-6
 
 func randSlice(rng *rand.Rand, n int) []float64 {
 	v := make([]float64, n)
@@ -164,7 +164,7 @@ func TestGemmBlocks(t *testing.T) {
 			gemm(tA, tB, m, n, k, 1.5, a, lda, b, ldb, 0.5, c0, n)
 			gemmLoop(tA, tB, m, n, k, 1.5, a, lda, b, ldb, 0.5, c1, n)
 			for i := range c0 {
-				if math.Abs(c0[i]-c1[i]) > tolExact*(1+math.Abs(c1[i]))*float64(k) {
+				if math.Abs(c0[i]-c1[i]) > testtol.Exact*(1+math.Abs(c1[i]))*float64(k) {
 					t.Fatalf("shape %v trans %v: c[%d] = %v, loop %v", sh, tr, i, c0[i], c1[i])
 				}
 			}
@@ -193,17 +193,17 @@ func TestAdamTwoSteps(t *testing.T) {
 	theta := []float64{1}
 	o.Step(theta, []float64{2})
 	want1 := 1 - 0.1*2/(2+1e-8) // derived by hand, see comment
-	if math.Abs(theta[0]-want1) > tolExact {
+	if math.Abs(theta[0]-want1) > testtol.Exact {
 		t.Fatalf("theta_1 = %.17g, want %.17g", theta[0], want1)
 	}
-	if math.Abs(o.M[0]-0.2) > tolExact || math.Abs(o.V[0]-0.004) > tolExact {
+	if math.Abs(o.M[0]-0.2) > testtol.Exact || math.Abs(o.V[0]-0.004) > testtol.Exact {
 		t.Fatalf("moments after step 1: %v %v, want 0.2 0.004", o.M[0], o.V[0])
 	}
 	o.Step(theta, []float64{-1})
 	mh := 0.08 / 0.19         // derived by hand, see comment
 	vh := 0.004996 / 0.001999 // derived by hand, see comment
 	want2 := want1 - 0.1*mh/(math.Sqrt(vh)+1e-8)
-	if math.Abs(theta[0]-want2) > tolExact {
+	if math.Abs(theta[0]-want2) > testtol.Exact {
 		t.Fatalf("theta_2 = %.17g, want %.17g", theta[0], want2)
 	}
 	// The step taken at t = 2 is 0.0266337038 to 10 digits (derived by
@@ -211,7 +211,7 @@ func TestAdamTwoSteps(t *testing.T) {
 	if d := want1 - theta[0]; math.Abs(d-0.0266337038) > 1e-10 {
 		t.Fatalf("second step %.10f, want 0.0266337038", d)
 	}
-	if o.T != 2 || math.Abs(o.M[0]-0.08) > tolExact || math.Abs(o.V[0]-0.004996) > tolExact {
+	if o.T != 2 || math.Abs(o.M[0]-0.08) > testtol.Exact || math.Abs(o.V[0]-0.004996) > testtol.Exact {
 		t.Fatalf("state after step 2: t=%d m=%v v=%v", o.T, o.M[0], o.V[0])
 	}
 }
@@ -221,7 +221,7 @@ func TestClipNorm(t *testing.T) {
 	if n := ClipNorm(g, 10); n != 5 || g[0] != 3 || g[1] != 4 {
 		t.Fatalf("no-op clip changed g: norm %v g %v", n, g)
 	}
-	if n := ClipNorm(g, 1); n != 5 || math.Abs(g[0]-0.6) > tolExact || math.Abs(g[1]-0.8) > tolExact {
+	if n := ClipNorm(g, 1); n != 5 || math.Abs(g[0]-0.6) > testtol.Exact || math.Abs(g[1]-0.8) > testtol.Exact {
 		t.Fatalf("clip to 1: norm %v g %v, want 5 [0.6 0.8]", n, g)
 	}
 }
@@ -234,7 +234,7 @@ func TestCopyBlend(t *testing.T) {
 	pb := append([]float64(nil), b.Params()...)
 	a.Blend(b, 0.25)
 	for i := range pa {
-		if want := 0.75*pa[i] + 0.25*pb[i]; math.Abs(a.Params()[i]-want) > tolExact {
+		if want := 0.75*pa[i] + 0.25*pb[i]; math.Abs(a.Params()[i]-want) > testtol.Exact {
 			t.Fatalf("blend[%d] = %v, want %v", i, a.Params()[i], want)
 		}
 	}

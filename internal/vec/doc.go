@@ -9,5 +9,11 @@
 // with four interleaved partial sums s_k = sum over i = k mod 4 of the
 // leading multiple-of-four entries (the tail goes to s_0), combined as
 // (s_0 + s_1) + (s_2 + s_3). The order is fixed: results are reproducible
-// bit for bit, and differ from a left-to-right sum only by rounding.
+// bit for bit, and differ from a left-to-right sum only by rounding. Code
+// whose results were defined with another order (a left-to-right sum, say)
+// keeps its own loop, since changing the order changes the bits.
+//
+// Argmax returns the index of the largest entry, the lowest among ties;
+// ArgmaxRandom breaks ties uniformly at random. SampleSphere draws a point
+// uniformly from the unit sphere.
 package vec

@@ -1,5 +1,10 @@
 package vec
 
+import (
+	"math"
+	"math/rand/v2"
+)
+
 // Dot returns x . y over the len(x) entries of x, with four accumulators as
 // described in the package documentation. It panics if len(y) < len(x).
 // It does not allocate.
@@ -19,4 +24,78 @@ func Dot(x, y []float64) float64 {
 		s0 += x[i] * y[i]
 	}
 	return (s0 + s1) + (s2 + s3)
+}
+
+// Argmax returns the index of the largest entry of x, the lowest index
+// among ties. Entries that are NaN are never larger than another entry, so
+// they are passed over, except that 0 is returned when x[0] is NaN and no
+// later entry is larger than it (none is). It panics if x is empty. It
+// does not allocate.
+func Argmax(x []float64) int {
+	if len(x) == 0 {
+		panic("vec: argmax of an empty slice")
+	}
+	best := 0
+	for i, v := range x {
+		if v > x[best] {
+			best = i
+		}
+	}
+	return best
+}
+
+// ArgmaxRandom returns an index of the largest entry of x drawn uniformly
+// among the ties with rng, which it uses only when there is a tie (one
+// IntN draw). NaN entries are treated as in Argmax. It panics if x is
+// empty. It does not allocate.
+func ArgmaxRandom(x []float64, rng *rand.Rand) int {
+	best, ties := Argmax(x), 0
+	for _, v := range x {
+		if v == x[best] {
+			ties++
+		}
+	}
+	if ties <= 1 {
+		return best
+	}
+	k := rng.IntN(ties)
+	for i, v := range x {
+		if v == x[best] {
+			if k == 0 {
+				return i
+			}
+			k--
+		}
+	}
+	return best
+}
+
+// SampleSphere fills dst with a point drawn uniformly from the unit sphere
+// in R^len(dst): len(dst) standard normal draws from rng, scaled to unit
+// Euclidean length (the normal distribution is rotation invariant, so the
+// direction is uniform). An all-zero draw, whose direction is undefined, is
+// drawn again; every non-zero value of rand.Rand.NormFloat64 has magnitude
+// at least about 1.3e-10 (an int32 times a float32 table entry, or a tail
+// value above 3.4: from math/rand/v2's source), so the sum of squares is
+// either 0 or at least about 1.6e-20, and the scaling cannot overflow. It
+// panics if dst is empty. It does not allocate.
+func SampleSphere(dst []float64, rng *rand.Rand) {
+	if len(dst) == 0 {
+		panic("vec: sample sphere: empty slice")
+	}
+	for {
+		var ss float64
+		for i := range dst {
+			v := rng.NormFloat64()
+			dst[i] = v
+			ss += v * v
+		}
+		if ss > 0 {
+			inv := 1 / math.Sqrt(ss)
+			for i := range dst {
+				dst[i] *= inv
+			}
+			return
+		}
+	}
 }

@@ -87,3 +87,127 @@ func BenchmarkDot(b *testing.B) {
 	}
 	_ = s
 }
+
+func TestArgmax(t *testing.T) {
+	t.Parallel()
+	nan := math.NaN()
+	for _, tc := range []struct {
+		name string
+		x    []float64
+		want int // derived by hand: the first index of the largest value
+	}{
+		{"one", []float64{-3}, 0},
+		{"last", []float64{1, 2, 3}, 2},
+		{"first", []float64{3, 2, 1}, 0},
+		{"tie to the lowest", []float64{0, 5, 1, 5, 5}, 1},
+		{"all equal", []float64{2, 2, 2}, 0},
+		{"infinities", []float64{math.Inf(-1), math.Inf(1), 0}, 1},
+		// NaN compares false: it is passed over, and wins only at index 0.
+		{"nan passed over", []float64{1, nan, 3, nan}, 2},
+		{"nan first", []float64{nan, 1, 2}, 0},
+	} {
+		if got := Argmax(tc.x); got != tc.want {
+			t.Errorf("%s: Argmax(%v) = %d, want %d", tc.name, tc.x, got, tc.want)
+		}
+		rng := rand.New(rand.NewPCG(1, 2))
+		if n := countTies(tc.x); n <= 1 {
+			if got := ArgmaxRandom(tc.x, rng); got != tc.want {
+				t.Errorf("%s: ArgmaxRandom(%v) = %d, want %d", tc.name, tc.x, got, tc.want)
+			}
+		}
+	}
+	defer func() {
+		if recover() == nil {
+			t.Error("Argmax of an empty slice did not panic")
+		}
+	}()
+	Argmax(nil)
+}
+
+func countTies(x []float64) int {
+	var n int
+	for _, v := range x {
+		if v == x[Argmax(x)] {
+			n++
+		}
+	}
+	return n
+}
+
+// TestArgmaxRandom checks that ArgmaxRandom picks only tied maxima, each
+// about equally often, and draws from rng only on a tie.
+func TestArgmaxRandom(t *testing.T) {
+	t.Parallel()
+	rng := rand.New(rand.NewPCG(5, 6))
+	x := []float64{1, 4, 0, 4, 4, -1}
+	const n = 30000
+	counts := make([]int, len(x))
+	for range n {
+		counts[ArgmaxRandom(x, rng)]++
+	}
+	// Each of the three tied indices is drawn with probability 1/3: the
+	// count is binomial with mean n/3 and standard deviation
+	// sqrt(n (1/3)(2/3)) = 81.6 (derived by hand); allow 4 of them.
+	for i, c := range counts {
+		want := 0.0
+		if x[i] == 4 {
+			want = n / 3.0
+		}
+		if math.Abs(float64(c)-want) > 4*math.Sqrt(n*(1.0/3)*(2.0/3)) {
+			t.Errorf("index %d drawn %d times of %d, want about %.0f", i, c, n, want)
+		}
+	}
+	// Without a tie the generator is not used: the next draws match a
+	// generator with the same seed that was never touched.
+	a, b := rand.New(rand.NewPCG(7, 8)), rand.New(rand.NewPCG(7, 8))
+	if got := ArgmaxRandom([]float64{0, 2, 1}, a); got != 1 {
+		t.Errorf("ArgmaxRandom without a tie = %d, want 1", got)
+	}
+	if a.Uint64() != b.Uint64() {
+		t.Error("ArgmaxRandom drew from the generator without a tie")
+	}
+}
+
+// TestSampleSphere checks unit length and the first two moments of the
+// uniform distribution on the sphere in R^d: E z = 0 and E z z^T = I/d
+// (derived by hand: by symmetry the mean vanishes, the off-diagonal
+// moments vanish and the d equal diagonal ones sum to E|z|^2 = 1), each
+// within 4 standard errors (var z_i = 1/d, and var z_i z_j <= E z_i^2 = 1/d
+// since z_j^2 <= 1).
+func TestSampleSphere(t *testing.T) {
+	t.Parallel()
+	rng := rand.New(rand.NewPCG(9, 10))
+	for _, d := range []int{1, 2, 3, 7} {
+		const n = 20000
+		z := make([]float64, d)
+		mean := make([]float64, d)
+		second := make([]float64, d*d)
+		for range n {
+			SampleSphere(z, rng)
+			if nrm := math.Sqrt(Dot(z, z)); math.Abs(nrm-1) > 1e-15 {
+				t.Fatalf("d = %d: |z| = %v", d, nrm)
+			}
+			for i := range z {
+				mean[i] += z[i] / n
+				for j := range z {
+					second[i*d+j] += z[i] * z[j] / n
+				}
+			}
+		}
+		se := 4 / math.Sqrt(n*float64(d))
+		for i := range z {
+			if math.Abs(mean[i]) > se {
+				t.Errorf("d = %d: mean[%d] = %v", d, i, mean[i])
+			}
+			for j := range z {
+				want := 0.0
+				if i == j {
+					want = 1 / float64(d)
+				}
+				if math.Abs(second[i*d+j]-want) > se+1e-12 {
+					t.Errorf("d = %d: E z_%d z_%d = %v, want %v", d, i, j, second[i*d+j], want)
+				}
+			}
+		}
+	}
+}
