@@ -116,9 +116,17 @@ type Experiment struct {
 	// the budgets, the task discount, the MDP sizes and the place features
 	// at every next state, but not the transition probabilities of Task
 	// and Explore, which are the caller's to keep fixed within a folder.
-	// The baselines are cheap and always recomputed. Results.Resumed lists
-	// what was read back.
+	// The baselines of seed s keep their rows in baselines-seed<s>.run
+	// (read back if present, so that Merge finds every run's record).
+	// Results.Resumed lists the pretraining runs read back.
 	CheckpointDir string `json:"-"`
+	// DropCheckpoints removes a run's checkpoint from CheckpointDir once
+	// its record holds the result rows, so that the folder keeps only the
+	// records (about 16 kB per run of the depot demo, whose checkpoints
+	// take up to 90 MB): for sweeps of many runs. A run stopped before
+	// then resumes from its checkpoint as usual; the agent of a finished
+	// run is gone, so Keep (and Merge with Keep) cannot be given it.
+	DropCheckpoints bool `json:"-"`
 }
 
 // ResumedRun says what an experiment read back from its CheckpointDir for

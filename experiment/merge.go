@@ -111,8 +111,9 @@ func (e *Experiment) Merge() (*Results, error) {
 // from its CheckpointDir (see Merge).
 func (r *Experiment) readUnits() ([]unitOut, error) {
 	dir := r.CheckpointDir
+	// A folder that does not exist holds no record: all are missing.
 	entries, err := os.ReadDir(dir)
-	if err != nil {
+	if err != nil && !errors.Is(err, fs.ErrNotExist) {
 		return nil, fmt.Errorf("experiment: merge: %w: %w", ErrCheckpoint, err)
 	}
 	me := &MergeError{Dir: dir}

@@ -155,6 +155,11 @@ func (e *Experiment) runMethod(ctx context.Context, mc transfer.PretrainConfig, 
 		Seconds: time.Since(t0).Seconds(), Origin: origin(), Records: out.recs}); err != nil {
 		return out, err
 	}
+	if e.DropCheckpoints {
+		if err := os.Remove(ckPath); err != nil && !errors.Is(err, fs.ErrNotExist) {
+			return out, fmt.Errorf("experiment: drop checkpoint: %w", err)
+		}
+	}
 	return out, nil
 }
 

@@ -196,7 +196,7 @@ func (e *Experiment) Units() ([]Unit, error) {
 // timing anomalies"): the units in decreasing order of Cost (ties in
 // results order), each to the shard with the least total cost so far
 // (ties to the lowest index). Its largest shard costs at most
-// 4/3 - 1/(3n) times the best possible (ibid., Theorem 1). It depends
+// 4/3 - 1/(3n) times the best possible (ibid.). It depends
 // only on the experiment and n, so every shard of a job array computes
 // the same plan on its own. Shards beyond the number of units are empty.
 // n < 1 or an experiment that does not resolve is an error wrapping

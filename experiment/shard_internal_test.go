@@ -42,7 +42,7 @@ func bestMakespan(costs []int, n int) int {
 // TestAssignGraham checks the longest-processing-time rule against the
 // best assignment found by enumeration: its makespan is at most
 // (4/3 - 1/(3n)) times the best (Graham 1969, "Bounds on multiprocessing
-// timing anomalies", SIAM J. Appl. Math. 17(2), Theorem 1), on seeded
+// timing anomalies", SIAM J. Appl. Math. 17(2), 1969), on seeded
 // random costs, and reaches the bound on Graham's tight example.
 func TestAssignGraham(t *testing.T) {
 	// Tight example, derived by hand: costs 3, 3, 2, 2, 2 on 2 bins. LPT

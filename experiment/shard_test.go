@@ -438,8 +438,10 @@ func TestMergeErrors(t *testing.T) {
 	t.Run("no folder on disk", func(t *testing.T) {
 		e := mk()
 		e.CheckpointDir = filepath.Join(t.TempDir(), "nowhere")
-		if _, err := e.Merge(); !errors.Is(err, experiment.ErrCheckpoint) || !strings.Contains(err.Error(), "nowhere") {
-			t.Errorf("merge of a missing folder: %v", err)
+		_, err := e.Merge()
+		var me *experiment.MergeError
+		if !errors.As(err, &me) || len(me.Missing) != 4 || !strings.Contains(err.Error(), "nowhere") {
+			t.Errorf("merge of a missing folder: %v, want every record missing", err)
 		}
 	})
 }
@@ -487,8 +489,11 @@ func TestMergeKeep(t *testing.T) {
 }
 
 // TestSlurmShard reads the shard from the variables of a Slurm job array
-// (sbatch(1), "OUTPUT ENVIRONMENT VARIABLES": for --array=1-7:2 Slurm sets
-// MIN 1, MAX 7, STEP 2, COUNT 4; the shard numbers are derived by hand).
+// (sbatch(1), "OUTPUT ENVIRONMENT VARIABLES"). The variables of the
+// stepped and the listed array are those Slurm 22.05.8 (Debian 12) set in
+// the tasks of sbatch --array=1-7:2 (MIN 1, MAX 7, STEP 2, COUNT 4) and
+// --array=1,4,9 (MIN 1, MAX 9, STEP 1, COUNT 3); the shard numbers are
+// derived by hand (shard = (id - min) / step).
 func TestSlurmShard(t *testing.T) {
 	for _, tc := range []struct {
 		env  map[string]string
@@ -563,4 +568,52 @@ func FuzzShardText(f *testing.F) {
 			t.Fatalf("%q -> %+v -> %q -> %+v, %v", text, s, b, back, err)
 		}
 	})
+}
+
+// TestDropCheckpoints checks that with DropCheckpoints a finished run
+// leaves only its record, that shards and merge still give the figures of
+// a single run, that a restart reads the records back, and that Keep then
+// reports the missing checkpoint by name.
+func TestDropCheckpoints(t *testing.T) {
+	mk := func() *experiment.Experiment {
+		e := tinyExperiment(t, 2)
+		for i := range e.Methods {
+			e.Methods[i].Steps = 800
+		}
+		e.DropCheckpoints = true
+		return e
+	}
+	single, err := mk().Run()
+	if err != nil {
+		t.Fatal(err)
+	}
+	dir := t.TempDir()
+	runShards(t, mk, dir, 2, true)
+	names, err := filepath.Glob(filepath.Join(dir, "*"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	for i, n := range names {
+		names[i] = filepath.Base(n)
+	}
+	want := []string{"baselines-seed1.run", "baselines-seed2.run", "given-seed1.run", "given-seed2.run", "vmf-seed1.run", "vmf-seed2.run"}
+	if !reflect.DeepEqual(names, want) {
+		t.Errorf("folder holds %v, want %v", names, want)
+	}
+	e := mk()
+	e.CheckpointDir = dir
+	merged, err := e.Merge()
+	if err != nil {
+		t.Fatal(err)
+	}
+	sameFigures(t, "merge without checkpoints", single, merged)
+	again, err := e.Run()
+	if err != nil {
+		t.Fatal(err)
+	}
+	sameFigures(t, "restart without checkpoints", single, again)
+	e.Keep = func(transfer.Method, uint64, *transfer.Agent) {}
+	if _, err := e.Merge(); !errors.Is(err, experiment.ErrCheckpoint) || !strings.Contains(err.Error(), "vmf-seed1.ckpt is missing") {
+		t.Errorf("merge with Keep: %v", err)
+	}
 }

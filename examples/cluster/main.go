@@ -20,7 +20,9 @@
 // runs that task's shard unless -shard says otherwise. Every shard keeps
 // its runs' checkpoints and records in the folder of -records, which must
 // be shared by all tasks (a network file system); a task that is stopped
-// and started again continues where it stopped. -merge reads the records
+// and started again continues where it stopped. A run's checkpoint is
+// removed once its record is written (-keep-checkpoints keeps it), so the
+// folder ends with a record of about 16 kB per run. -merge reads the records
 // of every shard and writes, into -out, each setting's results.json and
 // results.csv and the whole grid's sweep.csv and sweep.json. Every run
 // must be given the same flags (the grid, the seeds, the steps); records
@@ -79,6 +81,7 @@ type options struct {
 	steps        int
 	budget       int
 	workers      int
+	keepCkpt     bool
 }
 
 func parseFlags(args []string, stderr io.Writer) (*options, error) {
@@ -101,6 +104,7 @@ func parseFlags(args []string, stderr io.Writer) (*options, error) {
 	fs.IntVar(&o.steps, "steps", 100000, "pretraining steps per run")
 	fs.IntVar(&o.budget, "budget", 1000, "labelled transitions per job")
 	fs.IntVar(&o.workers, "workers", 0, "parallel runs in this process (0: one per CPU); the figures do not depend on it")
+	fs.BoolVar(&o.keepCkpt, "keep-checkpoints", false, "keep every run's checkpoint (up to 90 MB each) after its record is written; by default only the records stay")
 	fs.BoolVar(&quick, "quick", false, "a small sweep for tests: methods vmf,given, dims 4,8, skills 16, kappas 5, 2 seeds, 2000 steps, budget 100")
 	fs.Usage = func() {
 		fmt.Fprintf(fs.Output(), "usage: cluster [flags]\n\nA sweep of the invented depot experiment, on one machine or a Slurm job array.\n\n")
@@ -260,6 +264,7 @@ func sweep(o *options) (*experiment.Sweep, error) {
 		Task: g.MDP, Explore: explore, Places: places, PlaceNames: g.LabelNames(),
 		Jobs: js, Methods: methods, Seeds: seeds, Budgets: budgets(o.budget),
 		Baselines: true, TaskGamma: 0.95, Workers: o.workers,
+		DropCheckpoints: !o.keepCkpt,
 	}
 	return &experiment.Sweep{Base: base, Dir: o.records, Axes: []experiment.Axis{
 		{Name: "dim", Values: o.dims, Set: func(e *experiment.Experiment, v float64) error {
