@@ -61,5 +61,66 @@
 // runs keep their rows, pretrained ones go straight to adaptation, the
 // others resume from their last checkpoint (transfer.Agent.Continue), and
 // the figures equal those of an uninterrupted experiment bit for bit.
-// Files of another configuration are refused (ErrCheckpoint).
+// Files of another configuration are refused (ErrCheckpoint). The
+// baselines of seed s keep their rows in baselines-seed<s>.run.
+//
+// # Shards and merging
+//
+// The runs of an experiment are its units (Units): the pretraining of one
+// method on one seed with the adaptation of the agent to every job, and
+// the baselines of one seed. Each writes one run record, so a unit is
+// also what a cluster shares out. Plan(n) assigns the units to n shards
+// by the longest-processing-time rule (Graham 1969) on their expected
+// cost, the pretraining steps plus the labelled steps; the plan depends
+// only on the experiment, so each shard computes it on its own. RunShard
+// runs one shard into the shared CheckpointDir; Merge reads every record
+// back and returns the results of a single RunContext, bit for bit (the
+// timings aside: each record keeps the seconds of the machine that ran
+// it). Missing, unfinished, corrupt or foreign records are errors naming
+// every file (MergeError); so are records written by different builds
+// (library version, Go version, system and architecture), since Go may
+// fuse a multiply and an add on some architectures and the last bits
+// could differ. SlurmShard reads the shard of a task of a Slurm job array
+// from its environment; examples/cluster ships the batch scripts.
+//
+// A Sweep is a grid over settings (Axis: a name, values, and how a value
+// is set) x seeds. Every setting is an experiment of its own, with its
+// records in the subfolder named after its values (dim=16_skills=32);
+// the units of all settings are shared out together, so one job array
+// balances the whole grid. Sweep.Merge merges each setting, and
+// Sweep.WriteFiles writes each setting's results.json and results.csv,
+// sweep.csv (every row with the values of its setting) and sweep.json.
+//
+// # The cost of a sweep, and past one cluster
+//
+// Pretraining dominates, so the compute of a sweep is close to
+//
+//	core-seconds = runs x steps per run / steps per second per core,
+//
+// runs = settings x methods x seeds. On the depot with the demo's settings
+// (128 skills, d = 64, 100000 steps), one run, adaptation and exact
+// scoring included (PretrainStats.StepsPerSecond), went at 3800 to 6200
+// steps per second of wall-clock time for vmf (about 7700 per second of
+// CPU time), 2900 for categorical, 5300 for random and 21500 for given,
+// measured on a shared 2-core machine under load. A sweep of 1000 vmf
+// runs of 100000 steps is then 10^8 steps: 10^8 / 5000 / 3600, about 6
+// core-hours (10 for categorical). A job array of 100 one-core tasks of
+// 10 runs each finishes in a few minutes once its tasks start; the merge
+// reads 1000 records in seconds. Each task needs the memory of one run
+// (about 130 MB resident for vmf) per worker. The folder needs a record
+// of about 16 kB per run, plus the checkpoints: 88 MB per vmf or random
+// run, 71 MB categorical, 10 MB given, so 1000 vmf runs would keep 88 GB
+// of checkpoints; DropCheckpoints removes each once its record is
+// written (16 MB for the 1000 records), and is what sweeps should use
+// unless the agents are wanted afterwards.
+//
+// Slurm caps a job array at MaxArraySize tasks (1001 by default, from
+// memory: see the cluster's slurm.conf), so a 1000-run sweep fits one
+// array with a task per run, or fewer tasks of several runs each (shard
+// i/n with n below the number of runs; Plan balances them). Past one
+// cluster, shards are independent: give shards 0 to k-1 of n to one
+// cluster and k to n-1 to another, copy the .run files of both into one
+// folder (the checkpoints need not move), and merge there. Merge refuses
+// records of different builds, so build the program once, with one Go
+// version, for one architecture.
 package experiment

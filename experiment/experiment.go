@@ -4,10 +4,6 @@ import (
 	"context"
 	"fmt"
 	"math"
-	"os"
-	"runtime"
-	"sync"
-	"time"
 
 	"github.com/successor-go/successor/mdp"
 	"github.com/successor-go/successor/sf"
@@ -120,9 +116,17 @@ type Experiment struct {
 	// the budgets, the task discount, the MDP sizes and the place features
 	// at every next state, but not the transition probabilities of Task
 	// and Explore, which are the caller's to keep fixed within a folder.
-	// The baselines are cheap and always recomputed. Results.Resumed lists
-	// what was read back.
+	// The baselines of seed s keep their rows in baselines-seed<s>.run
+	// (read back if present, so that Merge finds every run's record).
+	// Results.Resumed lists the pretraining runs read back.
 	CheckpointDir string `json:"-"`
+	// DropCheckpoints removes a run's checkpoint from CheckpointDir once
+	// its record holds the result rows, so that the folder keeps only the
+	// records (about 16 kB per run of the depot demo, whose checkpoints
+	// take up to 90 MB): for sweeps of many runs. A run stopped before
+	// then resumes from its checkpoint as usual; the agent of a finished
+	// run is gone, so Keep (and Merge with Keep) cannot be given it.
+	DropCheckpoints bool `json:"-"`
 }
 
 // ResumedRun says what an experiment read back from its CheckpointDir for
@@ -218,141 +222,20 @@ func (e *Experiment) RunContext(ctx context.Context) (*Results, error) {
 	if err != nil {
 		return nil, err
 	}
-	if r.CheckpointDir != "" {
-		if err := os.MkdirAll(r.CheckpointDir, 0o755); err != nil {
-			return nil, fmt.Errorf("experiment: checkpoint folder: %w", err)
-		}
+	sc, err := r.prepare()
+	if err != nil {
+		return nil, err
 	}
-	refs := make([]*transfer.Reference, len(r.Jobs))
-	rewards := make([]mdp.Reward, len(r.Jobs))
-	for j, job := range r.Jobs {
-		rewards[j] = placeReward(r.Places, job.Weights)
-		ref, err := transfer.NewReference(r.Task, rewards[j], r.TaskGamma)
-		if err != nil {
-			return nil, fmt.Errorf("experiment: job %q: %w", job.Name, err)
-		}
-		refs[j] = ref
+	us := r.units()
+	tasks := make([]task, len(us))
+	for i, u := range us {
+		tasks[i] = task{r: r, sc: sc, u: u}
 	}
-
-	type unit struct {
-		seed   int
-		method int // -1: baselines
+	outs, err := runTasks(ctx, tasks, r.Workers, r.Progress)
+	if err != nil {
+		return nil, err
 	}
-	var units []unit
-	for si := range r.Seeds {
-		for mi := range r.Methods {
-			units = append(units, unit{si, mi})
-		}
-		if r.Baselines {
-			units = append(units, unit{si, -1})
-		}
-	}
-	out := make([][]Record, len(units))
-	times := make([]float64, len(units))
-	mis := make([]float64, len(units))
-	steps := make([]int, len(units))
-	errs := make([]error, len(units))
-	resumed := make([]*ResumedRun, len(units))
-
-	total := 0
-	for _, m := range r.Methods {
-		total += len(r.Seeds) * m.Steps
-	}
-	var mu sync.Mutex
-	done := 0
-	addSteps := func(k int) {
-		if r.Progress == nil || k == 0 {
-			return
-		}
-		mu.Lock()
-		done += k
-		r.Progress(done, total)
-		mu.Unlock()
-	}
-
-	workers := r.Workers
-	if workers <= 0 {
-		workers = runtime.GOMAXPROCS(0)
-	}
-	next := make(chan int)
-	var wg sync.WaitGroup
-	for range min(workers, len(units)) {
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			for ui := range next {
-				u := units[ui]
-				seed := r.Seeds[u.seed]
-				if err := ctx.Err(); err != nil {
-					errs[ui] = err
-					continue
-				}
-				if u.method < 0 {
-					out[ui], errs[ui] = r.runBaselines(seed, rewards, refs)
-					continue
-				}
-				t0 := time.Now()
-				res, err := r.runMethod(ctx, r.Methods[u.method], seed, rewards, refs, addSteps)
-				times[ui] = time.Since(t0).Seconds()
-				if err != nil {
-					errs[ui] = err
-					continue
-				}
-				out[ui], steps[ui], mis[ui], resumed[ui] = res.recs, res.steps, res.mi, res.resumed
-			}
-		}()
-	}
-	for ui := range units {
-		next <- ui
-	}
-	close(next)
-	wg.Wait()
-	for ui, err := range errs {
-		if err != nil {
-			return nil, fmt.Errorf("experiment: seed %d: %w", r.Seeds[units[ui].seed], err)
-		}
-	}
-
-	res := &Results{}
-	for _, rr := range resumed {
-		if rr != nil {
-			res.Resumed = append(res.Resumed, *rr)
-		}
-	}
-	for _, m := range r.Methods {
-		res.VariantInfo = append(res.VariantInfo, methodVariants(m.Method, r.Adapt)...)
-	}
-	if r.Baselines {
-		res.VariantInfo = append(res.VariantInfo, baselineVariants...)
-	}
-	for _, v := range res.VariantInfo {
-		res.Variants = append(res.Variants, v.Name)
-	}
-	for _, recs := range out {
-		res.Records = append(res.Records, recs...)
-	}
-	for mi, m := range r.Methods {
-		st := PretrainStats{Method: m.Method}
-		var n float64
-		for ui, u := range units {
-			if u.method == mi {
-				st.Seconds += times[ui]
-				st.Steps += steps[ui]
-				st.FinalMI += mis[ui]
-				if times[ui] > 0 {
-					st.StepsPerSecond += float64(steps[ui]) / times[ui]
-				}
-				n++
-			}
-		}
-		st.Seconds /= n
-		st.Steps = int(float64(st.Steps) / n)
-		st.FinalMI /= n
-		st.StepsPerSecond /= n
-		res.Pretrain = append(res.Pretrain, st)
-	}
-	res.Summary = summarise(res.Records, res.Variants, r.Jobs, r.Budgets, r.Seeds)
-	return res, nil
+	return r.assemble(outs), nil
 }
 
 // DeriveSeed returns the seed of a sub-run (a method, a job) of the run with

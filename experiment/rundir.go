@@ -12,6 +12,7 @@ import (
 	"io/fs"
 	"os"
 	"path/filepath"
+	"time"
 
 	"github.com/successor-go/successor/internal/fileio"
 	"github.com/successor-go/successor/mdp"
@@ -45,6 +46,7 @@ func RunFiles(m transfer.Method, seed uint64) (checkpoint, record string) {
 // continues it from the checkpoint folder) and adapts the agent to every
 // job. e is resolved.
 func (e *Experiment) runMethod(ctx context.Context, mc transfer.PretrainConfig, seed uint64, rewards []mdp.Reward, refs []*transfer.Reference, addSteps func(int)) (methodRun, error) {
+	t0 := time.Now()
 	c := e.runConfig(mc, seed)
 	m := c.Method
 	cfg := c
@@ -80,7 +82,7 @@ func (e *Experiment) runMethod(ctx context.Context, mc transfer.PretrainConfig, 
 	if err != nil {
 		return out, err
 	}
-	if rec != nil && (rec.Key != key || rec.Method != m || rec.Seed != seed) {
+	if rec != nil && (rec.Key != key || rec.Method == nil || *rec.Method != m || rec.Seed != seed) {
 		return out, fmt.Errorf("experiment: run record %s belongs to another configuration (use another checkpoint folder): %w", recPath, ErrCheckpoint)
 	}
 	ag, err := transfer.Load(ckPath)
@@ -115,7 +117,7 @@ func (e *Experiment) runMethod(ctx context.Context, mc transfer.PretrainConfig, 
 	cfg.Progress = func(p transfer.Progress) {
 		progress(p)
 		if p.Steps >= c.Steps && recErr == nil {
-			recErr = saveRunRecord(recPath, &runRecord{Key: key, Method: m, Seed: seed, Steps: p.Steps, FinalMI: lastMI})
+			recErr = saveRunRecord(recPath, &runRecord{Key: key, Method: &m, Seed: seed, Steps: p.Steps, FinalMI: lastMI})
 		}
 	}
 	cfg.CheckpointPath = ckPath
@@ -149,8 +151,14 @@ func (e *Experiment) runMethod(ctx context.Context, mc transfer.PretrainConfig, 
 		return out, err
 	}
 	out.resumed = resumed
-	if err := saveRunRecord(recPath, &runRecord{Key: key, Method: m, Seed: seed, Steps: out.steps, FinalMI: out.mi, Records: out.recs}); err != nil {
+	if err := saveRunRecord(recPath, &runRecord{Key: key, Method: &m, Seed: seed, Steps: out.steps, FinalMI: out.mi,
+		Seconds: time.Since(t0).Seconds(), Origin: origin(), Records: out.recs}); err != nil {
 		return out, err
+	}
+	if e.DropCheckpoints {
+		if err := os.Remove(ckPath); err != nil && !errors.Is(err, fs.ErrNotExist) {
+			return out, fmt.Errorf("experiment: drop checkpoint: %w", err)
+		}
 	}
 	return out, nil
 }
@@ -266,14 +274,20 @@ func (e *Experiment) fingerprint(c transfer.PretrainConfig, states, actions int)
 	return hex.EncodeToString(h[:])
 }
 
-// runRecord is the body of a .run file.
+// runRecord is the body of a .run file: the record of a pretraining run
+// (Method set) or of the baselines of a seed (Baselines set). Seconds
+// (the wall-clock time of the process that finished the run) and Origin
+// (the build that wrote the rows, see origin) are new in version 2.
 type runRecord struct {
-	Key     string          `json:"key"`
-	Method  transfer.Method `json:"method"`
-	Seed    uint64          `json:"seed"`
-	Steps   int             `json:"steps"`
-	FinalMI float64         `json:"final_mi"`
-	Records []Record        `json:"records"`
+	Key       string           `json:"key"`
+	Method    *transfer.Method `json:"method,omitempty"`
+	Baselines bool             `json:"baselines,omitempty"`
+	Seed      uint64           `json:"seed"`
+	Steps     int              `json:"steps"`
+	FinalMI   float64          `json:"final_mi"`
+	Seconds   float64          `json:"seconds,omitempty"`
+	Origin    string           `json:"origin,omitempty"`
+	Records   []Record         `json:"records"`
 }
 
 // runEnvelope frames a runRecord with a format name, a version and the
@@ -287,9 +301,11 @@ type runEnvelope struct {
 
 var crcTable = crc32.MakeTable(crc32.Castagnoli)
 
+// The format of run records. Version 2 added the baselines' records and
+// the fields seconds and origin; version 1 files are still read.
 const (
 	runFormat  = "successor experiment run record"
-	runVersion = 1
+	runVersion = 2
 )
 
 func marshalRunRecord(r *runRecord) ([]byte, error) {
@@ -323,7 +339,7 @@ func unmarshalRunRecord(data []byte) (*runRecord, error) {
 	if err := d.Decode(&env); err != nil {
 		return nil, fmt.Errorf("not a run record: %w: %w", ErrCheckpoint, err)
 	}
-	if env.Format != runFormat || env.Version != runVersion {
+	if env.Format != runFormat || env.Version != runVersion && env.Version != 1 {
 		return nil, fmt.Errorf("run record format %q version %d, want %q version %d: %w", env.Format, env.Version, runFormat, runVersion, ErrCheckpoint)
 	}
 	if got := crc32.Checksum(env.Body, crcTable); got != env.CRC {
@@ -335,8 +351,11 @@ func unmarshalRunRecord(data []byte) (*runRecord, error) {
 	if err := d.Decode(&r); err != nil {
 		return nil, fmt.Errorf("run record body: %w: %w", ErrCheckpoint, err)
 	}
-	if r.Steps < 0 {
-		return nil, fmt.Errorf("run record: %d steps: %w", r.Steps, ErrCheckpoint)
+	if r.Steps < 0 || !(r.Seconds >= 0) {
+		return nil, fmt.Errorf("run record: %d steps, %v seconds: %w", r.Steps, r.Seconds, ErrCheckpoint)
+	}
+	if (r.Method == nil) != r.Baselines {
+		return nil, fmt.Errorf("run record: neither a method's nor the baselines': %w", ErrCheckpoint)
 	}
 	return &r, nil
 }
