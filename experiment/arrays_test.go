@@ -2,7 +2,7 @@ package experiment_test
 
 import (
 	"bytes"
-		"errors"
+	"errors"
 	"fmt"
 	"math"
 	"math/rand/v2"
