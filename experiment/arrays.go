@@ -7,6 +7,7 @@ import (
 	"encoding/json"
 	"errors"
 	"fmt"
+	"io"
 	"math"
 	"os"
 	"path/filepath"
@@ -231,12 +232,23 @@ func encodeArray(a Array) (ArrayInfo, []byte, error) {
 		}
 	}
 	var buf bytes.Buffer
-	if err := npyio.Write(&buf, value); err != nil {
+	if err := writeNPY(&buf, value); err != nil {
 		return ArrayInfo{}, nil, bad("npy: %v", err)
 	}
 	sum := sha256.Sum256(buf.Bytes())
 	info.SHA256 = hex.EncodeToString(sum[:])
 	return info, buf.Bytes(), nil
+}
+
+// writeNPY writes v with the NPY module, turning a panic of the module
+// (it panics on some layouts it cannot describe) into an error.
+func writeNPY(w io.Writer, v any) (err error) {
+	defer func() {
+		if r := recover(); r != nil {
+			err = fmt.Errorf("npy writer: %v", r)
+		}
+	}()
+	return npyio.Write(w, v)
 }
 
 // nest returns flat as nested slices of the given shape ([]T for one
@@ -335,6 +347,21 @@ func structured(data any) (any, []FieldInfo, int, error) {
 		for j, i := range src {
 			out.Index(r).Field(j).Set(row.Field(i).Convert(fields[j].Type))
 		}
+	}
+	// The NPY module sizes a string field by the first row and, in
+	// v0.14.0, lays out the fields wrongly (or panics) when a later row
+	// widens one. Pad the first row's strings with NULs to the width of
+	// the field: NumPy's fixed-width strings are NUL-padded anyway, and
+	// numpy returns them without the padding.
+	for j, f := range fields {
+		if f.Type.Kind() != reflect.String {
+			continue
+		}
+		var width int
+		fmt.Sscanf(infos[j].DType, "<U%d", &width)
+		first := out.Index(0).Field(j)
+		pad := width - utf8.RuneCountInString(first.String())
+		first.SetString(first.String() + strings.Repeat("\x00", pad))
 	}
 	return out.Interface(), infos, v.Len(), nil
 }

@@ -46,6 +46,14 @@ func testArrays() []experiment.Array {
 		{Variant: "q-learning", Job: "dépôt-ü", Budget: 1000, Seed: math.MaxUint64, Normalised: -1.5, Value: math.SmallestNonzeroFloat64, Rewarded: math.MaxInt64},
 		{Variant: "x", Job: "y", Budget: -7, Normalised: math.MaxFloat64, Lambda: math.Float64frombits(rng.Uint64())},
 	}
+	// Strings that widen after the first row (the NPY module mislays such
+	// fields unless the first row is padded).
+	widening := []experiment.Record{
+		{Variant: "vmf:usf+gpi", Job: "bench"},
+		{Variant: "vmf:model-fit+gpi", Job: "bench"},
+		{Variant: "vmf:usf+gpi", Job: "dock-no-lane"},
+		{Variant: "categorical:model-fit+gpi", Job: "é"},
+	}
 	sums := []experiment.Summary{
 		{Variant: "given:usf+gpi", Job: "mean", Budget: 200, Mean: 0.5, StdErr: math.NaN(), RSquared: 1, N: 1},
 		{Variant: "sf-q-learning", Job: "bays", Budget: 1, Mean: -0.0, StdErr: 0.125, N: 5},
@@ -59,6 +67,7 @@ func testArrays() []experiment.Array {
 		{Name: "ints", Axes: []string{"state", "coordinate"}, Shape: []int{2, 3}, Data: []int64{0, -1, math.MaxInt64, math.MinInt64, 42, 7},
 			Labels: map[string][]string{"coordinate": {"row", "col", "x"}}},
 		{Name: "records", Axes: []string{"record"}, Data: recs},
+		{Name: "widening", Axes: []string{"record"}, Data: widening},
 		{Name: "summary", Axes: []string{"row"}, Data: sums},
 	}
 }
