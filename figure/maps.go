@@ -363,4 +363,3 @@ func labelOr(s, def string) string {
 	}
 	return s
 }
-

@@ -286,7 +286,9 @@ func Returns(res *experiment.Results, opt *ReturnsOptions) (*Figure, error) {
 	} else {
 		fmt.Fprintf(&cap, " Points are means over %d seeds; bars are +-1 standard error %s.", seeds, barsOf)
 	}
-	if len(budgets) > 0 {
+	if seeds < 2 {
+		cap.WriteString(" Points at one budget are shifted sideways so they do not hide each other.")
+	} else {
 		cap.WriteString(" Points at one budget are shifted sideways so their bars do not overlap.")
 	}
 	caption := cap.String()
