@@ -14,8 +14,10 @@
 // It pretrains every method on every seed, adapts each pretrained agent to
 // every job from the labelled budgets, prints the table method x job ->
 // normalised return (0 = uniform random policy, 1 = optimal; mean +-
-// standard error over the seeds), and writes results.json, results.csv and
-// PNG figures into the output folder.
+// standard error over the seeds), and writes results.json (described by
+// results.schema.json, written beside it), results.csv, NumPy arrays with a
+// manifest in arrays/ and captioned PNG and SVG figures (package figure)
+// into the output folder.
 //
 // Every method appears in three rows: <method>:usf+gpi is successor-feature
 // transfer proper (GPI over the universal SFs of the skills nearest the
@@ -111,7 +113,7 @@ func parseFlags(args []string, stderr io.Writer) (*options, error) {
 	fs.IntVar(&o.workers, "workers", 0, "parallel runs (0: one per CPU); the figures do not depend on it")
 	fs.IntVar(&o.steps, "steps", 0, "pretraining steps per run (0: the default, 100000; -quick 8000)")
 	fs.StringVar(&o.cpuProfile, "cpuprofile", "", "write a CPU profile of the whole run to this file")
-	fs.BoolVar(&o.noPlots, "noplots", false, "skip the PNG figures")
+	fs.BoolVar(&o.noPlots, "noplots", false, "skip the PNG and SVG figures (the NumPy arrays are still written)")
 	fs.IntVar(&o.dim, "dim", 0, "feature dimension d of the sphere methods vmf and random (0: the demo's default, 64); categorical's is skills+1, given's the number of place features")
 	fs.Float64Var(&o.discRate, "discrate", 0, "step size of the discriminator's Adam (0: transfer's default)")
 	fs.TextVar(&o.discOptim, "discoptim", skills.OptimAdam, "discriminator optimiser: adam, or sparse-adam (only the minibatch's states and the bias; faster, transferred worse on this depot)")
