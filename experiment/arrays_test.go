@@ -56,7 +56,7 @@ func testArrays() []experiment.Array {
 	}
 	sums := []experiment.Summary{
 		{Variant: "given:usf+gpi", Job: "mean", Budget: 200, Mean: 0.5, StdErr: math.NaN(), RSquared: 1, N: 1},
-		{Variant: "sf-q-learning", Job: "bays", Budget: 1, Mean: -0.0, StdErr: 0.125, N: 5},
+		{Variant: "sf-q-learning", Job: "bays", Budget: 1, Mean: math.Copysign(0, -1), StdErr: 0.125, N: 5},
 	}
 	return []experiment.Array{
 		{Name: "special", Description: "special values", Axes: []string{"i"}, Shape: []int{len(specialFloats)}, Data: specialFloats},
