@@ -48,7 +48,35 @@
 // enumerations as text, the resolved values rather than zeros) and
 // Report.WriteCSV writes results.csv (one line per scored policy:
 // variant, job, budget, seed, normalised, value, r_squared, residual,
-// rewarded, lambda), both atomically.
+// rewarded, lambda), both atomically. Every field of results.json is
+// described, with its type, in the JSON Schema (draft 2020-12)
+// results.schema.json of this package (ResultsSchema returns it); a test
+// checks a real run's file against it, so a new field must be described
+// there.
+//
+// WriteTable prints the variant x job table of the normalised return at
+// one budget (mean +- standard error over seeds; "n/a" with one seed).
+//
+// # Arrays for NumPy
+//
+// WriteArrays writes arrays as NumPy .npy files (format 1.0/2.0,
+// little-endian, C order; written with codeberg.org/sbinet/npyio) into a
+// folder with a manifest, manifest.json, our own JSON: format
+// "successor-arrays", version 1, the library version, and per array its
+// name, file, description, dtype, shape, axis names, optional labels of
+// the positions along an axis, and the SHA-256 of the file (see Manifest
+// and ArrayInfo). Plain arrays are float64 or int64; a slice of structs
+// such as the records (RecordsArray) or the summary (SummaryArray) becomes
+// a structured array with one field per struct field, named by its json
+// tag, so new fields appear without code changes. In Python:
+//
+//	import json, numpy as np
+//	man = json.load(open("arrays/manifest.json"))
+//	rec = np.load("arrays/records.npy")
+//	rec[rec["variant"] == "vmf:usf+gpi"]["normalised"].mean()
+//
+// ReadManifest reads a manifest back and Manifest.Verify checks the files
+// against their checksums.
 //
 // # Checkpoints
 //

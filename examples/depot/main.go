@@ -14,8 +14,10 @@
 // It pretrains every method on every seed, adapts each pretrained agent to
 // every job from the labelled budgets, prints the table method x job ->
 // normalised return (0 = uniform random policy, 1 = optimal; mean +-
-// standard error over the seeds), and writes results.json, results.csv and
-// PNG figures into the output folder.
+// standard error over the seeds), and writes results.json (described by
+// results.schema.json, written beside it), results.csv, NumPy arrays with a
+// manifest in arrays/ and captioned PNG and SVG figures (package figure)
+// into the output folder.
 //
 // Every method appears in three rows: <method>:usf+gpi is successor-feature
 // transfer proper (GPI over the universal SFs of the skills nearest the
@@ -49,13 +51,13 @@ import (
 	"slices"
 	"strings"
 	"sync"
-	"text/tabwriter"
 	"time"
 
 	"github.com/schollz/progressbar/v3"
 	"golang.org/x/term"
 
 	"github.com/successor-go/successor/experiment"
+	"github.com/successor-go/successor/internal/fileio"
 	"github.com/successor-go/successor/mdp"
 	"github.com/successor-go/successor/sf"
 	"github.com/successor-go/successor/skills"
@@ -111,7 +113,7 @@ func parseFlags(args []string, stderr io.Writer) (*options, error) {
 	fs.IntVar(&o.workers, "workers", 0, "parallel runs (0: one per CPU); the figures do not depend on it")
 	fs.IntVar(&o.steps, "steps", 0, "pretraining steps per run (0: the default, 100000; -quick 8000)")
 	fs.StringVar(&o.cpuProfile, "cpuprofile", "", "write a CPU profile of the whole run to this file")
-	fs.BoolVar(&o.noPlots, "noplots", false, "skip the PNG figures")
+	fs.BoolVar(&o.noPlots, "noplots", false, "skip the PNG and SVG figures (the NumPy arrays are still written)")
 	fs.IntVar(&o.dim, "dim", 0, "feature dimension d of the sphere methods vmf and random (0: the demo's default, 64); categorical's is skills+1, given's the number of place features")
 	fs.Float64Var(&o.discRate, "discrate", 0, "step size of the discriminator's Adam (0: transfer's default)")
 	fs.TextVar(&o.discOptim, "discoptim", skills.OptimAdam, "discriminator optimiser: adam, or sparse-adam (only the minibatch's states and the bias; faster, transferred worse on this depot)")
@@ -339,9 +341,21 @@ func run(args []string, stdout, stderr io.Writer) error {
 	if err := rep.WriteCSV(filepath.Join(o.out, "results.csv")); err != nil {
 		return err
 	}
-	files := []string{"results.json", "results.csv"}
+	if err := fileio.WriteAtomic(filepath.Join(o.out, "results.schema.json"), experiment.ResultsSchema(), fileio.FileMode); err != nil {
+		return err
+	}
+	files := []string{"results.json", "results.csv", "results.schema.json"}
+	outs, err := prepare(g, rep.Config, res, kept)
+	if err != nil {
+		return err
+	}
+	arrays, err := outs.writeArrays(o.out)
+	if err != nil {
+		return err
+	}
+	files = append(files, fmt.Sprintf("%s/ (%d NumPy arrays and %s)", arraysDir, len(arrays)-1, experiment.ManifestFile))
 	if !o.noPlots {
-		figs, err := drawFigures(o.out, g, rep.Config, res, kept)
+		figs, err := outs.drawFigures(o.out)
 		if err != nil {
 			return err
 		}
@@ -392,13 +406,19 @@ func progress(stderr io.Writer, total int) (func(done, total int), func()) {
 			progressbar.OptionSetWriter(stderr),
 			progressbar.OptionSetDescription("pretraining"),
 			progressbar.OptionShowCount(),
-			progressbar.OptionShowIts(),
-			progressbar.OptionSetItsString("steps"),
 			progressbar.OptionThrottle(100*time.Millisecond),
 			progressbar.OptionClearOnFinish(),
 		)
-		// Episodes finish, so a run may overshoot its planned steps a little.
-		return func(done, _ int) { bar.Set(min(done, total)) }, func() { bar.Finish() }
+		// The bar's own rate would divide the first report (one episode's
+		// steps) by the nanoseconds since its first frame; the rate here is
+		// ours, over the time since the start, shown after a second.
+		start := time.Now()
+		return func(done, _ int) {
+			bar.Describe("pretraining" + rateText(done, time.Since(start)))
+			// Episodes finish, so a run may overshoot its planned steps a
+			// little.
+			bar.Set(min(done, total))
+		}, func() { bar.Finish() }
 	}
 	start := time.Now()
 	last := time.Time{}
@@ -408,6 +428,16 @@ func progress(stderr io.Writer, total int) (func(done, total int), func()) {
 			fmt.Fprintf(stderr, "pretraining: %d/%d steps (%.0f%%) after %.1fs\n", done, total, 100*float64(done)/float64(total), now.Sub(start).Seconds())
 		}
 	}, func() {}
+}
+
+// rateText returns " (N steps/s)", the mean pretraining rate since the
+// start, or "" during the first second, when a rate would be mostly noise
+// (the first report comes after a single episode).
+func rateText(done int, elapsed time.Duration) string {
+	if elapsed < time.Second || done <= 0 {
+		return ""
+	}
+	return fmt.Sprintf(" (%.0f steps/s)", float64(done)/elapsed.Seconds())
 }
 
 // printResumed says which runs continued from the checkpoint folder.
@@ -431,31 +461,13 @@ func printResumed(w io.Writer, dir string, runs []experiment.ResumedRun) {
 	fmt.Fprintln(w)
 }
 
-// printTable prints method x job -> normalised return at the largest
-// budget, plus pretraining time and inference fit.
+// printTable prints the variant x job table of the normalised return at
+// the largest budget (experiment.WriteTable), then the pretraining times,
+// the variants and the jobs.
 func printTable(w io.Writer, e *experiment.Experiment, res *experiment.Results, elapsed time.Duration) {
-	b := e.Budgets[len(e.Budgets)-1]
-	fmt.Fprintf(w, "Normalised return after %d labelled steps (0 = uniform random policy, 1 = optimal; mean +- s.e. over %d seeds)\n\n", b, len(e.Seeds))
-	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', tabwriter.AlignRight)
-	fmt.Fprint(tw, "variant\t")
-	for _, j := range e.Jobs {
-		fmt.Fprintf(tw, "%s\t", j.Name)
+	if err := experiment.WriteTable(w, res, nil); err != nil {
+		fmt.Fprintln(w, err)
 	}
-	fmt.Fprint(tw, "mean\tinference R^2\t\n")
-	for _, v := range res.Variants {
-		fmt.Fprintf(tw, "%s\t", v)
-		for _, j := range e.Jobs {
-			s, _ := res.Lookup(v, j.Name, b)
-			fmt.Fprintf(tw, "%.2f +- %.2f\t", s.Mean, s.StdErr)
-		}
-		s, _ := res.Lookup(v, "mean", b)
-		r2 := "-"
-		if !strings.Contains(v, "q-learning") {
-			r2 = fmt.Sprintf("%.2f", s.RSquared)
-		}
-		fmt.Fprintf(tw, "%.2f +- %.2f\t%s\t\n", s.Mean, s.StdErr, r2)
-	}
-	tw.Flush()
 	fmt.Fprintln(w)
 	for _, p := range res.Pretrain {
 		mi := ""

@@ -5,11 +5,18 @@ import (
 	"encoding/json"
 	"errors"
 	"io"
+	"math"
 	"os"
 	"path/filepath"
 	"reflect"
+	"slices"
+	"strconv"
 	"strings"
 	"testing"
+	"time"
+
+	"github.com/successor-go/successor/experiment"
+	"github.com/successor-go/successor/internal/npytest"
 )
 
 func TestParseFlags(t *testing.T) {
@@ -56,9 +63,78 @@ func TestQuickRun(t *testing.T) {
 	if err := run([]string{"-quick", "-methods", "vmf", "-steps", "1000", "-seeds", "2", "-budget", "60", "-out", dir}, io.Discard, io.Discard); err != nil {
 		t.Fatal(err)
 	}
-	for _, f := range []string{"results.json", "results.csv", "returns.png", "successor.png", "skills-vmf.png"} {
+	for _, f := range []string{"results.json", "results.csv", "results.schema.json", "returns.png", "returns.svg", "successor.png", "successor.svg",
+		"skills-vmf.png", "skills-vmf.svg", "arrays/manifest.json", "arrays/records.npy", "arrays/psi_vmf.npy", "arrays/successor_uniform.npy"} {
 		if st, err := os.Stat(filepath.Join(dir, f)); err != nil || st.Size() == 0 {
 			t.Errorf("%s: %v", f, err)
+		}
+	}
+	checkArrays(t, dir)
+}
+
+// checkArrays reads the demo's arrays back with NumPy: every file of the
+// manifest loads with the manifest's dtype, shape and SHA-256, and the
+// records equal those of results.json bit for bit (float64 compared as
+// their bits; JSON numbers written by Go round-trip exactly).
+func checkArrays(t *testing.T, dir string) {
+	t.Helper()
+	arrays := filepath.Join(dir, arraysDir)
+	man, err := experiment.ReadManifest(filepath.Join(arrays, experiment.ManifestFile))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := man.Verify(arrays); err != nil {
+		t.Fatal(err)
+	}
+	got, _ := npytest.Load(t, arrays)
+	for _, a := range man.Arrays {
+		l := got[a.Name]
+		if l.SHA256 != a.SHA256 || l.DType != a.DType || !slices.Equal(l.Shape, a.Shape) {
+			t.Errorf("%s: numpy sees %s %v, manifest says %s %v", a.Name, l.DType, l.Shape, a.DType, a.Shape)
+		}
+	}
+	data, err := os.ReadFile(filepath.Join(dir, "results.json"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	var rep experiment.Report
+	if err := json.Unmarshal(data, &rep); err != nil {
+		t.Fatal(err)
+	}
+	recs := got["records"].Columns
+	if len(recs["normalised"]) != len(rep.Results.Records) || len(rep.Results.Records) == 0 {
+		t.Fatalf("%d records in records.npy, %d in results.json", len(recs["normalised"]), len(rep.Results.Records))
+	}
+	for i, r := range rep.Results.Records {
+		want := map[string]string{
+			"variant": r.Variant, "job": r.Job, "budget": strconv.Itoa(r.Budget), "seed": strconv.FormatUint(r.Seed, 10),
+			"normalised": strconv.FormatUint(math.Float64bits(r.Normalised), 10), "value": strconv.FormatUint(math.Float64bits(r.Value), 10),
+			"lambda": strconv.FormatUint(math.Float64bits(r.Lambda), 10),
+		}
+		for k, v := range want {
+			if recs[k][i] != v {
+				t.Fatalf("record %d field %s: numpy %q, results.json %q", i, k, recs[k][i], v)
+			}
+		}
+	}
+}
+
+// TestRateText: the progress bar shows no rate in its first second (the
+// first report comes after one episode, so a rate over a few microseconds
+// of drawing would be absurd), then the mean rate since the start.
+func TestRateText(t *testing.T) {
+	for _, tc := range []struct {
+		done    int
+		elapsed time.Duration
+		want    string
+	}{
+		{100, 7 * time.Nanosecond, ""},
+		{100, 999 * time.Millisecond, ""},
+		{0, 5 * time.Second, ""},
+		{5000, 2 * time.Second, " (2500 steps/s)"},
+	} {
+		if got := rateText(tc.done, tc.elapsed); got != tc.want {
+			t.Errorf("rateText(%d, %v) = %q, want %q", tc.done, tc.elapsed, got, tc.want)
 		}
 	}
 }
