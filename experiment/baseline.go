@@ -5,6 +5,7 @@ import (
 	"math"
 	"math/rand/v2"
 
+	"github.com/successor-go/successor/internal/vec"
 	"github.com/successor-go/successor/mdp"
 	"github.com/successor-go/successor/sf"
 	"github.com/successor-go/successor/transfer"
@@ -79,7 +80,7 @@ func QLearning(env transfer.Env, r mdp.Reward, gamma float64, budgets []int, cfg
 	rng := rand.New(rand.NewPCG(seed, streamBaseline))
 	var out []mdp.Deterministic
 	err = runEpisodes(env, budgets, c, rng, func(s int) int {
-		return argmaxRand(q[s*na:(s+1)*na], rng)
+		return vec.ArgmaxReservoir(q[s*na:(s+1)*na], rng)
 	}, func(s, a, next int, term bool) error {
 		target := r(s, a, next)
 		if !term {
@@ -93,7 +94,7 @@ func QLearning(env transfer.Env, r mdp.Reward, gamma float64, budgets []int, cfg
 	}, func() {
 		pol := make(mdp.Deterministic, n)
 		for s := range pol {
-			pol[s] = argmaxRand(q[s*na:(s+1)*na], nil)
+			pol[s] = vec.ArgmaxReservoir(q[s*na:(s+1)*na], nil)
 		}
 		out = append(out, pol)
 	})
@@ -143,7 +144,7 @@ func SFQLearning(env transfer.Env, phi sf.FeatureMap, r mdp.Reward, gamma float6
 	}
 	var out []mdp.Deterministic
 	err = runEpisodes(env, budgets, c, rng, func(s int) int {
-		return argmaxRand(qs(s), rng)
+		return vec.ArgmaxReservoir(qs(s), rng)
 	}, func(s, a, next int, term bool) error {
 		phi.Features(f, s, a, next)
 		if err := est.Observe(f, r(s, a, next)); err != nil {
@@ -162,7 +163,7 @@ func SFQLearning(env transfer.Env, phi sf.FeatureMap, r mdp.Reward, gamma float6
 	}, func() {
 		pol := make(mdp.Deterministic, n)
 		for s := range pol {
-			pol[s] = argmaxRand(qs(s), nil)
+			pol[s] = vec.ArgmaxReservoir(qs(s), nil)
 		}
 		out = append(out, pol)
 	})
@@ -235,24 +236,6 @@ const (
 func startDone(env mdp.Env) bool {
 	d, ok := env.(interface{ Done() bool })
 	return ok && d.Done()
-}
-
-// argmaxRand returns the index of the largest value, ties broken uniformly
-// at random with rng (the lowest index if rng is nil).
-func argmaxRand(q []float64, rng *rand.Rand) int {
-	best, arg, ties := math.Inf(-1), 0, 0
-	for i, v := range q {
-		switch {
-		case v > best:
-			best, arg, ties = v, i, 1
-		case v == best && rng != nil:
-			ties++
-			if rng.IntN(ties) == 0 {
-				arg = i
-			}
-		}
-	}
-	return arg
 }
 
 func maxOf(q []float64) float64 {

@@ -5,6 +5,8 @@ import (
 	"math"
 	"math/rand/v2"
 	"testing"
+
+	"github.com/successor-go/successor/internal/vec"
 )
 
 // randBatch returns n rows of dense Gaussian observations and n skills from p.
@@ -176,7 +178,7 @@ func TestSoftmaxPseudoReward(t *testing.T) {
 		// phi(x) . TaskVector(z) is the same reward.
 		s.Features(phi, x)
 		s.TaskVector(w, z)
-		if pr := dot(phi, w); math.Abs(pr-r) > 1e-13 {
+		if pr := vec.DotSeq(phi, w); math.Abs(pr-r) > 1e-13 {
 			t.Errorf("phi . w = %.15g, reward %.15g", pr, r)
 		}
 		if phi[k] != math.Log(k) || w[k] != 1 {

@@ -4,6 +4,8 @@ import (
 	"math"
 	"math/rand/v2"
 	"testing"
+
+	"github.com/successor-go/successor/internal/vec"
 )
 
 // A 5x5 grid (invented for this test); cell (r, c) is state 5r + c. Four
@@ -185,7 +187,7 @@ func TestLearnGridVMF(t *testing.T) {
 		ideal := math.Inf(1)
 		for a := range k {
 			for b := range a {
-				ideal = min(ideal, 1-dot(skills[a], skills[b]))
+				ideal = min(ideal, 1-vec.DotSeq(skills[a], skills[b]))
 			}
 		}
 		if own < 0.95 || worst < 0.9*ideal {

@@ -185,19 +185,6 @@ func sparseClipNorm(g []float64, rows []int, out int, c float64) float64 {
 	return norm
 }
 
-// dot returns a . b summed left to right. It is not vec.Dot (four
-// interleaved partial sums): the discriminators' features and rewards were
-// defined with this order, and results such as the depot demo's depend on
-// its bits.
-func dot(a, b []float64) float64 {
-	b = b[:len(a)]
-	var s float64
-	for i, v := range a {
-		s += v * b[i]
-	}
-	return s
-}
-
 func isFinite(v float64) bool { return !math.IsNaN(v) && !math.IsInf(v, 0) }
 
 func allFinite(v []float64) bool {

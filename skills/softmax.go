@@ -171,7 +171,7 @@ func (c *Softmax) LogProb(x, z []float64) float64 {
 		panic(fmt.Sprintf("skills: softmax: len(z) = %d, want %d", len(z), c.k))
 	}
 	c.logProbs(x)
-	return dot(c.lq, z)
+	return vec.DotSeq(c.lq, z)
 }
 
 // Reward returns the pseudo-reward log q(z | x) - log p(z) =

@@ -6,6 +6,7 @@ import (
 	"math/rand/v2"
 
 	"github.com/successor-go/successor/internal/nn"
+	"github.com/successor-go/successor/internal/vec"
 )
 
 // VMFConfig configures a von Mises–Fisher discriminator. Zero fields other
@@ -173,7 +174,7 @@ func (v *VMF) Features(dst, x []float64) {
 // unit writes f/||f|| into dst, or zeros if ||f|| < minNorm, and returns
 // ||f||.
 func unit(dst, f []float64) float64 {
-	n := math.Sqrt(dot(f, f))
+	n := math.Sqrt(vec.DotSeq(f, f))
 	if n < minNorm {
 		clear(dst)
 		return n
@@ -197,7 +198,7 @@ func (v *VMF) Reward(x, z []float64) float64 {
 		panic(fmt.Sprintf("skills: vmf: len(z) = %d, want %d", len(z), v.dim))
 	}
 	v.Features(v.phi, x)
-	return dot(v.phi, z)
+	return vec.DotSeq(v.phi, z)
 }
 
 // TaskVector copies z into dst: the task vector of a vMF skill is the
@@ -241,7 +242,7 @@ func (v *VMF) chunkLoss(dy, y, z []float64, m int, inv float64) float64 {
 	var loss float64
 	for i := 0; i < m; i++ {
 		fi, zi, di := y[i*d:(i+1)*d], z[i*d:(i+1)*d], dy[i*d:(i+1)*d]
-		nrm := math.Sqrt(dot(fi, fi))
+		nrm := math.Sqrt(vec.DotSeq(fi, fi))
 		if nrm < minNorm {
 			for j, zj := range zi {
 				di[j] = -v.kappa * inv * zj
@@ -251,7 +252,7 @@ func (v *VMF) chunkLoss(dy, y, z []float64, m int, inv float64) float64 {
 		}
 		// phi = f/|f|; c = phi.z; d(phi.z)/df = (z - c phi)/|f|.
 		s := 1 / nrm
-		c := dot(fi, zi) * s
+		c := vec.DotSeq(fi, zi) * s
 		v.csum += c
 		loss -= v.kappa*c + v.logNorm
 		a := -v.kappa * inv * s

@@ -8,6 +8,7 @@ import (
 	"slices"
 
 	"github.com/successor-go/successor/gpi"
+	"github.com/successor-go/successor/internal/vec"
 	"github.com/successor-go/successor/mdp"
 	"github.com/successor-go/successor/sf"
 	"gonum.org/v1/gonum/mat"
@@ -334,7 +335,7 @@ func (ag *Agent) Policy(inf *Inference, cfg AdaptConfig) (*Policy, error) {
 	sims := make([]sim, ag.k)
 	for k := range ag.k {
 		zk := ag.Skill(k)
-		sims[k] = sim{k, dot(zk, inf.W) / math.Sqrt(dot(zk, zk))}
+		sims[k] = sim{k, vec.DotSeq(zk, inf.W) / math.Sqrt(vec.DotSeq(zk, zk))}
 	}
 	slices.SortStableFunc(sims, func(x, y sim) int { return cmp.Compare(y.c, x.c) })
 	pol := &Policy{Inference: *inf}
@@ -398,7 +399,7 @@ func (ag *Agent) fitQ(w []float64, sweeps int) ([]float64, int, error) {
 	n, na, d := ag.n, ag.a, ag.d
 	r := make([]float64, n)
 	for s := range n {
-		r[s] = dot(ag.phiTab[s*d:(s+1)*d], w)
+		r[s] = vec.DotSeq(ag.phiTab[s*d:(s+1)*d], w)
 	}
 	q := make([]float64, n*na)
 	v := make([]float64, n)

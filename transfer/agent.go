@@ -7,6 +7,7 @@ import (
 	"sync"
 
 	"github.com/successor-go/successor/gpi"
+	"github.com/successor-go/successor/internal/vec"
 	"github.com/successor-go/successor/mdp"
 	"github.com/successor-go/successor/sf"
 	"github.com/successor-go/successor/skills"
@@ -146,7 +147,7 @@ func (ag *Agent) Nearest(w []float64) int {
 	best, arg := math.Inf(-1), 0
 	for k := range ag.k {
 		zk := ag.Skill(k)
-		c := dot(zk, w) / math.Sqrt(dot(zk, zk))
+		c := vec.DotSeq(zk, w) / math.Sqrt(vec.DotSeq(zk, zk))
 		if c > best {
 			best, arg = c, k
 		}
@@ -176,7 +177,7 @@ func (ag *Agent) Q(dst []float64, s int, z, w []float64) {
 	}
 	psi := ag.SkillState(ag.Nearest(z), s)
 	for a := range ag.a {
-		dst[a] = dot(psi[a*ag.d:(a+1)*ag.d], w)
+		dst[a] = vec.DotSeq(psi[a*ag.d:(a+1)*ag.d], w)
 	}
 }
 
@@ -188,34 +189,7 @@ func (ag *Agent) Source(k int) gpi.Source { return ag.usf.Tables[k] }
 // values of the USF, ties broken uniformly at random with rng (nil rng:
 // the lowest action).
 func (ag *Agent) actSkill(k, s int, rng *rand.Rand) int {
-	return argmaxRand(ag.usf.Values(k, s), rng)
-}
-
-// argmaxRand returns the index of the largest value, ties broken uniformly
-// at random with rng (the lowest index if rng is nil).
-func argmaxRand(q []float64, rng *rand.Rand) int {
-	best, arg, ties := math.Inf(-1), 0, 0
-	for i, v := range q {
-		switch {
-		case v > best:
-			best, arg, ties = v, i, 1
-		case v == best && rng != nil:
-			ties++
-			if rng.IntN(ties) == 0 {
-				arg = i
-			}
-		}
-	}
-	return arg
-}
-
-func dot(x, y []float64) float64 {
-	var s float64
-	y = y[:len(x)]
-	for i, v := range x {
-		s += v * y[i]
-	}
-	return s
+	return vec.ArgmaxReservoir(ag.usf.Values(k, s), rng)
 }
 
 // newAgent allocates an agent for the resolved configuration c and

@@ -5,6 +5,7 @@ import (
 	"math/rand/v2"
 	"testing"
 
+	"github.com/successor-go/successor/internal/vec"
 	"github.com/successor-go/successor/mdp"
 	"github.com/successor-go/successor/sf"
 )
@@ -47,7 +48,7 @@ func TestInferTaskExact(t *testing.T) {
 	for range 300 {
 		s := rng.IntN(g.NumStates())
 		ag.Phi(phi, s)
-		lab = append(lab, Transition{S: s, Next: s, Reward: dot(phi, want)})
+		lab = append(lab, Transition{S: s, Next: s, Reward: vec.DotSeq(phi, want)})
 	}
 	inf, err := InferTask(ag, lab, 1e-12)
 	if err != nil {
@@ -61,7 +62,7 @@ func TestInferTaskExact(t *testing.T) {
 	if math.Abs(inf.RSquared-1) > 1e-9 || inf.Residual > 1e-6 {
 		t.Errorf("R^2 %v residual %v, want 1 and 0", inf.RSquared, inf.Residual)
 	}
-	if n := math.Sqrt(dot(inf.W, inf.W)); math.Abs(n-1) > 1e-12 {
+	if n := math.Sqrt(vec.DotSeq(inf.W, inf.W)); math.Abs(n-1) > 1e-12 {
 		t.Errorf("|W| = %v, want 1 (sphere method)", n)
 	}
 }
@@ -138,7 +139,7 @@ func TestGivenSkillsExact(t *testing.T) {
 		r := func(s, a, next int) float64 {
 			phi := make([]float64, ag.d)
 			ag.Phi(phi, next)
-			return dot(phi, z)
+			return vec.DotSeq(phi, z)
 		}
 		pol := make(mdp.Deterministic, ag.n)
 		for s := range pol {
@@ -207,7 +208,7 @@ func TestInferTaskCV(t *testing.T) {
 			mean += y / float64(len(ys))
 		}
 		ag.Phi(phi, s)
-		e := mean - dot(phi, fit.Raw)
+		e := mean - vec.DotSeq(phi, fit.Raw)
 		sum += e * e
 	}
 	want := sum / float64(len(states))

@@ -5,6 +5,7 @@ import (
 	"math"
 	"math/rand/v2"
 
+	"github.com/successor-go/successor/internal/vec"
 	"github.com/successor-go/successor/sf"
 )
 
@@ -368,7 +369,7 @@ func (t *Tabular) Update(b *Batch) (float64, error) {
 			return 0, t.err
 		}
 		if t.q != nil {
-			t.q[(k*ns+s)*na+a] = dotSeq(row, z)
+			t.q[(k*ns+s)*na+a] = vec.DotSeq(row, z)
 		}
 		loss += sq
 	}
@@ -376,18 +377,6 @@ func (t *Tabular) Update(b *Batch) (float64, error) {
 		return 0, nil
 	}
 	return loss / (2 * float64(n)), nil
-}
-
-// dotSeq returns x . y summed left to right. The cache of action values
-// uses it (rather than the four-way sum of the package's other inner
-// products) so that its argmax, and the runs built on it, keep their bits.
-func dotSeq(x, y []float64) float64 {
-	var s float64
-	y = y[:len(x)]
-	for i, v := range x {
-		s += v * y[i]
-	}
-	return s
 }
 
 // values returns the cache of action values, building it from the tables
@@ -402,7 +391,7 @@ func (t *Tabular) values() []float64 {
 		tab := t.Tables[k]
 		for s := range ns {
 			for a := range na {
-				q[(k*ns+s)*na+a] = dotSeq(tab.Row(s, a), z)
+				q[(k*ns+s)*na+a] = vec.DotSeq(tab.Row(s, a), z)
 			}
 		}
 	}
@@ -431,18 +420,7 @@ func (t *Tabular) Values(k, s int) []float64 {
 // action. It panics if k or s is out of range. It does not allocate once
 // the cache is built.
 func (t *Tabular) Greedy(k, s int) int {
-	return argmaxFirst(t.Values(k, s))
-}
-
-// argmaxFirst returns the index of the largest value, ties to the lowest.
-func argmaxFirst(q []float64) int {
-	best, arg := math.Inf(-1), 0
-	for i, v := range q {
-		if v > best {
-			best, arg = v, i
-		}
-	}
-	return arg
+	return vec.Argmax(t.Values(k, s))
 }
 
 // TDStats accumulates the squared TD errors of updates: SumSq is the sum
@@ -533,7 +511,7 @@ func (t *Tabular) UpdateRelabel(b *Batch, extra int, rng *rand.Rand, st *TDStats
 			row := tab.Row(s, a)
 			var nrow []float64
 			if !term {
-				nrow = tab.Row(next, argmaxFirst(q[(k*ns+next)*na:(k*ns+next+1)*na]))
+				nrow = tab.Row(next, vec.Argmax(q[(k*ns+next)*na:(k*ns+next+1)*na]))
 			}
 			step := t.alpha
 			if t.visits != nil {
@@ -547,7 +525,7 @@ func (t *Tabular) UpdateRelabel(b *Batch, extra int, rng *rand.Rand, st *TDStats
 				t.err = &sf.DivergenceError{Learner: "usf tabular", Step: t.steps, State: s, Action: a}
 				return fmt.Errorf("usf: tabular: relabel: z %d: %w", k, t.err)
 			}
-			q[(k*ns+s)*na+a] = dotSeq(row, t.Z[k])
+			q[(k*ns+s)*na+a] = vec.DotSeq(row, t.Z[k])
 			if st != nil {
 				st.SumSq += sq * (1 / (step * step)) / float64(d)
 				st.N++
