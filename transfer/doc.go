@@ -65,10 +65,10 @@
 // psi(s, a, w_k) . w_k. The policy of a skill (acting, Collect) reads the
 // same cache. GPI reads the skills' sf.Tables as gpi sources.
 //
-// We first tried the linear approximator psi(s, a, z) = M_{s,a} z
-// (+ b_{s,a}) over the joint feature x(s) outer z (usf.Linear); on the depot
-// it could not represent the policies of distant skills (it failed even
-// with the given place features), so the tabular form is used.
+// A universal form linear in z, psi(s, a, z) = M_{s,a} z (+ b_{s,a}), was
+// tried first; on the depot it could not represent the policies of distant
+// skills (it failed even with the given place features), so the tabular
+// form is used.
 //
 // # Task inference and acting
 //

@@ -15,14 +15,16 @@ var _ gpi.Source = (*Source)(nil)
 
 // TestSourceFastAndGeneric checks that the one-hot fast path (PsiState)
 // and the generic path (an Observer writing e_s, then Psi) give the same
-// bits, for the linear USF, and that GPI over sources picks the best z.
+// bits, for the tabular USF, and that GPI over sources picks the best z.
 func TestSourceFastAndGeneric(t *testing.T) {
 	rng := rand.New(rand.NewPCG(8, 8))
-	l, _ := NewLinear(5, 3, 2, 0.9, nil)
-	for i := range l.W {
-		l.W[i] = rng.NormFloat64()
+	z, z2 := []float64{0.6, -0.8}, []float64{1, 0}
+	l, _ := NewTabular(5, 3, [][]float64{z, z2}, 0.9, nil)
+	for _, tab := range l.Tables {
+		for i := range tab.Data {
+			tab.Data[i] = rng.NormFloat64()
+		}
 	}
-	z := []float64{0.6, -0.8}
 	fast, err := NewSource(l, z, nil)
 	if err != nil {
 		t.Fatal(err)
@@ -49,7 +51,6 @@ func TestSourceFastAndGeneric(t *testing.T) {
 	}
 	// GPI over two sources: the action and source must maximise psi . w
 	// over both (checked by brute force here).
-	z2 := []float64{1, 0}
 	src2, _ := NewSource(l, z2, nil)
 	w := []float64{0.3, 0.7}
 	act, which, val := gpi.Act(w, 3, fast, src2)
