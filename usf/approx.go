@@ -34,9 +34,12 @@ var (
 // Approximator is a universal successor feature approximator psi(s, a, z)
 // for observations x(s) in R^obs, A actions and features in R^d (z in R^d).
 type Approximator interface {
-	// Shape returns the observation dimension, the number of actions and
-	// the feature dimension d.
-	Shape() (obs, actions, dim int)
+	// ObsDim returns the observation dimension.
+	ObsDim() int
+	// Shape returns the number of actions and the feature dimension d:
+	// psi(x, ., z) is an actions x d matrix, as for gpi sources and
+	// sf.Table.
+	Shape() (actions, dim int)
 	// Psi writes psi(s, a, z) for every action into dst, action-major:
 	// dst[a*d + k]. x is the observation of s (len obs), z has len d. It
 	// panics if a length is wrong.

@@ -51,7 +51,8 @@ func finite(v ...float64) bool {
 // K tables (K x states x actions x d, in the order of sf.Table.Data), and,
 // when power > 0, the visit counts (K x states x actions).
 func (t *Tabular) MarshalBinary() ([]byte, error) {
-	s, a, d := t.Shape()
+	s := t.ObsDim()
+	a, d := t.Shape()
 	k := len(t.Z)
 	e := fileio.NewEncoder(tabularMagic, binVersion, 8*(8+k*d+k*s*a*d+len(t.visits)))
 	e.Int(s)

@@ -142,8 +142,12 @@ func (u *Neural) alloc() {
 	u.choice = make([]int, mb)
 }
 
-// Shape returns the observation dimension, actions and features.
-func (u *Neural) Shape() (obs, actions, dim int) { return u.obs, u.na, u.d }
+// ObsDim returns the observation dimension.
+func (u *Neural) ObsDim() int { return u.obs }
+
+// Shape returns the number of actions and the feature dimension, the shape
+// of psi(x, ., z).
+func (u *Neural) Shape() (actions, dim int) { return u.na, u.d }
 
 // MaxBatch returns the largest batch Update accepts.
 func (u *Neural) MaxBatch() int { return u.net.MaxBatch() }

@@ -77,8 +77,13 @@ func (r *Replay) Cap() int { return r.capacity }
 // Added returns the number of transitions ever added.
 func (r *Replay) Added() int { return r.added }
 
-// Shape returns the observation and feature dimensions.
-func (r *Replay) Shape() (obs, dim int) { return r.obs, r.d }
+// ObsDim returns the observation dimension (0 when the replay keeps
+// states instead of observation vectors).
+func (r *Replay) ObsDim() int { return r.obs }
+
+// Dim returns the feature dimension (0 when the replay keeps set indices
+// instead of phi and z).
+func (r *Replay) Dim() int { return r.d }
 
 // Add stores a copy of t, overwriting the oldest transition when full. It
 // panics if a slice has the wrong length (X and NextX must be nil when the

@@ -184,7 +184,7 @@ func TestReplayIndices(t *testing.T) {
 	if !bytes.Equal(mustMarshal(t, &loaded), saved) {
 		t.Error("index replay does not round-trip")
 	}
-	if o, d := loaded.Shape(); o != 0 || d != 0 || loaded.Len() != 50 || loaded.Added() != 70 {
+	if o, d := loaded.ObsDim(), loaded.Dim(); o != 0 || d != 0 || loaded.Len() != 50 || loaded.Added() != 70 {
 		t.Errorf("loaded shape %d %d, len %d, added %d", o, d, loaded.Len(), loaded.Added())
 	}
 	for i := 0; i < idx.Len(); i++ {

@@ -210,11 +210,15 @@ func resolveStep(st sf.StepSize) (alpha, power float64, err error) {
 	return alpha, st.Power, nil
 }
 
-// Shape returns the number of states (the one-hot observation dimension),
-// actions and features.
-func (t *Tabular) Shape() (obs, actions, dim int) {
+// ObsDim returns the number of states, the dimension of the one-hot
+// observations.
+func (t *Tabular) ObsDim() int { return t.Tables[0].S }
+
+// Shape returns the number of actions and the feature dimension, the shape
+// of psi(s, ., z) (as sf.Table.Shape).
+func (t *Tabular) Shape() (actions, dim int) {
 	tab := t.Tables[0]
-	return tab.S, tab.A, tab.D
+	return tab.A, tab.D
 }
 
 // Index returns the lowest k with Z[k] equal to z (every component ==),
@@ -263,7 +267,7 @@ func (t *Tabular) mustIndex(z []float64) int {
 // Psi writes psi(s, ., z) for the state s of the one-hot x. It panics if x
 // is not one-hot, z is not in the set or len(dst) != A*d.
 func (t *Tabular) Psi(dst, x, z []float64) {
-	s, _, _ := t.Shape()
+	s := t.ObsDim()
 	checkLen("tabular", "observation", x, s)
 	t.PsiState(dst, hotIndex("tabular", x), z)
 }
@@ -295,7 +299,8 @@ func (t *Tabular) Update(b *Batch) (float64, error) {
 	if t.err != nil {
 		return 0, t.err
 	}
-	ns, na, d := t.Shape()
+	ns := t.ObsDim()
+	na, d := t.Shape()
 	n := b.Len()
 	indexed := b.S != nil && b.Next != nil
 	byIndex := b.K != nil
@@ -385,7 +390,8 @@ func (t *Tabular) values() []float64 {
 	if t.q != nil {
 		return t.q
 	}
-	ns, na, _ := t.Shape()
+	ns := t.ObsDim()
+	na, _ := t.Shape()
 	q := make([]float64, len(t.Z)*ns*na)
 	for k, z := range t.Z {
 		tab := t.Tables[k]
@@ -407,7 +413,8 @@ func (t *Tabular) values() []float64 {
 // which Values and Greedy may be called concurrently (but not with an
 // update). It panics if k or s is out of range.
 func (t *Tabular) Values(k, s int) []float64 {
-	ns, na, _ := t.Shape()
+	ns := t.ObsDim()
+	na, _ := t.Shape()
 	if uint(k) >= uint(len(t.Z)) || uint(s) >= uint(ns) {
 		panic(fmt.Sprintf("usf: tabular: values of z %d in state %d out of range", k, s))
 	}
@@ -474,7 +481,8 @@ func (t *Tabular) UpdateRelabel(b *Batch, extra int, rng *rand.Rand, st *TDStats
 	if t.err != nil {
 		return t.err
 	}
-	ns, na, d := t.Shape()
+	ns := t.ObsDim()
+	na, d := t.Shape()
 	n := b.Len()
 	if b.S == nil || b.Next == nil || len(b.S) != n || len(b.Next) != n {
 		panic("usf: tabular: relabel: batch needs S and Next, one entry per transition")
