@@ -59,7 +59,7 @@ func TestSharedErrors(t *testing.T) {
 func diverge(t *testing.T) error {
 	t.Helper()
 	// State 0: action 0 goes to the terminal state 1, action 1 stays.
-	m, err := mdp.New(2, 2, []mdp.Transition{{State: 0, Action: 0, Next: 1, Prob: 1}, {State: 0, Action: 1, Next: 0, Prob: 1}},
+	m, err := mdp.New(2, 2, []mdp.ProbEntry{{State: 0, Action: 0, Next: 1, Prob: 1}, {State: 0, Action: 1, Next: 0, Prob: 1}},
 		[]bool{false, true}, []float64{1, 0})
 	if err != nil {
 		t.Fatal(err)

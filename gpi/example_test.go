@@ -36,7 +36,7 @@ func ExampleEvaluate() {
 	// A corridor of three cells, 0 - 1 - 2, with cell 2 terminal; action 0
 	// steps right, action 1 steps left (or stays at cell 0). The feature
 	// is 1 on entering cell 2.
-	m, err := mdp.New(3, 2, []mdp.Transition{
+	m, err := mdp.New(3, 2, []mdp.ProbEntry{
 		{State: 0, Action: 0, Next: 1, Prob: 1},
 		{State: 0, Action: 1, Next: 0, Prob: 1},
 		{State: 1, Action: 0, Next: 2, Prob: 1},

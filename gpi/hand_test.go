@@ -21,7 +21,7 @@ import (
 // = 1 on every transition.
 func handMDP(t *testing.T) (*mdp.Finite, sf.FeatureMap) {
 	t.Helper()
-	m, err := mdp.New(3, 2, []mdp.Transition{
+	m, err := mdp.New(3, 2, []mdp.ProbEntry{
 		{State: 0, Action: 0, Next: 1, Prob: 1},
 		{State: 0, Action: 1, Next: 2, Prob: 1},
 		{State: 1, Action: 0, Next: 2, Prob: 1},

@@ -24,9 +24,9 @@ const testdataDir = "../testdata"
 // Markov chain (one action; each neighbour with probability 1/2).
 func walkChain(t testing.TB) *File {
 	t.Helper()
-	var tr []Transition
+	var tr []ProbEntry
 	for s := 1; s <= 5; s++ {
-		tr = append(tr, Transition{s, 0, s - 1, 0.5}, Transition{s, 0, s + 1, 0.5})
+		tr = append(tr, ProbEntry{s, 0, s - 1, 0.5}, ProbEntry{s, 0, s + 1, 0.5})
 	}
 	m, err := New(7, 1, tr, []bool{true, false, false, false, false, false, true}, []float64{0, 0, 0, 1, 0, 0, 0})
 	if err != nil {

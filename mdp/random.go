@@ -59,7 +59,7 @@ func RandomFinite(rng *rand.Rand, cfg RandomConfig) (*Finite, error) {
 	for _, s := range perm[:nt] {
 		term[s] = true
 	}
-	tr := make([]Transition, 0, (n-nt)*na*b)
+	tr := make([]ProbEntry, 0, (n-nt)*na*b)
 	idx := make([]int, n)
 	w := make([]float64, b)
 	for s := 0; s < n; s++ {
@@ -104,7 +104,7 @@ func RandomFinite(rng *rand.Rand, cfg RandomConfig) (*Finite, error) {
 				sum += w[k]
 			}
 			for k := 0; k < b; k++ {
-				tr = append(tr, Transition{State: s, Action: a, Next: idx[k], Prob: w[k] / sum})
+				tr = append(tr, ProbEntry{State: s, Action: a, Next: idx[k], Prob: w[k] / sum})
 			}
 		}
 	}

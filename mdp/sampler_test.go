@@ -102,7 +102,7 @@ func TestSamplerEpisodes(t *testing.T) {
 		t.Errorf("time limit 1: terminal %v truncated %v", term, trunc)
 	}
 	// Reaching a terminal state on the last allowed step is termination.
-	short, err := New(2, 1, []Transition{{0, 0, 1, 1}}, []bool{false, true}, []float64{1, 0})
+	short, err := New(2, 1, []ProbEntry{{0, 0, 1, 1}}, []bool{false, true}, []float64{1, 0})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -229,11 +229,11 @@ func mustTable(t *testing.T, n, na int, p []float64) *Table {
 }
 
 func TestNewErrors(t *testing.T) {
-	ok := []Transition{{0, 0, 1, 1}}
+	ok := []ProbEntry{{0, 0, 1, 1}}
 	for _, tc := range []struct {
 		name  string
 		n, na int
-		tr    []Transition
+		tr    []ProbEntry
 		term  []bool
 		start []float64
 		want  error
@@ -247,15 +247,15 @@ func TestNewErrors(t *testing.T) {
 		{"start negative", 2, 1, ok, []bool{false, true}, []float64{1.5, -0.5}, linalg.ErrNotStochastic},
 		{"start empty", 2, 1, ok, []bool{false, true}, []float64{0, 0}, ErrConfig},
 		{"start sum", 2, 1, ok, []bool{false, true}, []float64{0.5, 0}, linalg.ErrNotStochastic},
-		{"state range", 2, 1, []Transition{{0, 0, 2, 1}}, []bool{false, true}, []float64{1, 0}, ErrConfig},
-		{"negative state", 2, 1, []Transition{{-1, 0, 1, 1}}, []bool{false, true}, []float64{1, 0}, ErrConfig},
-		{"action range", 2, 1, []Transition{{0, 1, 1, 1}}, []bool{false, true}, []float64{1, 0}, ErrConfig},
-		{"prob NaN", 2, 1, []Transition{{0, 0, 1, math.NaN()}}, []bool{false, true}, []float64{1, 0}, linalg.ErrNonFinite},
-		{"prob negative", 2, 1, []Transition{{0, 0, 1, 1.5}, {0, 0, 0, -0.5}}, []bool{false, true}, []float64{1, 0}, linalg.ErrNotStochastic},
-		{"row sum", 2, 1, []Transition{{0, 0, 1, 0.5}}, []bool{false, true}, []float64{1, 0}, linalg.ErrNotStochastic},
+		{"state range", 2, 1, []ProbEntry{{0, 0, 2, 1}}, []bool{false, true}, []float64{1, 0}, ErrConfig},
+		{"negative state", 2, 1, []ProbEntry{{-1, 0, 1, 1}}, []bool{false, true}, []float64{1, 0}, ErrConfig},
+		{"action range", 2, 1, []ProbEntry{{0, 1, 1, 1}}, []bool{false, true}, []float64{1, 0}, ErrConfig},
+		{"prob NaN", 2, 1, []ProbEntry{{0, 0, 1, math.NaN()}}, []bool{false, true}, []float64{1, 0}, linalg.ErrNonFinite},
+		{"prob negative", 2, 1, []ProbEntry{{0, 0, 1, 1.5}, {0, 0, 0, -0.5}}, []bool{false, true}, []float64{1, 0}, linalg.ErrNotStochastic},
+		{"row sum", 2, 1, []ProbEntry{{0, 0, 1, 0.5}}, []bool{false, true}, []float64{1, 0}, linalg.ErrNotStochastic},
 		{"missing row", 2, 2, ok, []bool{false, true}, []float64{1, 0}, linalg.ErrNotStochastic},
-		{"terminal mass", 2, 1, []Transition{{0, 0, 1, 1}, {1, 0, 0, 1}}, []bool{false, true}, []float64{1, 0}, ErrConfig},
-		{"terminal half loop", 2, 1, []Transition{{0, 0, 1, 1}, {1, 0, 1, 0.5}}, []bool{false, true}, []float64{1, 0}, ErrConfig},
+		{"terminal mass", 2, 1, []ProbEntry{{0, 0, 1, 1}, {1, 0, 0, 1}}, []bool{false, true}, []float64{1, 0}, ErrConfig},
+		{"terminal half loop", 2, 1, []ProbEntry{{0, 0, 1, 1}, {1, 0, 1, 0.5}}, []bool{false, true}, []float64{1, 0}, ErrConfig},
 	} {
 		t.Run(tc.name, func(t *testing.T) {
 			_, err := New(tc.n, tc.na, tc.tr, tc.term, tc.start)
@@ -266,7 +266,7 @@ func TestNewErrors(t *testing.T) {
 	}
 	// Accepted: terminal self-loops given explicitly, zero-probability
 	// entries, duplicates summed.
-	m, err := New(2, 1, []Transition{{0, 0, 1, 0.25}, {0, 0, 1, 0.75}, {0, 0, 0, 0}, {1, 0, 1, 1}, {1, 0, 0, 0}}, []bool{false, true}, []float64{1, 0})
+	m, err := New(2, 1, []ProbEntry{{0, 0, 1, 0.25}, {0, 0, 1, 0.75}, {0, 0, 0, 0}, {1, 0, 1, 1}, {1, 0, 0, 0}}, []bool{false, true}, []float64{1, 0})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -274,7 +274,7 @@ func TestNewErrors(t *testing.T) {
 		t.Errorf("Next(0,0) = %v %v", next, p)
 	}
 	var rs *linalg.RowSumError
-	if _, err := New(1, 1, []Transition{{0, 0, 0, 0.5}}, nil, []float64{1}); !errors.As(err, &rs) || rs.Sum != 0.5 {
+	if _, err := New(1, 1, []ProbEntry{{0, 0, 0, 0.5}}, nil, []float64{1}); !errors.As(err, &rs) || rs.Sum != 0.5 {
 		t.Errorf("row sum error %v", err)
 	}
 }

@@ -275,11 +275,11 @@ func (badPolicy) Probs(dst []float64, s int) {
 // ends).
 func TestExactLongWalk(t *testing.T) {
 	const n = 2100 // 2 actions: 4200 pairs
-	var tr []mdp.Transition
+	var tr []mdp.ProbEntry
 	for s := 1; s <= n; s++ {
 		tr = append(tr,
-			mdp.Transition{State: s, Action: 0, Next: s - 1, Prob: 1},
-			mdp.Transition{State: s, Action: 1, Next: s + 1, Prob: 1})
+			mdp.ProbEntry{State: s, Action: 0, Next: s - 1, Prob: 1},
+			mdp.ProbEntry{State: s, Action: 1, Next: s + 1, Prob: 1})
 	}
 	term := make([]bool, n+2)
 	term[0], term[n+1] = true, true

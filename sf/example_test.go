@@ -16,11 +16,11 @@ import (
 // states 0..6, the two ends terminal, start in the middle; action 0 moves
 // left and action 1 right.
 func walk() *mdp.Finite {
-	var tr []mdp.Transition
+	var tr []mdp.ProbEntry
 	for s := 1; s <= 5; s++ {
 		tr = append(tr,
-			mdp.Transition{State: s, Action: 0, Next: s - 1, Prob: 1},
-			mdp.Transition{State: s, Action: 1, Next: s + 1, Prob: 1})
+			mdp.ProbEntry{State: s, Action: 0, Next: s - 1, Prob: 1},
+			mdp.ProbEntry{State: s, Action: 1, Next: s + 1, Prob: 1})
 	}
 	m, err := mdp.New(7, 2, tr,
 		[]bool{true, false, false, false, false, false, true},

@@ -14,8 +14,8 @@ import (
 	"gonum.org/v1/gonum/mat"
 )
 
-// Transition is one reward-labelled transition.
-type Transition struct {
+// Labelled is one reward-labelled transition.
+type Labelled struct {
 	S, A, Next int
 	Reward     float64
 	Terminal   bool
@@ -43,7 +43,7 @@ type Transition struct {
 // task is revealed. The rules never look ahead at k, so the first j
 // transitions of a collection of k are a collection of j. seed determines
 // the draws.
-func Collect(env mdp.Env, ag *Agent, reward mdp.Reward, k int, cfg AdaptConfig, seed uint64) ([]Transition, error) {
+func Collect(env mdp.Env, ag *Agent, reward mdp.Reward, k int, cfg AdaptConfig, seed uint64) ([]Labelled, error) {
 	c, err := cfg.Resolve()
 	if err != nil {
 		return nil, err
@@ -56,7 +56,7 @@ func Collect(env mdp.Env, ag *Agent, reward mdp.Reward, k int, cfg AdaptConfig, 
 	}
 	rng := rand.New(rand.NewPCG(seed, streamCollect))
 	na := env.NumActions()
-	out := make([]Transition, 0, k)
+	out := make([]Labelled, 0, k)
 	var order []int
 	nextSkill := func() int {
 		if len(order) == 0 {
@@ -105,7 +105,7 @@ func Collect(env mdp.Env, ag *Agent, reward mdp.Reward, k int, cfg AdaptConfig, 
 				a = ag.actSkill(skill, s, rng)
 			}
 			next, term, trunc := env.Step(a, rng)
-			out = append(out, Transition{S: s, A: a, Next: next, Reward: reward(s, a, next), Terminal: term})
+			out = append(out, Labelled{S: s, A: a, Next: next, Reward: reward(s, a, next), Terminal: term})
 			if term || trunc {
 				break
 			}
@@ -145,7 +145,7 @@ type Inference struct {
 // no transitions, ErrConfig for a bad penalty, and ErrDiverged if the
 // regression fails (for example rank-deficient features with lambda = 0, or
 // a zero w to normalise).
-func InferTask(ag *Agent, labelled []Transition, lambda float64) (*Inference, error) {
+func InferTask(ag *Agent, labelled []Labelled, lambda float64) (*Inference, error) {
 	if lambda < 0 || math.IsNaN(lambda) || math.IsInf(lambda, 0) {
 		return nil, fmt.Errorf("transfer: infer task: penalty %v: %w", lambda, ErrConfig)
 	}
@@ -201,7 +201,7 @@ func InferTask(ag *Agent, labelled []Transition, lambda float64) (*Inference, er
 // state). The smallest CV wins; ties go to the later grid entry. The chosen
 // penalty is in Inference.Lambda and the mean CV per state in
 // Inference.CV; w is then fitted by InferTask on the transitions.
-func InferTaskCV(ag *Agent, labelled []Transition, grid []float64) (*Inference, error) {
+func InferTaskCV(ag *Agent, labelled []Labelled, grid []float64) (*Inference, error) {
 	if len(labelled) == 0 {
 		return nil, fmt.Errorf("transfer: infer task: %w", ErrNoData)
 	}
@@ -244,7 +244,7 @@ func InferTaskCV(ag *Agent, labelled []Transition, grid []float64) (*Inference, 
 // cfg.RidgeGrid for RidgeCV (the default), InferTask with cfg.Lambda for
 // RidgeFixed. It returns the errors of those, or one wrapping ErrConfig for
 // an invalid cfg.
-func Infer(ag *Agent, labelled []Transition, cfg AdaptConfig) (*Inference, error) {
+func Infer(ag *Agent, labelled []Labelled, cfg AdaptConfig) (*Inference, error) {
 	c, err := cfg.Resolve()
 	if err != nil {
 		return nil, err
@@ -300,7 +300,7 @@ func (p *Policy) Act(s int) int { return p.Actions[s] }
 // label, but it is model-based evaluation of the inferred task, not
 // successor-feature transfer; state-action pairs never tried have no
 // fitted value and are left to the skills.
-func Adapt(ag *Agent, labelled []Transition, cfg AdaptConfig) (*Policy, error) {
+func Adapt(ag *Agent, labelled []Labelled, cfg AdaptConfig) (*Policy, error) {
 	c, err := cfg.Resolve()
 	if err != nil {
 		return nil, err

@@ -76,7 +76,7 @@ type Agent struct {
 	skillK []int      // their skill indices
 	x, z   []float64  // discriminator minibatch
 	obs    []float64  // one-hot observation
-	tr     usf.Transition
+	tr     usf.Entry
 
 	// phi of every state, tabulated when training stops, for the read
 	// methods.
@@ -287,7 +287,7 @@ func (ag *Agent) init(n, na, capacity int, tab *usf.Tabular, buf *usf.Replay) er
 	ag.x = make([]float64, b*n)
 	ag.z = make([]float64, b*len(ag.zs[0]))
 	ag.obs = make([]float64, n)
-	ag.tr = usf.Transition{Phi: make([]float64, d), Z: make([]float64, d), NextA: -1}
+	ag.tr = usf.Entry{Phi: make([]float64, d), Z: make([]float64, d), NextA: -1}
 	ag.tabulatePhi()
 	return nil
 }

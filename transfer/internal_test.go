@@ -43,12 +43,12 @@ func TestInferTaskExact(t *testing.T) {
 	}
 	want := []float64{0.7, -0.4, 0.1} // apple, berry, constant
 	rng := rand.New(rand.NewPCG(1, 2))
-	var lab []Transition
+	var lab []Labelled
 	phi := make([]float64, 3)
 	for range 300 {
 		s := rng.IntN(g.NumStates())
 		ag.Phi(phi, s)
-		lab = append(lab, Transition{S: s, Next: s, Reward: vec.DotSeq(phi, want)})
+		lab = append(lab, Labelled{S: s, Next: s, Reward: vec.DotSeq(phi, want)})
 	}
 	inf, err := InferTask(ag, lab, 1e-12)
 	if err != nil {
@@ -172,10 +172,10 @@ func TestInferTaskCV(t *testing.T) {
 		t.Fatal(err)
 	}
 	rng := rand.New(rand.NewPCG(5, 6))
-	var lab []Transition
+	var lab []Labelled
 	for range 120 {
 		s := rng.IntN(g.NumStates())
-		lab = append(lab, Transition{S: s, Next: s, Reward: rng.NormFloat64() + float64(s%3)})
+		lab = append(lab, Labelled{S: s, Next: s, Reward: rng.NormFloat64() + float64(s%3)})
 	}
 	const lam = 0.7
 	inf, err := InferTaskCV(ag, lab, []float64{lam})
@@ -190,7 +190,7 @@ func TestInferTaskCV(t *testing.T) {
 	var sum float64
 	phi := make([]float64, ag.d)
 	for s := range states {
-		var rest []Transition
+		var rest []Labelled
 		var ys []float64
 		for _, l := range lab {
 			if l.Next == s {

@@ -46,7 +46,7 @@ func newRun(t testing.TB) *run {
 func (x *run) steps(t testing.TB, k int) {
 	for range k {
 		x.sp.fill(x.tr, x.rng)
-		x.r.Add(&Transition{S: x.tr.S[0], A: x.tr.A[0], Next: x.tr.Next[0], NextA: -1, Terminal: x.tr.Terminal[0],
+		x.r.Add(&Entry{S: x.tr.S[0], A: x.tr.A[0], Next: x.tr.Next[0], NextA: -1, Terminal: x.tr.Terminal[0],
 			X: x.tr.X, NextX: x.tr.NextX, Phi: x.tr.Phi, Z: x.tr.Z})
 		x.r.Sample(x.b, x.rng)
 		if _, err := x.u.Update(x.b); err != nil {
@@ -350,7 +350,7 @@ func indexReplay(t testing.TB) *Replay {
 		t.Fatal(err)
 	}
 	for i := 0; i < 7; i++ {
-		r.Add(&Transition{S: i, A: i % 2, Next: i + 1, NextA: -1, Terminal: i == 3, K: i % 3,
+		r.Add(&Entry{S: i, A: i % 2, Next: i + 1, NextA: -1, Terminal: i == 3, K: i % 3,
 			X: []float64{float64(i), 1}, NextX: []float64{float64(i + 1), 1}})
 	}
 	return r

@@ -90,7 +90,7 @@
 // keeps phi and z of every transition (33 + 16 obs + 16 d bytes each), or,
 // with dimension 0, only the index of z in a set the caller holds (41 +
 // 16 obs bytes), the caller recomputing phi and z after sampling; a
-// Tabular then reads the indices from Batch.K. Transition reads the stored
+// Tabular then reads the indices from Batch.K. Entry reads the stored
 // transitions oldest first, and Validate checks them against the sizes of
 // a problem (for instance after loading a checkpoint).
 //

@@ -21,7 +21,7 @@ import (
 //
 // A Tabular over the set {(1, 0), (0, 1)} learns them, for both z at once.
 func ExampleTabular() {
-	m, err := mdp.New(2, 2, []mdp.Transition{
+	m, err := mdp.New(2, 2, []mdp.ProbEntry{
 		{State: 0, Action: 0, Next: 1, Prob: 1},
 		{State: 0, Action: 1, Next: 0, Prob: 1},
 		{State: 1, Action: 0, Next: 0, Prob: 1},
@@ -98,7 +98,7 @@ func ExampleCandidates() {
 // Tabular reads the indices from Batch.K. The world and the features are
 // those of ExampleTabular (derived by hand there): the SFs of z = (1, 0)
 // in state 0 are (1, 1) for move and (2, 0) for stay.
-func ExampleReplay_Transition() {
+func ExampleReplay_Entry() {
 	zs := [][]float64{{1, 0}, {0, 1}}
 	tab, err := usf.NewTabular(2, 2, zs, 0.5, &usf.TabularConfig{Step: sf.StepSize{Alpha: 1}})
 	if err != nil {
@@ -117,13 +117,13 @@ func ExampleReplay_Transition() {
 				if a == 0 {
 					next = 1 - s // move
 				}
-				rep.Add(&usf.Transition{S: s, A: a, Next: next, NextA: -1, K: k})
+				rep.Add(&usf.Entry{S: s, A: a, Next: next, NextA: -1, K: k})
 			}
 		}
 	}
 	fmt.Println("stored:", rep.Len(), "valid:", rep.Validate(2, 2, len(zs)))
-	var tr usf.Transition
-	rep.Transition(&tr, rep.Len()-1)
+	var tr usf.Entry
+	rep.Entry(&tr, rep.Len()-1)
 	fmt.Printf("newest: s=%d a=%d s'=%d k=%d\n", tr.S, tr.A, tr.Next, tr.K)
 
 	b := usf.NewBatch(16, 0, 2)

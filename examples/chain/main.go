@@ -98,11 +98,11 @@ func parse(args []string, stderr io.Writer) (*config, error) {
 
 // walk returns the random walk: states 0..6, 0 and 6 terminal, start 3.
 func walk() (*mdp.Finite, error) {
-	var tr []mdp.Transition
+	var tr []mdp.ProbEntry
 	for s := 1; s <= 5; s++ {
 		tr = append(tr,
-			mdp.Transition{State: s, Action: 0, Next: s - 1, Prob: 1},
-			mdp.Transition{State: s, Action: 1, Next: s + 1, Prob: 1})
+			mdp.ProbEntry{State: s, Action: 0, Next: s - 1, Prob: 1},
+			mdp.ProbEntry{State: s, Action: 1, Next: s + 1, Prob: 1})
 	}
 	return mdp.New(7, 2, tr,
 		[]bool{true, false, false, false, false, false, true},
