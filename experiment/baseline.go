@@ -204,8 +204,8 @@ func runEpisodes(env transfer.Env, budgets []int, c BaselineConfig, rng *rand.Ra
 			} else {
 				a = greedy(s)
 			}
-			next, term, trunc := env.Step(a, rng)
-			if err := learn(s, a, next, term); err != nil {
+			out := env.Step(a, rng)
+			if err := learn(s, a, out.Next, out.Terminal()); err != nil {
 				return err
 			}
 			steps++
@@ -213,10 +213,10 @@ func runEpisodes(env transfer.Env, budgets []int, c BaselineConfig, rng *rand.Ra
 				snap()
 				bi++
 			}
-			if term || trunc {
+			if out.Done() {
 				break
 			}
-			s = next
+			s = out.Next
 		}
 	}
 	return nil

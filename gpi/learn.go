@@ -278,15 +278,15 @@ func learn(rng *rand.Rand, m *mdp.Finite, phi sf.FeatureMap, tasks [][]float64, 
 			if c.eps > 0 && rng.Float64() < c.eps {
 				a = rng.IntN(na)
 			}
-			next, term, trunc := env.Step(a, rng)
-			if err := ag.update(s, a, next, term); err != nil {
+			out := env.Step(a, rng)
+			if err := ag.update(s, a, out.Next, out.Terminal()); err != nil {
 				return nil, fmt.Errorf("task %d step %d: %w", i, step, err)
 			}
 			total++
-			if term || trunc {
+			if out.Done() {
 				s = env.Reset(rng)
 			} else {
-				s = next
+				s = out.Next
 			}
 			if step%c.evalEvery == 0 || step == c.steps {
 				if err := evaluate(step); err != nil {

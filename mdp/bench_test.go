@@ -120,7 +120,7 @@ func BenchmarkSamplerStep(b *testing.B) {
 			b.ReportAllocs()
 			for b.Loop() {
 				a = (a + 1) % 5
-				if _, term, trunc := e.Step(a, rng); term || trunc {
+				if e.Step(a, rng).Done() {
 					e.Reset(rng)
 				}
 			}

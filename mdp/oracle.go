@@ -4,7 +4,6 @@ import (
 	"errors"
 	"fmt"
 	"math"
-	"math/rand/v2"
 
 	"gonum.org/v1/gonum/mat"
 
@@ -579,16 +578,4 @@ func maxAbs(x []float64) float64 {
 		m = math.Max(m, math.Abs(v))
 	}
 	return m
-}
-
-// Env is the step loop of an environment with integer states.
-// Termination and truncation are distinct: a terminal next state stops
-// bootstrapping; a truncated one (a time limit) does not.
-type Env interface {
-	NumActions() int
-	// Reset starts an episode and returns the first state.
-	Reset(rng *rand.Rand) int
-	// Step takes action a and returns the next state, whether it is
-	// terminal, and whether the episode was truncated by a time limit.
-	Step(a int, rng *rand.Rand) (next int, terminal, truncated bool)
 }

@@ -24,11 +24,11 @@ func TestSamplerFrequencies(t *testing.T) {
 			counts := make([]int, m.NumStates())
 			for range draws {
 				e.state, e.started, e.done = s, true, false
-				next, term, trunc := e.Step(a, rng)
-				if term || trunc {
+				out := e.Step(a, rng)
+				if out.Done() {
 					t.Fatal("unexpected end")
 				}
-				counts[next]++
+				counts[out.Next]++
 			}
 			next, p := m.Next(s, a)
 			seen := 0
@@ -66,15 +66,18 @@ func TestSamplerEpisodes(t *testing.T) {
 		}
 		for {
 			pi.Probs(probs, s)
-			next, term, trunc := e.Step(SampleIndex(rng, probs), rng)
-			if trunc {
+			out := e.Step(SampleIndex(rng, probs), rng)
+			if out.End == TimeLimit {
 				t.Fatal("truncated without a time limit")
 			}
-			if next != e.State() {
+			if out.Next != e.State() {
 				t.Fatal("State disagrees with Step")
 			}
-			s = next
-			if term {
+			if out.Done() != e.Done() || out.Terminal() != (out.End == Terminal) || out.Bootstraps() == out.Terminal() {
+				t.Fatalf("outcome %+v: Done %v, Terminal %v, Bootstraps %v; sampler Done %v", out, out.Done(), out.Terminal(), out.Bootstraps(), e.Done())
+			}
+			s = out.Next
+			if out.End == Terminal {
 				if s != 0 && s != 6 {
 					t.Fatalf("terminal at %d", s)
 				}
@@ -97,9 +100,9 @@ func TestSamplerEpisodes(t *testing.T) {
 
 	lim := NewSampler(m, 1)
 	lim.Reset(rng)
-	_, term, trunc := lim.Step(1, rng) // C -> D, not terminal
-	if term || !trunc || !lim.Done() {
-		t.Errorf("time limit 1: terminal %v truncated %v", term, trunc)
+	out := lim.Step(1, rng) // C -> D, not terminal
+	if out.End != TimeLimit || !out.Done() || !out.Bootstraps() || !lim.Done() {
+		t.Errorf("time limit 1: end %v, done %v, bootstraps %v", out.End, out.Done(), out.Bootstraps())
 	}
 	// Reaching a terminal state on the last allowed step is termination.
 	short, err := New(2, 1, []ProbEntry{{0, 0, 1, 1}}, []bool{false, true}, []float64{1, 0})
@@ -108,8 +111,8 @@ func TestSamplerEpisodes(t *testing.T) {
 	}
 	lim = NewSampler(short, 1)
 	lim.Reset(rng)
-	if _, term, trunc := lim.Step(0, rng); !term || trunc {
-		t.Errorf("terminal on the last step: terminal %v truncated %v", term, trunc)
+	if out := lim.Step(0, rng); out.End != Terminal || out.Bootstraps() {
+		t.Errorf("terminal on the last step: end %v, bootstraps %v", out.End, out.Bootstraps())
 	}
 	if !panics(func() { NewSampler(short, 0).Step(0, rng) }) {
 		t.Error("Step before Reset does not panic")
@@ -128,8 +131,7 @@ func TestSamplerAllocs(t *testing.T) {
 	rng := rand.New(rand.NewPCG(1, 1))
 	e.Reset(rng)
 	allocs := testing.AllocsPerRun(1000, func() {
-		_, term, trunc := e.Step(rng.IntN(5), rng)
-		if term || trunc {
+		if e.Step(rng.IntN(5), rng).Done() {
 			e.Reset(rng)
 		}
 	})
@@ -347,8 +349,38 @@ func TestSamplerNumStates(t *testing.T) {
 				if s < 0 || s >= e.NumStates() {
 					t.Fatalf("state %d outside [0, %d)", s, e.NumStates())
 				}
-				s, _, _ = e.Step(rng.IntN(tc.actions), rng)
+				s = e.Step(rng.IntN(tc.actions), rng).Next
 			}
+		}
+	}
+}
+
+// TestEnd checks the two questions an End answers, for each kind (the
+// convention of the package doc: a terminal state stops bootstrapping, a
+// time limit does not), and its names.
+func TestEnd(t *testing.T) {
+	for _, tc := range []struct {
+		end              End
+		done, bootstraps bool
+		name             string
+	}{
+		{Continuing, false, true, "continuing"},
+		{Terminal, true, false, "terminal"},
+		{TimeLimit, true, true, "time limit"},
+		{End(7), true, true, "end(7)"},
+	} {
+		o := Outcome{Next: 3, End: tc.end}
+		if tc.end.Done() != tc.done || o.Done() != tc.done {
+			t.Errorf("%v: Done %v, want %v", tc.end, tc.end.Done(), tc.done)
+		}
+		if tc.end.Bootstraps() != tc.bootstraps || o.Bootstraps() != tc.bootstraps {
+			t.Errorf("%v: Bootstraps %v, want %v", tc.end, tc.end.Bootstraps(), tc.bootstraps)
+		}
+		if o.Terminal() != (tc.end == Terminal) {
+			t.Errorf("%v: Terminal %v", tc.end, o.Terminal())
+		}
+		if got := tc.end.String(); got != tc.name {
+			t.Errorf("String %q, want %q", got, tc.name)
 		}
 	}
 }

@@ -259,14 +259,14 @@ func BenchmarkDepotRun(b *testing.B) {
 				rng := rand.New(rand.NewPCG(1, 2))
 				s, a := env.Reset(rng), rng.IntN(na)
 				for k := 0; k < steps; k++ {
-					next, terminal, truncated := env.Step(a, rng)
+					out := env.Step(a, rng)
 					a2 := rng.IntN(na)
-					l.Update(s, a, next, terminal, a2)
-					if terminal || truncated {
+					l.Update(s, a, out.Next, out.Terminal(), a2)
+					if out.Done() {
 						s, a = env.Reset(rng), rng.IntN(na)
 						continue
 					}
-					s, a = next, a2
+					s, a = out.Next, a2
 				}
 				if l.Err() != nil {
 					b.Fatal(l.Err())

@@ -35,9 +35,10 @@
 //
 // # Termination and truncation
 //
-// A terminal next state bootstraps nothing: pass terminal = true. An
-// episode cut by a time limit is not terminal: pass terminal = false, and
-// the update bootstraps from the next state as usual.
+// A terminal next state bootstraps nothing: pass terminal = true (for a
+// step of an mdp.Env, the Outcome's Terminal()). An episode cut by a time
+// limit (End mdp.TimeLimit) is not terminal: pass terminal = false, and the
+// update bootstraps from the next state as usual.
 //
 // # Learners
 //

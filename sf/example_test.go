@@ -97,11 +97,11 @@ func ExampleTD() {
 		s := env.Reset(rng)
 		for !env.Done() {
 			a := rng.IntN(2)
-			next, terminal, _ := env.Step(a, rng)
-			if err := td.Update(s, a, next, terminal, 0); err != nil {
+			out := env.Step(a, rng)
+			if err := td.Update(s, a, out.Next, out.Terminal(), 0); err != nil {
 				log.Fatal(err)
 			}
-			s = next
+			s = out.Next
 		}
 	}
 	var worst float64

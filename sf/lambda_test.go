@@ -81,16 +81,16 @@ func TestTDLambdaRandomWalk(t *testing.T) {
 		env := mdp.NewSampler(m, 0)
 		s, a := env.Reset(rng), rng.IntN(2)
 		for k := 0; k < budget; k++ {
-			next, term, _ := env.Step(a, rng)
+			out := env.Step(a, rng)
 			a2 := rng.IntN(2)
-			if err := l.Update(s, a, next, term, a2); err != nil {
+			if err := l.Update(s, a, out.Next, out.Terminal(), a2); err != nil {
 				t.Fatal(err)
 			}
-			if term {
+			if out.Done() {
 				s, a = env.Reset(rng), rng.IntN(2)
 				continue
 			}
-			s, a = next, a2
+			s, a = out.Next, a2
 		}
 		d, sc := tableError(m, tb, ex)
 		t.Logf("%v: max error %.4f of largest entry %.3f", tr, d, sc)

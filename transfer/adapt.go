@@ -104,12 +104,12 @@ func Collect(env mdp.Env, ag *Agent, reward mdp.Reward, k int, cfg AdaptConfig, 
 			default:
 				a = ag.actSkill(skill, s, rng)
 			}
-			next, term, trunc := env.Step(a, rng)
-			out = append(out, Labelled{S: s, A: a, Next: next, Reward: reward(s, a, next), Terminal: term})
-			if term || trunc {
+			step := env.Step(a, rng)
+			out = append(out, Labelled{S: s, A: a, Next: step.Next, Reward: reward(s, a, step.Next), Terminal: step.Terminal()})
+			if step.Done() {
 				break
 			}
-			s = next
+			s = step.Next
 		}
 	}
 	return out, nil

@@ -99,13 +99,13 @@ func MonteCarlo(env mdp.Env, act func(s int) int, r mdp.Reward, gamma float64, e
 		var g, disc float64 = 0, 1
 		for t := 0; t < maxSteps && !startDone(env); t++ {
 			a := act(s)
-			next, term, trunc := env.Step(a, rng)
-			g += disc * r(s, a, next)
+			out := env.Step(a, rng)
+			g += disc * r(s, a, out.Next)
 			disc *= gamma
-			if term || trunc {
+			if out.Done() {
 				break
 			}
-			s = next
+			s = out.Next
 		}
 		if math.IsNaN(g) || math.IsInf(g, 0) {
 			return 0, 0, fmt.Errorf("transfer: monte carlo: non-finite return: %w", ErrDiverged)

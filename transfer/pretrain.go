@@ -146,7 +146,8 @@ func (ag *Agent) train(ctx context.Context, env Env) error {
 			} else {
 				a = ag.actSkill(k, s, ag.rng)
 			}
-			next, term, trunc := env.Step(a, ag.rng)
+			out := env.Step(a, ag.rng)
+			next, term := out.Next, out.Terminal()
 			tr.S, tr.A, tr.Next, tr.Terminal = s, a, next, term
 			ag.features(tr.Phi, next)
 			ag.buf.Add(tr)
@@ -156,7 +157,7 @@ func (ag *Agent) train(ctx context.Context, env Env) error {
 			if err := ag.update(); err != nil {
 				return err
 			}
-			if term || trunc {
+			if out.Done() {
 				break
 			}
 			s = next

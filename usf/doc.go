@@ -23,8 +23,8 @@
 // the successor features of an optimal policy of r_z (SF Q-learning,
 // Barreto et al. 2017, sections 4-5), which is what every test here checks
 // against sf.Exact and mdp.Optimal. A terminal next state bootstraps
-// nothing; a time-limit truncation does: a Batch carries Terminal only, so
-// pass terminal = false for a truncated step.
+// nothing; a time limit does: a Batch carries Terminal only, so pass
+// terminal = false for a step that ended at mdp.TimeLimit.
 //
 // # Observations
 //

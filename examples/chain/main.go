@@ -147,17 +147,17 @@ func run(args []string, stdout, stderr io.Writer) error {
 	done, episodes := 0, 0
 	for _, budget := range c.budgets {
 		for ; done < budget; done++ {
-			next, terminal, _ := env.Step(a, rng)
+			out := env.Step(a, rng)
 			a2 := rng.IntN(2)
-			if err := td.Update(s, a, next, terminal, a2); err != nil {
+			if err := td.Update(s, a, out.Next, out.Terminal(), a2); err != nil {
 				return err
 			}
-			if terminal {
+			if out.Done() {
 				episodes++
 				s, a = env.Reset(rng), rng.IntN(2)
 				continue
 			}
-			s, a = next, a2
+			s, a = out.Next, a2
 		}
 		var worst float64
 		for st := 1; st <= 5; st++ {
