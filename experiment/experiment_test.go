@@ -202,20 +202,20 @@ func TestQLearningLearns(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	sc, err := transfer.Evaluate(g.MDP, pols[0], r, 0.9)
+	ev, err := transfer.Evaluate(g.MDP, pols[0], r, 0.9)
 	if err != nil {
 		t.Fatal(err)
 	}
-	if sc.Normalised < 0.99 {
-		t.Errorf("q-learning scores %v after 20000 steps, want >= 0.99", sc.Normalised)
+	if ev.Score.Normalised < 0.99 {
+		t.Errorf("q-learning scores %v after 20000 steps, want >= 0.99", ev.Score.Normalised)
 	}
 	f, _ := sf.GridLabels(g, false)
 	pols, err = experiment.SFQLearning(env, f, r, 0.9, []int{20000}, experiment.BaselineConfig{EpisodeSteps: 30}, 1)
 	if err != nil {
 		t.Fatal(err)
 	}
-	if sc, _ = transfer.Evaluate(g.MDP, pols[0], r, 0.9); sc.Normalised < 0.99 {
-		t.Errorf("sf q-learning scores %v after 20000 steps, want >= 0.99", sc.Normalised)
+	if ev, err = transfer.Evaluate(g.MDP, pols[0], r, 0.9); err != nil || ev.Score.Normalised < 0.99 {
+		t.Fatalf("sf q-learning: %v, want a score >= 0.99 after 20000 steps", err)
 	}
 }
 

@@ -39,7 +39,7 @@ func (sel *Selector) Policy(dst mdp.Deterministic, winners []int, w []float64, s
 type EvaluateSettings struct {
 	// Policies, if not nil, holds for every source i the policy pi_i whose
 	// successor features the source holds (exactly or approximately). Its
-	// exact values are the Result's Sources, which is what Theorem 1 of
+	// exact values are the Evaluation's Sources, which is what Theorem 1 of
 	// Barreto et al. (2017) compares the GPI policy with.
 	Policies []mdp.Policy
 	// Tasks, used when Policies is nil, holds for every source i the task
@@ -52,16 +52,17 @@ type EvaluateSettings struct {
 	Solver *mdp.Solver
 }
 
-// Result is the exact evaluation of a GPI policy and of its sources' own
-// policies on one task. Value slices are indexed s*A + a (Q) or s (V), as in
-// mdp.Values.
-type Result struct {
+// Evaluation is the exact evaluation of a GPI policy and of its sources' own
+// policies on one task: the exact values of the GPI policy (the embedded
+// mdp.Values, as mdp.Evaluate returns them) and what is specific to GPI.
+// Value slices are indexed s*A + a (Q) or s (V), as in mdp.Values.
+type Evaluation struct {
+	// Values holds the exact V and Q of Policy for the task.
+	mdp.Values
 	// Policy is the deterministic GPI policy, ties broken as in Act.
 	Policy mdp.Deterministic
 	// Winner[s] is the source that attains the maximum in state s.
 	Winner []int
-	// GPI holds the exact values of Policy for the task.
-	GPI *mdp.Values
 	// SourcePolicies[i] is source i's own policy (see EvaluateSettings).
 	SourcePolicies []mdp.Policy
 	// Sources[i] holds the exact values of SourcePolicies[i] for the task.
@@ -72,17 +73,17 @@ type Result struct {
 }
 
 // Improvement returns, for every state-action pair, how much the GPI policy
-// gains over the best source policy: GPI.Q[j] - max_i Sources[i].Q[j].
+// gains over the best source policy: Q[j] - max_i Sources[i].Q[j].
 // Theorem 1 of Barreto et al. (2017) says it is >= -2 eps/(1 - gamma) when
 // the sources are within eps of their policies' values (Policies given).
-func (r *Result) Improvement() []float64 {
-	d := make([]float64, len(r.GPI.Q))
+func (r *Evaluation) Improvement() []float64 {
+	d := make([]float64, len(r.Q))
 	for j := range d {
 		best := math.Inf(-1)
 		for _, v := range r.Sources {
 			best = max(best, v.Q[j])
 		}
-		d[j] = r.GPI.Q[j] - best
+		d[j] = r.Q[j] - best
 	}
 	return d
 }
@@ -91,7 +92,7 @@ func (r *Result) Improvement() []float64 {
 // the measured eps of Theorem 1 of Barreto et al. (2017): how far each
 // source's estimate is from the exact value of its own policy. It is only
 // that eps when the sources' policies were given in EvaluateSettings.
-func (r *Result) Epsilon() float64 {
+func (r *Evaluation) Epsilon() float64 {
 	var e float64
 	for i, v := range r.Sources {
 		for j, q := range v.Q {
@@ -121,7 +122,7 @@ func (r *Result) Epsilon() float64 {
 // (shapes of sources, phi, w, m, settings disagree), ErrNonFinite (w or a
 // GPE value is not finite) or the error of the mdp oracle (bad discount,
 // singular system).
-func Evaluate(m *mdp.Finite, sources []Source, phi sf.FeatureMap, w []float64, gamma float64, settings *EvaluateSettings) (*Result, error) {
+func Evaluate(m *mdp.Finite, sources []Source, phi sf.FeatureMap, w []float64, gamma float64, settings *EvaluateSettings) (*Evaluation, error) {
 	if settings == nil {
 		settings = &EvaluateSettings{}
 	}
@@ -154,7 +155,7 @@ func Evaluate(m *mdp.Finite, sources []Source, phi sf.FeatureMap, w []float64, g
 
 	rbar := ExpectedReward(m, phi, w)
 	var sel Selector
-	res := &Result{
+	res := &Evaluation{
 		Policy:         make(mdp.Deterministic, n),
 		Winner:         make([]int, n),
 		SourcePolicies: make([]mdp.Policy, len(sources)),
@@ -164,11 +165,11 @@ func Evaluate(m *mdp.Finite, sources []Source, phi sf.FeatureMap, w []float64, g
 	if err := sel.Policy(res.Policy, res.Winner, w, sources...); err != nil {
 		return nil, fmt.Errorf("gpi: evaluate: %w", err)
 	}
-	var err error
-	res.GPI, err = settings.Solver.EvaluateExpected(m, res.Policy, rbar, gamma)
+	v, err := settings.Solver.EvaluateExpected(m, res.Policy, rbar, gamma)
 	if err != nil {
 		return nil, fmt.Errorf("gpi: evaluate: gpi policy: %w", err)
 	}
+	res.Values = *v
 	for i, src := range sources {
 		one := sources[i : i+1]
 		q := make([]float64, n*na)

@@ -67,8 +67,8 @@ func ExampleEvaluate() {
 		log.Fatal(err)
 	}
 	fmt.Println("GPI policy:", res.Policy[:2], "winners:", res.Winner[:2])
-	fmt.Printf("V gpi %.2f, V right %.2f, V left %.2f\n", res.GPI.V[:2], res.Sources[0].V[:2], res.Sources[1].V[:2])
-	fmt.Println("Theorem 1 holds:", gpi.CheckDominance(res.GPI.Q, [][]float64{res.Sources[0].Q, res.Sources[1].Q}, 2, 0, gamma, 1e-12) == nil)
+	fmt.Printf("V gpi %.2f, V right %.2f, V left %.2f\n", res.V[:2], res.Sources[0].V[:2], res.Sources[1].V[:2])
+	fmt.Println("Theorem 1 holds:", gpi.CheckDominance(res.Q, [][]float64{res.Sources[0].Q, res.Sources[1].Q}, 2, 0, gamma, 1e-12) == nil)
 	// Derived by hand: stepping right from cell 1 pays 1 at once, from cell
 	// 0 one step later, 0.5 * 1; stepping left never reaches cell 2.
 

@@ -81,8 +81,8 @@ func TestGPIBeatsEverySource(t *testing.T) {
 		name      string
 		got, want float64
 	}{
-		{"V_gpi(0)", res.GPI.V[0], 0.71},
-		{"V_gpi(1)", res.GPI.V[1], 0.9},
+		{"V_gpi(0)", res.V[0], 0.71},
+		{"V_gpi(1)", res.V[1], 0.9},
 		{"V_1(0)", res.Sources[0].V[0], -0.19},
 		{"V_2(0)", res.Sources[1].V[0], -0.1},
 		{"Q_1(0,0)", res.Sources[0].Q[0], -0.19},
@@ -95,8 +95,8 @@ func TestGPIBeatsEverySource(t *testing.T) {
 			t.Errorf("%s = %.15g, want %.15g (derived by hand)", c.name, c.got, c.want)
 		}
 	}
-	if !(res.GPI.V[0] > res.Sources[0].V[0]+0.5 && res.GPI.V[0] > res.Sources[1].V[0]+0.5) {
-		t.Errorf("GPI V(0) = %v not strictly above the sources %v, %v", res.GPI.V[0], res.Sources[0].V[0], res.Sources[1].V[0])
+	if !(res.V[0] > res.Sources[0].V[0]+0.5 && res.V[0] > res.Sources[1].V[0]+0.5) {
+		t.Errorf("GPI V(0) = %v not strictly above the sources %v, %v", res.V[0], res.Sources[0].V[0], res.Sources[1].V[0])
 	}
 
 	// Without Policies, each source acts alone on w, greedy in psi_i . w:

@@ -116,8 +116,10 @@
 //
 // # Evaluation
 //
-// Evaluate and Reference score one policy exactly on a finite MDP
-// (mdp.Evaluate and mdp.Optimal) with the task's discount:
+// Evaluate and Reference evaluate one policy exactly on a finite MDP
+// (mdp.Evaluate and mdp.Optimal) with the task's discount. As in mdp and
+// gpi, Evaluate returns the exact values (an Evaluation embeds
+// mdp.Values); what it adds is the policy's normalised Score:
 //
 //	normalised = (J(pi) - J(uniform)) / (J(optimal) - J(uniform)),   J(pi) = sum_s mu(s) V^pi(s),
 //

@@ -49,13 +49,13 @@ func Example() {
 		fmt.Println(err)
 		return
 	}
-	score, err := transfer.Evaluate(g.MDP, policy, reward, 0.95)
+	ev, err := transfer.Evaluate(g.MDP, policy, reward, 0.95)
 	if err != nil {
 		fmt.Println(err)
 		return
 	}
 	fmt.Printf("labelled steps with a reward: %d\n", policy.Rewarded)
-	fmt.Printf("normalised return: %.2f\n", score.Normalised)
+	fmt.Printf("normalised return: %.2f\n", ev.Score.Normalised)
 	// Output:
 	// labelled steps with a reward: 53
 	// normalised return: 1.00
