@@ -128,24 +128,16 @@ type Inference struct {
 	// no variance to explain and RSquared is 0.
 	Residual, RSquared float64
 	// Lambda is the ridge penalty used, and CV the mean squared
-	// leave-one-state-out error when InferTaskCV chose it (0 otherwise).
+	// leave-one-state-out error when cross-validation chose it (RidgeCV; 0
+	// otherwise).
 	Lambda, CV float64
 	// Rewarded is the number of labelled transitions with a non-zero
 	// reward.
 	Rewarded int
 }
 
-// InferTask returns the task vector w minimising
-//
-//	sum_j (r_j - phi(s'_j) . w)^2 + lambda ||w||^2
-//
-// over the labelled transitions (ridge regression on the agent's features of
-// the next state, sf.InferTask), normalised to unit length for
-// sphere-valued skills. It returns an error wrapping ErrNoData if there are
-// no transitions, ErrConfig for a bad penalty, and ErrDiverged if the
-// regression fails (for example rank-deficient features with lambda = 0, or
-// a zero w to normalise).
-func InferTask(ag *Agent, labelled []Labelled, lambda float64) (*Inference, error) {
+// inferRidge is Infer with the penalty lambda (RidgeFixed).
+func inferRidge(ag *Agent, labelled []Labelled, lambda float64) (*Inference, error) {
 	if lambda < 0 || math.IsNaN(lambda) || math.IsInf(lambda, 0) {
 		return nil, fmt.Errorf("transfer: infer task: penalty %v: %w", lambda, ErrConfig)
 	}
@@ -185,23 +177,9 @@ func InferTask(ag *Agent, labelled []Labelled, lambda float64) (*Inference, erro
 	return inf, nil
 }
 
-// InferTaskCV is InferTask with the penalty lambda chosen from grid (nil
-// means DefaultRidgeGrid) by leave-one-state-out cross-validation on the
-// labelled transitions themselves: the features depend on the next state
-// only, so the labelled transitions form groups, one per distinct next
-// state c (in order of first appearance), with count m_c and reward sum,
-// and sf.RidgeCV scores every penalty in closed form,
-//
-//	CV(lambda) = sum_c ((rbar_c - phi_c . w) / (1 - m_c phi_c' A^-1 phi_c))^2,
-//	A = sum_c m_c phi_c phi_c' + lambda I.
-//
-// This scores how well the fit predicts a place it has not seen, the error
-// that misleads the agent (Hastie, Tibshirani & Friedman, The Elements of
-// Statistical Learning, 2nd ed., section 7.10, with the held-out unit a
-// state). The smallest CV wins; ties go to the later grid entry. The chosen
-// penalty is in Inference.Lambda and the mean CV per state in
-// Inference.CV; w is then fitted by InferTask on the transitions.
-func InferTaskCV(ag *Agent, labelled []Labelled, grid []float64) (*Inference, error) {
+// inferCV is Infer with the penalty chosen from grid by cross-validation
+// (RidgeCV; nil grid means DefaultRidgeGrid).
+func inferCV(ag *Agent, labelled []Labelled, grid []float64) (*Inference, error) {
 	if len(labelled) == 0 {
 		return nil, fmt.Errorf("transfer: infer task: %w", ErrNoData)
 	}
@@ -232,7 +210,7 @@ func InferTaskCV(ag *Agent, labelled []Labelled, grid []float64) (*Inference, er
 	if err != nil {
 		return nil, fmt.Errorf("transfer: infer task: %w: %w", ErrConfig, err)
 	}
-	inf, err := InferTask(ag, labelled, lam)
+	inf, err := inferRidge(ag, labelled, lam)
 	if err != nil {
 		return nil, err
 	}
@@ -240,19 +218,44 @@ func InferTaskCV(ag *Agent, labelled []Labelled, grid []float64) (*Inference, er
 	return inf, nil
 }
 
-// Infer runs task inference with the penalty rule of cfg: InferTaskCV over
-// cfg.RidgeGrid for RidgeCV (the default), InferTask with cfg.Lambda for
-// RidgeFixed. It returns the errors of those, or one wrapping ErrConfig for
-// an invalid cfg.
+// Infer is the agent's task inference: it returns the task vector w
+// minimising
+//
+//	sum_j (r_j - phi(s'_j) . w)^2 + lambda ||w||^2
+//
+// over the labelled transitions (ridge regression on the agent's features
+// of the next state, sf.InferTask), normalised to unit length for
+// sphere-valued skills. The penalty follows cfg.Ridge: RidgeFixed uses
+// cfg.Lambda; RidgeCV (the default) chooses lambda from cfg.RidgeGrid (nil
+// means DefaultRidgeGrid) by leave-one-state-out cross-validation on the
+// labelled transitions themselves: the features depend on the next state
+// only, so the labelled transitions form groups, one per distinct next
+// state c (in order of first appearance), with count m_c and reward sum,
+// and sf.RidgeCV scores every penalty in closed form,
+//
+//	CV(lambda) = sum_c ((rbar_c - phi_c . w) / (1 - m_c phi_c' A^-1 phi_c))^2,
+//	A = sum_c m_c phi_c phi_c' + lambda I.
+//
+// This scores how well the fit predicts a place it has not seen, the error
+// that misleads the agent (Hastie, Tibshirani & Friedman, The Elements of
+// Statistical Learning, 2nd ed., section 7.10, with the held-out unit a
+// state). The smallest CV wins; ties go to the later grid entry. The chosen
+// penalty is in Inference.Lambda and the mean CV per state in
+// Inference.CV; w is then fitted with it on the transitions.
+//
+// It returns an error wrapping ErrNoData if there are no transitions,
+// ErrConfig for an invalid cfg or penalty, and ErrDiverged if the
+// regression fails (for example rank-deficient features with lambda = 0,
+// or a zero w to normalise).
 func Infer(ag *Agent, labelled []Labelled, cfg AdaptConfig) (*Inference, error) {
 	c, err := cfg.Resolve()
 	if err != nil {
 		return nil, err
 	}
 	if c.Ridge == RidgeCV {
-		return InferTaskCV(ag, labelled, c.RidgeGrid)
+		return inferCV(ag, labelled, c.RidgeGrid)
 	}
-	return InferTask(ag, labelled, c.Lambda)
+	return inferRidge(ag, labelled, c.Lambda)
 }
 
 // Policy is the acting policy after adaptation: GPI with the inferred w over
@@ -283,8 +286,8 @@ func (p *Policy) Probs(dst []float64, s int) { p.Actions.Probs(dst, s) }
 // Act returns the policy's action in s.
 func (p *Policy) Act(s int) int { return p.Actions[s] }
 
-// Adapt infers the task from the labelled transitions (Infer: InferTaskCV
-// by default, InferTask with RidgeFixed) and returns the acting policy
+// Adapt infers the task from the labelled transitions (Infer) and returns
+// the acting policy
 // (Agent.Policy).
 //
 // By default (FitNone) this is successor-feature transfer proper: GPI over

@@ -392,9 +392,9 @@ type RidgeRule int
 const (
 	// RidgeCV chooses lambda from AdaptConfig.RidgeGrid by
 	// leave-one-state-out cross-validation on the labelled transitions
-	// (InferTaskCV). The zero value.
+	// (see Infer). The zero value.
 	RidgeCV RidgeRule = iota
-	// RidgeFixed uses AdaptConfig.Lambda (InferTask); 0 is plain least
+	// RidgeFixed uses AdaptConfig.Lambda (see Infer); 0 is plain least
 	// squares.
 	RidgeFixed
 )

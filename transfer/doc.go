@@ -72,15 +72,15 @@
 //
 // # Task inference and acting
 //
-// InferTask fits
+// Infer fits
 //
 //	w = argmin_w sum_j (r_j - phi(s'_j) . w)^2 + lambda ||w||^2
 //
 // over the n labelled transitions (sf.InferTask), then normalises w to unit
 // length for sphere skills, and reports the residual and R^2 of the fit: a
 // reward on place labels must be close to linear in the learned phi for
-// this to work. Infer applies the penalty rule of AdaptConfig.Ridge: by
-// default (RidgeCV) InferTaskCV chooses lambda from AdaptConfig.RidgeGrid
+// this to work. The penalty follows AdaptConfig.Ridge: by default
+// (RidgeCV) Infer chooses lambda from AdaptConfig.RidgeGrid
 // by leave-one-state-out cross-validation on the labelled transitions, in
 // closed form (sf.RidgeCV); with 64 learned features a nearly
 // unregularised fit extrapolated wildly to places the labelled steps never

@@ -36,7 +36,7 @@ func Example() {
 	reward, _ := g.PlaceReward(w)
 	env := mdp.NewSampler(g.MDP, 0)
 	// The ridge penalty of task inference is chosen by leave-one-state-out
-	// cross-validation (InferTaskCV); the policy is GPI over the universal
+	// cross-validation (Infer); the policy is GPI over the universal
 	// SFs of the 8 skills nearest the inferred task.
 	cfg := transfer.AdaptConfig{EpisodeSteps: 50, SwitchEvery: 10}
 	labelled, err := transfer.Collect(env, agent, reward, 200, cfg, 2)

@@ -50,7 +50,7 @@ func TestInferTaskExact(t *testing.T) {
 		ag.Phi(phi, s)
 		lab = append(lab, Labelled{S: s, Next: s, Reward: vec.DotSeq(phi, want)})
 	}
-	inf, err := InferTask(ag, lab, 1e-12)
+	inf, err := inferRidge(ag, lab, 1e-12)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -160,12 +160,12 @@ func TestGivenSkillsExact(t *testing.T) {
 	}
 }
 
-// TestInferTaskCV checks the closed-form leave-one-state-out error
+// TestInferCV checks the closed-form leave-one-state-out error
 // (sf.RidgeCV; Sherman-Morrison, Hastie, Tibshirani & Friedman, The
 // Elements of Statistical Learning, 2nd ed., section 7.10) against
 // refitting without each state, for a single-penalty grid, with the
 // transitions grouped by their next state.
-func TestInferTaskCV(t *testing.T) {
+func TestInferCV(t *testing.T) {
 	g, _ := room(t)
 	ag, err := newAgent(g.NumStates(), g.MDP.NumActions(), mustDefaults(t, PretrainConfig{Dim: 6, Skills: 4, Seed: 3}))
 	if err != nil {
@@ -178,7 +178,7 @@ func TestInferTaskCV(t *testing.T) {
 		lab = append(lab, Labelled{S: s, Next: s, Reward: rng.NormFloat64() + float64(s%3)})
 	}
 	const lam = 0.7
-	inf, err := InferTaskCV(ag, lab, []float64{lam})
+	inf, err := inferCV(ag, lab, []float64{lam})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -199,7 +199,7 @@ func TestInferTaskCV(t *testing.T) {
 				rest = append(rest, l)
 			}
 		}
-		fit, err := InferTask(ag, rest, lam)
+		fit, err := inferRidge(ag, rest, lam)
 		if err != nil {
 			t.Fatal(err)
 		}
