@@ -61,13 +61,13 @@ func checkGamma(gamma float64) error {
 	return nil
 }
 
-// QLearning runs tabular Q-learning from scratch (Watkins 1989; Sutton &
+// QBaseline runs tabular Q-learning from scratch (Watkins 1989; Sutton &
 // Barto 2nd ed., section 6.5) on env with reward r and discount gamma for
 // the largest of the budgets in labelled transitions, acting
 // epsilon-greedily on its own Q (ties at random, Q starts at 0), and
 // returns the greedy policy after each budget (ascending). seed determines
 // the run.
-func QLearning(env transfer.Env, r mdp.Reward, gamma float64, budgets []int, cfg BaselineConfig, seed uint64) ([]mdp.Deterministic, error) {
+func QBaseline(env transfer.Env, r mdp.Reward, gamma float64, budgets []int, cfg BaselineConfig, seed uint64) ([]mdp.Deterministic, error) {
 	c, err := cfg.Resolve()
 	if err != nil {
 		return nil, err
@@ -101,7 +101,7 @@ func QLearning(env transfer.Env, r mdp.Reward, gamma float64, budgets []int, cfg
 	return out, err
 }
 
-// SFQLearning runs SF Q-learning from scratch with the given features phi
+// SFQBaseline runs SF Q-learning from scratch with the given features phi
 // (Barreto et al. 2017, section 5, with a single task), composed of the sf
 // package's pieces: the task vector w is re-fitted after every transition
 // by recursive least squares (sf.TaskEstimator, ridge lambda 1e-6, the
@@ -111,7 +111,7 @@ func QLearning(env transfer.Env, r mdp.Reward, gamma float64, budgets []int, cfg
 // a* greedy in psi(s', .) . w, ties to the lowest action) and the constant
 // step cfg.Alpha, discount gamma. It returns the greedy policy after each
 // budget (ascending).
-func SFQLearning(env transfer.Env, phi sf.FeatureMap, r mdp.Reward, gamma float64, budgets []int, cfg BaselineConfig, seed uint64) ([]mdp.Deterministic, error) {
+func SFQBaseline(env transfer.Env, phi sf.FeatureMap, r mdp.Reward, gamma float64, budgets []int, cfg BaselineConfig, seed uint64) ([]mdp.Deterministic, error) {
 	c, err := cfg.Resolve()
 	if err != nil {
 		return nil, err

@@ -414,11 +414,11 @@ func (e *Experiment) runBaselines(seed uint64, rewards []mdp.Reward, refs []*tra
 	var recs []Record
 	for j, job := range e.Jobs {
 		env := mdp.NewSampler(e.Task, bc.EpisodeSteps)
-		qp, err := QLearning(env, rewards[j], e.TaskGamma, e.Budgets, bc, DeriveSeed(seed, 2000+uint64(j)))
+		qp, err := QBaseline(env, rewards[j], e.TaskGamma, e.Budgets, bc, DeriveSeed(seed, 2000+uint64(j)))
 		if err != nil {
 			return nil, err
 		}
-		sp, err := SFQLearning(env, e.Places, rewards[j], e.TaskGamma, e.Budgets, bc, DeriveSeed(seed, 3000+uint64(j)))
+		sp, err := SFQBaseline(env, e.Places, rewards[j], e.TaskGamma, e.Budgets, bc, DeriveSeed(seed, 3000+uint64(j)))
 		if err != nil {
 			return nil, err
 		}

@@ -190,15 +190,15 @@ func TestReportFiles(t *testing.T) {
 	}
 }
 
-// TestQLearningLearns: with a generous budget tabular Q-learning reaches
+// TestBaselinesLearn: with a generous budget tabular Q-learning reaches
 // the optimal policy of a small room (Watkins' convergence, Sutton & Barto
 // 2nd ed. section 6.5; measured 1.00 at 20000 steps).
-func TestQLearningLearns(t *testing.T) {
+func TestBaselinesLearn(t *testing.T) {
 	g, _ := tinyGrid(t)
 	w, _ := g.Weights(map[string]float64{"berry": 1})
 	r, _ := g.PlaceReward(w)
 	env := mdp.NewSampler(g.MDP, 0)
-	pols, err := experiment.QLearning(env, r, 0.9, []int{20000}, experiment.BaselineConfig{EpisodeSteps: 30}, 1)
+	pols, err := experiment.QBaseline(env, r, 0.9, []int{20000}, experiment.BaselineConfig{EpisodeSteps: 30}, 1)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -210,7 +210,7 @@ func TestQLearningLearns(t *testing.T) {
 		t.Errorf("q-learning scores %v after 20000 steps, want >= 0.99", ev.Score.Normalised)
 	}
 	f, _ := sf.GridLabels(g, false)
-	pols, err = experiment.SFQLearning(env, f, r, 0.9, []int{20000}, experiment.BaselineConfig{EpisodeSteps: 30}, 1)
+	pols, err = experiment.SFQBaseline(env, f, r, 0.9, []int{20000}, experiment.BaselineConfig{EpisodeSteps: 30}, 1)
 	if err != nil {
 		t.Fatal(err)
 	}
