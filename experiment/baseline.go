@@ -17,9 +17,9 @@ import (
 // discount is the task's (Experiment.TaskGamma), an argument of the
 // learners.
 type BaselineConfig struct {
-	// Alpha is the step size, in (0, 1]. 0 means 0.5 (a deterministic
+	// StepSize is the step size, in (0, 1]. 0 means 0.5 (a deterministic
 	// floor).
-	Alpha float64 `json:"alpha"`
+	StepSize float64 `json:"step_size"`
 	// Epsilon is the random-action rate of the epsilon-greedy behaviour.
 	// 0 means 0.1; a negative value means none, which Resolve records as
 	// -1.
@@ -34,8 +34,8 @@ type BaselineConfig struct {
 // returns it unchanged.
 func (cfg BaselineConfig) Resolve() (BaselineConfig, error) {
 	c := cfg
-	if c.Alpha == 0 {
-		c.Alpha = 0.5
+	if c.StepSize == 0 {
+		c.StepSize = 0.5
 	}
 	if c.Epsilon == 0 {
 		c.Epsilon = 0.1
@@ -46,7 +46,7 @@ func (cfg BaselineConfig) Resolve() (BaselineConfig, error) {
 	if c.EpisodeSteps == 0 {
 		c.EpisodeSteps = 1000
 	}
-	if !(c.Alpha > 0 && c.Alpha <= 1) || !(c.Epsilon == -1 || c.Epsilon >= 0 && c.Epsilon <= 1) || c.EpisodeSteps < 1 {
+	if !(c.StepSize > 0 && c.StepSize <= 1) || !(c.Epsilon == -1 || c.Epsilon >= 0 && c.Epsilon <= 1) || c.EpisodeSteps < 1 {
 		return c, fmt.Errorf("experiment: baseline: invalid settings %+v: %w", c, ErrConfig)
 	}
 	return c, nil
@@ -86,7 +86,7 @@ func QBaseline(env transfer.Env, r mdp.Reward, gamma float64, budgets []int, cfg
 		if !term {
 			target += gamma * maxOf(q[next*na:(next+1)*na])
 		}
-		q[s*na+a] += c.Alpha * (target - q[s*na+a])
+		q[s*na+a] += c.StepSize * (target - q[s*na+a])
 		if math.IsNaN(q[s*na+a]) || math.IsInf(q[s*na+a], 0) {
 			return fmt.Errorf("experiment: q-learning: %w", ErrDiverged)
 		}
@@ -109,7 +109,7 @@ func QBaseline(env transfer.Env, r mdp.Reward, gamma float64, budgets []int, cfg
 // epsilon-greedily on psi(s, a) . w (an sf.Table), and psi learns by
 // sf.TD with the Greedy target for the current w (phi + gamma psi(s', a*),
 // a* greedy in psi(s', .) . w, ties to the lowest action) and the constant
-// step cfg.Alpha, discount gamma. It returns the greedy policy after each
+// step cfg.StepSize, discount gamma. It returns the greedy policy after each
 // budget (ascending).
 func SFQBaseline(env transfer.Env, phi sf.FeatureMap, r mdp.Reward, gamma float64, budgets []int, cfg BaselineConfig, seed uint64) ([]mdp.Deterministic, error) {
 	c, err := cfg.Resolve()
@@ -125,7 +125,7 @@ func SFQBaseline(env transfer.Env, phi sf.FeatureMap, r mdp.Reward, gamma float6
 		return nil, fmt.Errorf("experiment: sf q-learning: %w", err)
 	}
 	w := make([]float64, d)
-	td, err := sf.NewTD(tab, phi, gamma, &sf.TDSettings{Target: sf.Greedy, Task: w, Step: sf.StepSize{Alpha: c.Alpha}})
+	td, err := sf.NewTD(tab, phi, gamma, &sf.TDSettings{Target: sf.Greedy, Task: w, Schedule: sf.StepSchedule{StepSize: c.StepSize}})
 	if err != nil {
 		return nil, fmt.Errorf("experiment: sf q-learning: %w", err)
 	}

@@ -270,7 +270,7 @@ func TestResolve(t *testing.T) {
 	if m["task_gamma"] != 0.95 {
 		t.Errorf("task_gamma %v, want the default 0.95", m["task_gamma"])
 	}
-	if got := keys(m["baseline"]); !reflect.DeepEqual(got, []string{"alpha", "episode_steps", "epsilon"}) {
+	if got := keys(m["baseline"]); !reflect.DeepEqual(got, []string{"episode_steps", "epsilon", "step_size"}) {
 		t.Errorf("baseline keys %v", got)
 	}
 	for _, mc := range m["methods"].([]any) {
@@ -292,7 +292,7 @@ func TestResolve(t *testing.T) {
 		{"budgets not increasing", func(e *experiment.Experiment) { e.Budgets = []int{100, 20} }},
 		{"bad method setting", func(e *experiment.Experiment) { e.Methods[0].SkillGamma = 2 }},
 		{"bad adapt setting", func(e *experiment.Experiment) { e.Adapt.Candidates = -1 }},
-		{"bad baseline setting", func(e *experiment.Experiment) { e.Baseline.Alpha = 2 }},
+		{"bad baseline setting", func(e *experiment.Experiment) { e.Baseline.StepSize = 2 }},
 		{"nothing to run", func(e *experiment.Experiment) { e.Methods, e.Baselines = nil, false }},
 	} {
 		e := tinyExperiment(t, 1)
@@ -309,7 +309,7 @@ func TestResolve(t *testing.T) {
 // TestBaselineResolve checks that the baselines' defaults are idempotent and
 // that "no random actions" is recorded apart from the default.
 func TestBaselineResolve(t *testing.T) {
-	for _, c := range []experiment.BaselineConfig{{}, {Epsilon: -1}, {Alpha: 0.2, Epsilon: 0.3, EpisodeSteps: 5}} {
+	for _, c := range []experiment.BaselineConfig{{}, {Epsilon: -1}, {StepSize: 0.2, Epsilon: 0.3, EpisodeSteps: 5}} {
 		once, err := c.Resolve()
 		if err != nil {
 			t.Fatal(err)

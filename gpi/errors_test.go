@@ -71,7 +71,7 @@ func diverge(t *testing.T) error {
 		}
 	}}
 	_, err = gpi.SFQLearning(rand.New(rand.NewPCG(2, 2)), m, phi, [][]float64{{0, 1}},
-		&gpi.LearnSettings{Gamma: 0.9, Alpha: 1, Epsilon: 0.5, StepsPerTask: 1000}, nil)
+		&gpi.LearnSettings{Gamma: 0.9, StepSize: 1, Epsilon: 0.5, StepsPerTask: 1000}, nil)
 	return err
 }
 

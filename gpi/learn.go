@@ -16,7 +16,7 @@ const (
 	DefaultLearnGamma   = 0.95
 	DefaultStepsPerTask = 10000
 	DefaultEpsilon      = 0.1
-	DefaultAlpha        = 0.1
+	DefaultStepSize     = 0.1
 )
 
 // LearnSettings configures SFQLearning and QLearning. A nil *LearnSettings
@@ -30,9 +30,9 @@ type LearnSettings struct {
 	// Epsilon is the probability of a uniformly random action, in
 	// [0, 1]. 0 means DefaultEpsilon; a negative value means none.
 	Epsilon float64
-	// Alpha is the constant step size of the TD and Q-learning updates,
-	// in (0, 1]. 0 means DefaultAlpha.
-	Alpha float64
+	// StepSize is the constant step size of the TD and Q-learning updates,
+	// in (0, 1]. 0 means DefaultStepSize.
+	StepSize float64
 	// TimeLimit is the number of steps after which an episode is
 	// truncated (it bootstraps; it is not a termination). 0 means
 	// mdp.DepotTimeLimit; a negative value means no limit.
@@ -58,7 +58,7 @@ func (s *LearnSettings) resolve() (learnConfig, error) {
 	if s != nil {
 		z = *s
 	}
-	c := learnConfig{gamma: z.Gamma, eps: z.Epsilon, alpha: z.Alpha, steps: z.StepsPerTask,
+	c := learnConfig{gamma: z.Gamma, eps: z.Epsilon, alpha: z.StepSize, steps: z.StepsPerTask,
 		timeLimit: z.TimeLimit, evalEvery: z.EvalEvery, currentOnly: z.CurrentOnly}
 	if c.gamma == 0 {
 		c.gamma = DefaultLearnGamma
@@ -81,7 +81,7 @@ func (s *LearnSettings) resolve() (learnConfig, error) {
 		return c, fmt.Errorf("epsilon %v above 1: %w", c.eps, ErrConfig)
 	}
 	if c.alpha == 0 {
-		c.alpha = DefaultAlpha
+		c.alpha = DefaultStepSize
 	}
 	if !(c.alpha > 0 && c.alpha <= 1) {
 		return c, fmt.Errorf("alpha %v outside (0, 1]: %w", c.alpha, ErrConfig)
@@ -333,7 +333,7 @@ func (g *sfqAgent) begin(i int, w []float64) error {
 	if err != nil {
 		return err
 	}
-	td, err := sf.NewTD(t, g.phi, g.cfg.gamma, &sf.TDSettings{Target: sf.Greedy, Task: w, Step: sf.StepSize{Alpha: g.cfg.alpha}})
+	td, err := sf.NewTD(t, g.phi, g.cfg.gamma, &sf.TDSettings{Target: sf.Greedy, Task: w, Schedule: sf.StepSchedule{StepSize: g.cfg.alpha}})
 	if err != nil {
 		return err
 	}

@@ -149,7 +149,7 @@ func TestLearnErrors(t *testing.T) {
 		{"task length", rng, [][]float64{{1}}, nil, gpi.ErrDimension},
 		{"gamma", rng, tasks, &gpi.LearnSettings{Gamma: 1}, gpi.ErrDiscount},
 		{"epsilon", rng, tasks, &gpi.LearnSettings{Epsilon: 2}, gpi.ErrConfig},
-		{"alpha", rng, tasks, &gpi.LearnSettings{Alpha: -1}, gpi.ErrConfig},
+		{"step size", rng, tasks, &gpi.LearnSettings{StepSize: -1}, gpi.ErrConfig},
 		{"steps", rng, tasks, &gpi.LearnSettings{StepsPerTask: -1}, gpi.ErrConfig},
 		{"zero task", rng, zero, nil, gpi.ErrConfig}, // every policy has return 0
 	} {

@@ -34,9 +34,9 @@ type LambdaSettings struct {
 	Lambda float64
 	// Trace is the kind of trace.
 	Trace Trace
-	// Step is the step-size schedule; n counts all updates of the learner
+	// Schedule is the step-size schedule; n counts all updates of the learner
 	// (one step size is shared by every pair the traces reach).
-	Step StepSize
+	Schedule StepSchedule
 	// Cutoff drops a trace once it falls below this value, bounding the
 	// work per update. 0 means 1e-4; use a negative value to keep every
 	// non-zero trace (exact, but the work grows with the episode).
@@ -99,7 +99,7 @@ func NewTDLambda(t *Table, phi FeatureMap, gamma float64, s *LambdaSettings) (*T
 	if phi.Dim() != t.D || len(t.Data) != t.S*t.A*t.D {
 		return nil, fmt.Errorf("sf: td lambda: features of dimension %d for a table of %d: %w", phi.Dim(), t.D, ErrDimension)
 	}
-	st, err := s.Step.resolve()
+	st, err := s.Schedule.resolve()
 	if err != nil {
 		return nil, fmt.Errorf("sf: td lambda: %w", err)
 	}

@@ -107,9 +107,9 @@ type LinearTDSettings struct {
 	Policy func(dst, x []float64)
 	// Task is the task vector w of Greedy (copied). Required for Greedy.
 	Task []float64
-	// Step is the step-size schedule; n counts all updates of the learner
-	// (not per pair): alpha_n = Alpha / (1 + n)^Power.
-	Step StepSize
+	// Schedule is the step-size schedule; n counts all updates of the learner
+	// (not per pair): alpha_n = StepSize / (1 + n)^Power.
+	Schedule StepSchedule
 }
 
 // LinearTD is the semi-gradient TD(0) learner for a Linear approximator
@@ -156,7 +156,7 @@ func NewLinearTD(l *Linear, gamma float64, s *LinearTDSettings) (*LinearTD, erro
 	if len(l.W) != l.A*l.D*l.M {
 		return nil, fmt.Errorf("sf: linear td: weights have length %d, want %d: %w", len(l.W), l.A*l.D*l.M, ErrDimension)
 	}
-	st, err := s.Step.resolve()
+	st, err := s.Schedule.resolve()
 	if err != nil {
 		return nil, fmt.Errorf("sf: linear td: %w", err)
 	}

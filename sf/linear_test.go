@@ -93,7 +93,7 @@ func TestLinearRotated(t *testing.T) {
 	qr.QTo(&q)
 	obs := func(dst []float64, s int) { mat.Col(dst, s, &q) }
 	lin, _ := NewLinear(2, 7, 7)
-	lt, err := NewLinearTD(lin, 1, &LinearTDSettings{Target: Expected, Step: StepSize{Alpha: 0.5},
+	lt, err := NewLinearTD(lin, 1, &LinearTDSettings{Target: Expected, Schedule: StepSchedule{StepSize: 0.5},
 		Policy: func(dst, x []float64) { dst[0], dst[1] = 0.5, 0.5 }})
 	if err != nil {
 		t.Fatal(err)
@@ -127,7 +127,7 @@ func TestLinearRotated(t *testing.T) {
 // 1e308 + 1e308 overflows (derived by hand).
 func TestLinearDivergence(t *testing.T) {
 	lin, _ := NewLinear(1, 1, 1)
-	lt, _ := NewLinearTD(lin, 1, &LinearTDSettings{Step: StepSize{Alpha: 1}})
+	lt, _ := NewLinearTD(lin, 1, &LinearTDSettings{Schedule: StepSchedule{StepSize: 1}})
 	x, f := []float64{1}, []float64{1e308}
 	if err := lt.Update(x, 0, f, x, false, 0); err != nil {
 		t.Fatal(err)
@@ -162,7 +162,7 @@ func TestLinearAllocsAndErrors(t *testing.T) {
 	}
 	for _, target := range []Target{Sampled, Expected, Greedy} {
 		lt, err := NewLinearTD(lin, 0.9, &LinearTDSettings{Target: target, Task: []float64{1, 0, 0, 1},
-			Policy: func(dst, x []float64) { dst[0], dst[1], dst[2] = 0.2, 0.3, 0.5 }, Step: StepSize{Power: 0.7}})
+			Policy: func(dst, x []float64) { dst[0], dst[1], dst[2] = 0.2, 0.3, 0.5 }, Schedule: StepSchedule{Power: 0.7}})
 		if err != nil {
 			t.Fatal(err)
 		}

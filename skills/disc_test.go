@@ -265,7 +265,7 @@ func TestConfigErrors(t *testing.T) {
 		{In: 2, Dim: 3, Kappa: math.Inf(1)},
 		{In: 2, Dim: 3, Kappa: 2000, LearnKappa: true},
 		{In: 2, Dim: 3, MaxKappa: -1},
-		{In: 2, Dim: 3, Optim: Optim{LearnRate: -1}},
+		{In: 2, Dim: 3, Optim: Optim{StepSize: -1}},
 		{In: 2, Dim: 3, Optim: Optim{Beta1: 1}},
 		{In: 2, Dim: 3, Optim: Optim{ClipNorm: math.NaN()}},
 		{In: 2, Dim: 3, Net: Net{Hidden: []int{0}}},
@@ -310,7 +310,7 @@ func TestUpdateLengthPanics(t *testing.T) {
 func TestVMFZeroDirection(t *testing.T) {
 	// f(x) = 0: phi = 0 (q uniform), the loss is -log C_d(kappa), and an
 	// update moves f towards z (documented subgradient -kappa z / n).
-	v, _ := NewVMF(&VMFConfig{In: 2, Dim: 3, Kappa: 2, Optim: Optim{LearnRate: 0.01}}, rand.New(rand.NewPCG(1, 1)))
+	v, _ := NewVMF(&VMFConfig{In: 2, Dim: 3, Kappa: 2, Optim: Optim{StepSize: 0.01}}, rand.New(rand.NewPCG(1, 1)))
 	clear(v.enc.params())
 	x := []float64{1, 0}
 	z := []float64{0, 0, 1}

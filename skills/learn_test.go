@@ -104,7 +104,7 @@ func TestLearnGridSoftmax(t *testing.T) {
 	p := Categorical{K: k}
 	for _, net := range []Net{{}, {Hidden: []int{16}, MaxBatch: 32}} {
 		rng := rand.New(rand.NewPCG(7, 1))
-		s, err := NewSoftmax(&SoftmaxConfig{In: ns, K: k, Net: net, Optim: Optim{LearnRate: 0.05}}, rng)
+		s, err := NewSoftmax(&SoftmaxConfig{In: ns, K: k, Net: net, Optim: Optim{StepSize: 0.05}}, rng)
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -153,7 +153,7 @@ func TestLearnGridVMF(t *testing.T) {
 			skills[i] = make([]float64, d)
 			p.Sample(skills[i], rng)
 		}
-		v, err := NewVMF(&VMFConfig{In: ns, Dim: d, Net: tc.net, Kappa: 5, LearnKappa: tc.learn, Optim: Optim{LearnRate: 0.05}}, rng)
+		v, err := NewVMF(&VMFConfig{In: ns, Dim: d, Net: tc.net, Kappa: 5, LearnKappa: tc.learn, Optim: Optim{StepSize: 0.05}}, rng)
 		if err != nil {
 			t.Fatal(err)
 		}

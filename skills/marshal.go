@@ -64,7 +64,7 @@ func newFileEncoder(kind uint8, c *core, in, zdim int, net *Net) *fileio.Encoder
 	e.Bool(net.Tanh)
 	e.Int(net.MaxBatch)
 	o := c.opt
-	e.Float64(o.LearnRate)
+	e.Float64(o.StepSize)
 	e.Float64(o.Beta1)
 	e.Float64(o.Beta2)
 	e.Float64(o.Eps)
@@ -141,7 +141,7 @@ func openData(what string, data []byte) (*header, error) {
 	}
 	h.net.Tanh = d.Bool("tanh")
 	h.net.MaxBatch = d.Size("max batch", 0, maxRowsNet)
-	h.opt = Optim{LearnRate: d.Float64("learn rate"), Beta1: d.Float64("beta1"), Beta2: d.Float64("beta2"),
+	h.opt = Optim{StepSize: d.Float64("learn rate"), Beta1: d.Float64("beta1"), Beta2: d.Float64("beta2"),
 		Eps: d.Float64("eps"), ClipNorm: d.Float64("clip norm")}
 	h.opt.Method = OptimMethod(d.Uint8("method"))
 	h.steps = d.Size("steps", 0, math.MaxInt32)

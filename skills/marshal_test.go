@@ -23,7 +23,7 @@ func trained(t testing.TB) []Discriminator {
 	var out []Discriminator
 	for _, c := range []VMFConfig{
 		{In: 6, Dim: 3},
-		{In: 6, Dim: 4, Kappa: 3, LearnKappa: true, MaxKappa: 50, Optim: Optim{LearnRate: 0.01, ClipNorm: 5}},
+		{In: 6, Dim: 4, Kappa: 3, LearnKappa: true, MaxKappa: 50, Optim: Optim{StepSize: 0.01, ClipNorm: 5}},
 		{In: 6, Dim: 3, Net: Net{Hidden: []int{5, 4}, Tanh: true, MaxBatch: 3}},
 		{In: 6, Dim: 3, LearnKappa: true, Optim: Optim{Method: OptimSparseAdam, ClipNorm: 2}},
 	} {

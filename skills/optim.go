@@ -70,8 +70,8 @@ func (m *OptimMethod) UnmarshalText(b []byte) error {
 type Optim struct {
 	// Method selects dense Adam (the zero value) or sparse Adam.
 	Method OptimMethod
-	// LearnRate is the Adam step size alpha. 0 means 1e-3.
-	LearnRate float64
+	// StepSize is the Adam step size alpha. 0 means 1e-3.
+	StepSize float64
 	// Beta1 and Beta2 are the moment decay rates. 0 means 0.9 and 0.999.
 	Beta1, Beta2 float64
 	// Eps is added to the root second moment. 0 means 1e-8. (The defaults
@@ -84,15 +84,15 @@ type Optim struct {
 
 // resolve returns o with defaults filled in, or an error wrapping ErrConfig.
 func (o Optim) resolve() (Optim, error) {
-	c := nn.AdamConfig{LR: o.LearnRate, Beta1: o.Beta1, Beta2: o.Beta2, Eps: o.Eps}.WithDefaults()
-	o.LearnRate, o.Beta1, o.Beta2, o.Eps = c.LR, c.Beta1, c.Beta2, c.Eps
+	c := nn.AdamConfig{StepSize: o.StepSize, Beta1: o.Beta1, Beta2: o.Beta2, Eps: o.Eps}.WithDefaults()
+	o.StepSize, o.Beta1, o.Beta2, o.Eps = c.StepSize, c.Beta1, c.Beta2, c.Eps
 	return o, o.check()
 }
 
 func (o Optim) check() error {
 	switch {
-	case !(o.LearnRate > 0) || math.IsInf(o.LearnRate, 0):
-		return fmt.Errorf("learn rate %g: %w", o.LearnRate, ErrConfig)
+	case !(o.StepSize > 0) || math.IsInf(o.StepSize, 0):
+		return fmt.Errorf("learn rate %g: %w", o.StepSize, ErrConfig)
 	case !(o.Beta1 >= 0 && o.Beta1 < 1):
 		return fmt.Errorf("beta1 %g not in [0, 1): %w", o.Beta1, ErrConfig)
 	case !(o.Beta2 >= 0 && o.Beta2 < 1):
@@ -112,7 +112,7 @@ func (o Optim) check() error {
 // and a zero Beta1 read from a file stays zero.
 func newAdam(n int, o *Optim) *nn.Adam {
 	a := nn.NewAdam(n, nil)
-	a.LR, a.Beta1, a.Beta2, a.Eps = o.LearnRate, o.Beta1, o.Beta2, o.Eps
+	a.StepSize, a.Beta1, a.Beta2, a.Eps = o.StepSize, o.Beta1, o.Beta2, o.Eps
 	return a
 }
 
@@ -143,7 +143,7 @@ func sparseAdamStep(a *nn.Adam, p, g []float64, rows []int, out int) {
 			v[i] = b2*v[i] + (1-b2)*gi*gi
 			mh := m[i] / c1
 			vh := v[i] / c2
-			p[i] -= a.LR * mh / (math.Sqrt(vh) + a.Eps)
+			p[i] -= a.StepSize * mh / (math.Sqrt(vh) + a.Eps)
 		}
 	}
 	for _, j := range rows {

@@ -25,7 +25,7 @@ func TestSparseAdamTwoSteps(t *testing.T) {
 	//   so the second delta is again -lr g/(|g| + eps).
 	// Step 1 touches row 0, step 2 touches row 2; row 1 never.
 	const lr, b1, b2, eps = 0.1, 0.9, 0.999, 1e-8
-	a := nn.NewAdam(8, &nn.AdamConfig{LR: lr, Beta1: b1, Beta2: b2, Eps: eps})
+	a := nn.NewAdam(8, &nn.AdamConfig{StepSize: lr, Beta1: b1, Beta2: b2, Eps: eps})
 	p := make([]float64, 8)
 	g1 := []float64{0.5, -2, 0, 0, 0, 0, 1, 0}  // row 0 and bias (1, 0)
 	g2 := []float64{0, 0, 0, 0, 3, -0.25, 1, 4} // row 2 and bias (1, 4)
@@ -52,7 +52,7 @@ func TestSparseAdamTwoSteps(t *testing.T) {
 	// Dense Adam on the same gradients moves row 0 again at step 2, by
 	// -lr (b1/(1+b1)) g / (|g| sqrt(b2/(1+b2)) + eps) (derived by hand
 	// as above): the two optimisers differ.
-	d := nn.NewAdam(8, &nn.AdamConfig{LR: lr, Beta1: b1, Beta2: b2, Eps: eps})
+	d := nn.NewAdam(8, &nn.AdamConfig{StepSize: lr, Beta1: b1, Beta2: b2, Eps: eps})
 	q := make([]float64, 8)
 	d.Step(q, g1)
 	d.Step(q, g2)
@@ -113,7 +113,7 @@ func TestSparseAdamMatchesDense(t *testing.T) {
 	for _, kind := range []string{"vmf", "softmax"} {
 		for _, clip := range []float64{0, 0.05} {
 			for _, oneHot := range []bool{true, false} {
-				de, sp := sparsePair(t, kind, Optim{LearnRate: 0.05, ClipNorm: clip})
+				de, sp := sparsePair(t, kind, Optim{StepSize: 0.05, ClipNorm: clip})
 				rng := rand.New(rand.NewPCG(5, 5))
 				var p Prior = Categorical{K: 3}
 				if kind == "vmf" {
@@ -154,7 +154,7 @@ func TestSparseAdamSkipsUntouched(t *testing.T) {
 	// and keep zero moments, while dense Adam keeps moving the rows it
 	// touched earlier even when a later batch misses them.
 	for _, kind := range []string{"vmf", "softmax"} {
-		de, sp := sparsePair(t, kind, Optim{LearnRate: 0.05})
+		de, sp := sparsePair(t, kind, Optim{StepSize: 0.05})
 		c1, c2 := discCore(de), discCore(sp)
 		init := append([]float64(nil), c2.enc.params()...)
 		rng := rand.New(rand.NewPCG(6, 6))
@@ -194,7 +194,7 @@ func TestSparseGradient(t *testing.T) {
 	// (only the touched rows are cleared between updates) still matches
 	// central differences on every parameter (common practice).
 	for _, kind := range []string{"vmf", "softmax"} {
-		_, sp := sparsePair(t, kind, Optim{LearnRate: 0.05})
+		_, sp := sparsePair(t, kind, Optim{StepSize: 0.05})
 		rng := rand.New(rand.NewPCG(7, 7))
 		var p Prior = Categorical{K: 3}
 		if kind == "vmf" {
@@ -282,7 +282,7 @@ func TestOptimMethodText(t *testing.T) {
 		t.Errorf("method 5: %v, want ErrConfig", err)
 	}
 	_, sp := sparsePair(t, "vmf", Optim{})
-	if o := sp.(*VMF).Optim(); o.Method != OptimSparseAdam || o.LearnRate != 1e-3 {
+	if o := sp.(*VMF).Optim(); o.Method != OptimSparseAdam || o.StepSize != 1e-3 {
 		t.Errorf("Optim() = %+v, want sparse adam with the default learn rate 1e-3", o)
 	}
 }

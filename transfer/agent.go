@@ -202,7 +202,7 @@ func newAgent(n, na int, c PretrainConfig) (*Agent, error) {
 	ag.pcg = rand.NewPCG(c.Seed, streamPretrain)
 	ag.rng = rand.New(ag.pcg)
 	var err error
-	opt := skills.Optim{LearnRate: c.DiscRate, Method: c.DiscOptim}
+	opt := skills.Optim{StepSize: c.DiscStepSize, Method: c.DiscOptim}
 	switch c.Method {
 	case VMF:
 		ag.disc, err = skills.NewVMF(&skills.VMFConfig{In: n, Dim: c.Dim, Kappa: c.Kappa, Optim: opt}, ag.rng)
@@ -264,7 +264,7 @@ func (ag *Agent) init(n, na, capacity int, tab *usf.Tabular, buf *usf.Replay) er
 			ag.taskVector(ws[k], z)
 		}
 		var err error
-		tab, err = usf.NewTabular(n, na, ws, ag.cfg.SkillGamma, &usf.TabularConfig{Step: sf.StepSize{Alpha: ag.cfg.LearnRate}})
+		tab, err = usf.NewTabular(n, na, ws, ag.cfg.SkillGamma, &usf.TabularConfig{Schedule: sf.StepSchedule{StepSize: ag.cfg.StepSize}})
 		if err != nil {
 			return fmt.Errorf("transfer: %w: %w", ErrConfig, err)
 		}

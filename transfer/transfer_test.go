@@ -176,7 +176,7 @@ func TestConfigErrors(t *testing.T) {
 		{Dim: 1},
 		{Steps: -5},
 		{Epsilon: 2},
-		{LearnRate: 3},
+		{StepSize: 3},
 		{Method: 9},
 		{DiscOptim: 7},
 		{Method: transfer.Categorical, Skills: 4, Dim: 4}, // categorical features have K+1 = 5 entries
@@ -287,7 +287,7 @@ func TestResolveIdempotent(t *testing.T) {
 		{Method: transfer.Categorical, Skills: 6, Dim: 7},
 		{Method: transfer.Given, Features: f},
 		{Method: transfer.Random, Dim: 3, Skills: 5, Kappa: 2, Relabel: 2, Steps: 70, EpisodeSteps: 9, SkillGamma: 0.5,
-			Epsilon: 0.3, Batch: 4, Replay: 99, LearnRate: 0.7, DiscRate: 0.1, DiscOptim: skills.OptimSparseAdam, Seed: 4, ProgressEvery: 3},
+			Epsilon: 0.3, Batch: 4, Replay: 99, StepSize: 0.7, DiscStepSize: 0.1, DiscOptim: skills.OptimSparseAdam, Seed: 4, ProgressEvery: 3},
 	} {
 		once, err := c.Resolve()
 		if err != nil {
@@ -364,7 +364,7 @@ func TestConfigJSON(t *testing.T) {
 	want := map[string]any{
 		"method": "vmf", "skills": 32.0, "dim": 8.0, "kappa": 5.0, "relabel": 4.0, "steps": 100000.0,
 		"episode_steps": 50.0, "skill_gamma": 0.95, "epsilon": 0.2, "batch": 16.0, "replay": 50000.0,
-		"learn_rate": 0.2, "disc_rate": 0.03, "disc_optim": "adam", "seed": 0.0, "progress_every": 1000.0,
+		"step_size": 0.2, "disc_step_size": 0.03, "disc_optim": "adam", "seed": 0.0, "progress_every": 1000.0,
 	}
 	if !reflect.DeepEqual(p, want) {
 		t.Errorf("pretrain config json %v,\nwant %v", p, want)

@@ -123,7 +123,7 @@ func TestTabularRoundTrip(t *testing.T) {
 	p := randomProblem(t, 13, 6, 2, 2, 0.2)
 	rng := rand.New(rand.NewPCG(13, 13))
 	zs := unitVectors(rng, 3, 2)
-	tab, _ := NewTabular(6, 2, zs, p.gamma, &TabularConfig{Step: sf.StepSize{Alpha: 0.5, Power: 0.6}})
+	tab, _ := NewTabular(6, 2, zs, p.gamma, &TabularConfig{Schedule: sf.StepSchedule{StepSize: 0.5, Power: 0.6}})
 	sp := newSampler(p, zs)
 	b := NewBatch(8, 0, 2)
 	for range 30 {
@@ -216,7 +216,7 @@ func putInt(b []byte, off int, v uint64) []byte {
 // checksum, are refused as corrupt: giant and overflowing sizes, and visit
 // counts that no run can produce.
 func TestLoadOutOfRange(t *testing.T) {
-	tab, _ := NewTabular(3, 2, [][]float64{{1, 0}, {0, 1}}, 0.9, &TabularConfig{Step: sf.StepSize{Power: 0.5}})
+	tab, _ := NewTabular(3, 2, [][]float64{{1, 0}, {0, 1}}, 0.9, &TabularConfig{Schedule: sf.StepSchedule{Power: 0.5}})
 	tb := mustMarshal(t, tab)
 	visits := len(tb) - fileio.TrailerLen - 8*2*3*2 // payload offset of the visit counts, in the record
 	rep := indexReplay(t)
@@ -333,7 +333,7 @@ func FuzzLoadReplay(f *testing.F) {
 }
 
 func FuzzLoadTabular(f *testing.F) {
-	tab, _ := NewTabular(3, 2, [][]float64{{1, 0}, {0, 1}}, 0.9, &TabularConfig{Step: sf.StepSize{Power: 0.5}})
+	tab, _ := NewTabular(3, 2, [][]float64{{1, 0}, {0, 1}}, 0.9, &TabularConfig{Schedule: sf.StepSchedule{Power: 0.5}})
 	tab.Tables[1].Data[2] = -2
 	b := mustMarshal(f, tab)
 	f.Add(b)

@@ -155,14 +155,14 @@ func runDepot(t *testing.T, c depotCase) {
 	p, _ := depotProblem(t, 0.9)
 	n, na, d := p.m.NumStates(), p.m.NumActions(), p.phi.Dim()
 	held := unitVectors(rand.New(rand.NewPCG(77, 77)), 5, d)
-	u, err := NewNeural(n, na, d, p.gamma, &NeuralConfig{Hidden: c.hidden, LR: c.lr, TargetEvery: 50}, rand.New(rand.NewPCG(1, 2)))
+	u, err := NewNeural(n, na, d, p.gamma, &NeuralConfig{Hidden: c.hidden, StepSize: c.lr, TargetEvery: 50}, rand.New(rand.NewPCG(1, 2)))
 	if err != nil {
 		t.Fatal(err)
 	}
 	untrained := averageHeldOut(t, u, p, held)
 	trainDepotAnneal(t, u, p, c.updates, 64, rand.New(rand.NewPCG(3, 4)), func(k int) {
 		if k > 0 && k%(c.updates/4) == 0 {
-			u.SetLR(u.LR() / 2)
+			u.SetStepSize(u.StepSize() / 2)
 		}
 	})
 	got := averageHeldOut(t, u, p, held)

@@ -39,7 +39,7 @@
 //
 // Tabular keeps one sf.Table per z of a finite set Z (psi(s, a, z_k) =
 // T_k[s, a]); observations must be one-hot. Update is online TD(0) with
-// the per-(z, s, a) step schedule of sf.StepSize. UpdateRelabel is the
+// the per-(z, s, a) step schedule of sf.StepSchedule. UpdateRelabel is the
 // update of skill pretraining (Hansen et al. 2020, Algorithm 1), and the
 // one package transfer runs: every transition updates the z that acted
 // and a number of other z of the set drawn at random (off-policy

@@ -33,7 +33,7 @@ func TestSharedErrors(t *testing.T) {
 			errOf(usf.NewTabular(1, 1, [][]float64{{math.NaN()}}, 0.9, nil)),
 			usf.ErrNonFinite, errs.NonFinite, skills.ErrNonFinite},
 		{"config: negative step",
-			errOf(usf.NewTabular(1, 1, [][]float64{{1}}, 0.9, &usf.TabularConfig{Step: sf.StepSize{Alpha: -1}})),
+			errOf(usf.NewTabular(1, 1, [][]float64{{1}}, 0.9, &usf.TabularConfig{Schedule: sf.StepSchedule{StepSize: -1}})),
 			usf.ErrConfig, errs.Config, sf.ErrConfig},
 		{"config: nil rng",
 			errOf(usf.NewNeural(1, 1, 1, 0.9, nil, nil)),
@@ -64,7 +64,7 @@ func TestSharedErrors(t *testing.T) {
 // and gamma 1: psi is 1e308 after the first and phi + psi = +Inf at the
 // second (derived by hand).
 func diverge() error {
-	tab, err := usf.NewTabular(1, 1, [][]float64{{1}}, 1, &usf.TabularConfig{Step: sf.StepSize{Alpha: 1}})
+	tab, err := usf.NewTabular(1, 1, [][]float64{{1}}, 1, &usf.TabularConfig{Schedule: sf.StepSchedule{StepSize: 1}})
 	if err != nil {
 		return err
 	}

@@ -32,7 +32,7 @@ func ExampleTabular() {
 		return
 	}
 	zs := [][]float64{{1, 0}, {0, 1}}
-	tab, err := usf.NewTabular(2, 2, zs, 0.5, &usf.TabularConfig{Step: sf.StepSize{Alpha: 0.5}})
+	tab, err := usf.NewTabular(2, 2, zs, 0.5, &usf.TabularConfig{Schedule: sf.StepSchedule{StepSize: 0.5}})
 	if err != nil {
 		fmt.Println(err)
 		return
@@ -100,7 +100,7 @@ func ExampleCandidates() {
 // in state 0 are (1, 1) for move and (2, 0) for stay.
 func ExampleReplay_Entry() {
 	zs := [][]float64{{1, 0}, {0, 1}}
-	tab, err := usf.NewTabular(2, 2, zs, 0.5, &usf.TabularConfig{Step: sf.StepSize{Alpha: 1}})
+	tab, err := usf.NewTabular(2, 2, zs, 0.5, &usf.TabularConfig{Schedule: sf.StepSchedule{StepSize: 1}})
 	if err != nil {
 		fmt.Println(err)
 		return

@@ -23,7 +23,7 @@ import (
 // The cached action values are psi . z: 2 for z_0 and 0 for z_1.
 func ExampleTabular_UpdateRelabel() {
 	zs := [][]float64{{1, 0}, {0, 1}}
-	tab, err := usf.NewTabular(2, 2, zs, 0.5, &usf.TabularConfig{Step: sf.StepSize{Alpha: 1}})
+	tab, err := usf.NewTabular(2, 2, zs, 0.5, &usf.TabularConfig{Schedule: sf.StepSchedule{StepSize: 1}})
 	if err != nil {
 		fmt.Println(err)
 		return

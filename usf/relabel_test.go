@@ -54,14 +54,14 @@ func TestUpdateRelabelMatchesTD(t *testing.T) {
 			p := randomProblem(t, 11, 9, 3, 4, 0.25)
 			rng := rand.New(rand.NewPCG(4, 4))
 			zs := unitVectors(rng, 5, 4)
-			tab, err := NewTabular(9, 3, zs, p.gamma, &TabularConfig{Step: sf.StepSize{Alpha: alpha}})
+			tab, err := NewTabular(9, 3, zs, p.gamma, &TabularConfig{Schedule: sf.StepSchedule{StepSize: alpha}})
 			if err != nil {
 				t.Fatal(err)
 			}
 			ref := make([]*sf.TD, len(zs))
 			for k := range zs {
 				rt, _ := sf.NewTable(9, 3, 4)
-				ref[k], err = sf.NewTD(rt, p.phi, p.gamma, &sf.TDSettings{Target: sf.Sampled, Step: sf.StepSize{Alpha: alpha}})
+				ref[k], err = sf.NewTD(rt, p.phi, p.gamma, &sf.TDSettings{Target: sf.Sampled, Schedule: sf.StepSchedule{StepSize: alpha}})
 				if err != nil {
 					t.Fatal(err)
 				}
@@ -118,7 +118,7 @@ func TestUpdateRelabelLearnsOptimal(t *testing.T) {
 	p := randomProblemBranching(t, 5, 8, 3, 3, 1, 0.25)
 	rng := rand.New(rand.NewPCG(5, 98))
 	zs := wellSeparated(t, p, rng, 4, 3, 0.05)
-	tab, err := NewTabular(8, 3, zs, p.gamma, &TabularConfig{Step: sf.StepSize{Alpha: 1}})
+	tab, err := NewTabular(8, 3, zs, p.gamma, &TabularConfig{Schedule: sf.StepSchedule{StepSize: 1}})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -154,7 +154,7 @@ func TestTabularValuesCache(t *testing.T) {
 	p := randomProblem(t, 7, 7, 3, 3, 0.2)
 	rng := rand.New(rand.NewPCG(7, 7))
 	zs := unitVectors(rng, 3, 3)
-	tab, _ := NewTabular(7, 3, zs, p.gamma, &TabularConfig{Step: sf.StepSize{Alpha: 0.5}})
+	tab, _ := NewTabular(7, 3, zs, p.gamma, &TabularConfig{Schedule: sf.StepSchedule{StepSize: 0.5}})
 	sp := newSampler(p, zs)
 	b := NewBatch(8, 0, 3)
 	b.K = make([]int, 8)
@@ -222,7 +222,7 @@ func TestTabularValuesCache(t *testing.T) {
 // 0.5); derived by hand, see comments.
 func TestUpdateRelabelHand(t *testing.T) {
 	z := []float64{1, 0}
-	tab, _ := NewTabular(2, 2, [][]float64{z}, 0.5, &TabularConfig{Step: sf.StepSize{Alpha: 0.5}})
+	tab, _ := NewTabular(2, 2, [][]float64{z}, 0.5, &TabularConfig{Schedule: sf.StepSchedule{StepSize: 0.5}})
 	copy(tab.Tables[0].Row(1, 0), []float64{2, 0}) // Q(1, 0) = 2
 	copy(tab.Tables[0].Row(1, 1), []float64{0, 4}) // Q(1, 1) = 0: the greedy action in 1 is 0
 	if g := tab.Greedy(0, 1); g != 0 {
@@ -309,7 +309,7 @@ func TestUpdateRelabelAllocs(t *testing.T) {
 	p := randomProblem(t, 2, 10, 4, 8, 0.1)
 	rng := rand.New(rand.NewPCG(2, 2))
 	zs := unitVectors(rng, 16, 8)
-	tab, _ := NewTabular(10, 4, zs, p.gamma, &TabularConfig{Step: sf.StepSize{Alpha: 0.2}})
+	tab, _ := NewTabular(10, 4, zs, p.gamma, &TabularConfig{Schedule: sf.StepSchedule{StepSize: 0.2}})
 	b := NewBatch(16, 0, 8)
 	b.K = make([]int, 16)
 	newSampler(p, zs).fillK(b, rng)
@@ -332,7 +332,7 @@ func BenchmarkTabularUpdateRelabel(b *testing.B) {
 	rng := rand.New(rand.NewPCG(1, 1))
 	const states, actions, d, k = 200, 5, 64, 128
 	zs := unitVectors(rng, k, d)
-	tab, err := NewTabular(states, actions, zs, 0.99, &TabularConfig{Step: sf.StepSize{Alpha: 0.2}})
+	tab, err := NewTabular(states, actions, zs, 0.99, &TabularConfig{Schedule: sf.StepSchedule{StepSize: 0.2}})
 	if err != nil {
 		b.Fatal(err)
 	}

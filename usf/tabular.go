@@ -12,10 +12,11 @@ import (
 // TabularConfig configures a Tabular approximator. A nil *TabularConfig
 // means the zero value.
 type TabularConfig struct {
-	// Step is the step-size schedule, with the meaning of sf.StepSize
-	// (alpha_n = Alpha/(1+n)^Power after n earlier updates of the same
+	// Schedule is the step-size schedule, with the meaning of
+	// sf.StepSchedule (alpha_n = StepSize/(1+n)^Power after n earlier
+	// updates of the same
 	// (z, s, a)); the zero value is the constant step 0.1.
-	Step sf.StepSize
+	Schedule sf.StepSchedule
 }
 
 // Tabular is a universal SF over a finite set of vectors z_1..z_K: one
@@ -75,7 +76,7 @@ func NewTabular(states, actions int, zs [][]float64, gamma float64, cfg *Tabular
 	if cfg != nil {
 		c = *cfg
 	}
-	alpha, power, err := resolveStep(c.Step)
+	alpha, power, err := resolveStep(c.Schedule)
 	if err != nil {
 		return nil, fmt.Errorf("usf: tabular: %w", err)
 	}
@@ -192,15 +193,15 @@ func (t *Tabular) hashZ(z []float64) uint64 {
 	return h
 }
 
-// resolveStep applies the defaults of sf.StepSize.
-func resolveStep(st sf.StepSize) (alpha, power float64, err error) {
+// resolveStep applies the defaults of sf.StepSchedule.
+func resolveStep(st sf.StepSchedule) (alpha, power float64, err error) {
 	if !(st.Power >= 0 && st.Power <= 1) {
 		return 0, 0, fmt.Errorf("step power %v outside [0, 1]: %w", st.Power, ErrConfig)
 	}
-	if !(st.Alpha >= 0 && st.Alpha <= 1) {
-		return 0, 0, fmt.Errorf("step %v outside [0, 1]: %w", st.Alpha, ErrConfig)
+	if !(st.StepSize >= 0 && st.StepSize <= 1) {
+		return 0, 0, fmt.Errorf("step %v outside [0, 1]: %w", st.StepSize, ErrConfig)
 	}
-	alpha = st.Alpha
+	alpha = st.StepSize
 	if alpha == 0 {
 		alpha = 0.1
 		if st.Power > 0 {
