@@ -12,8 +12,9 @@ import (
 )
 
 // BaselineConfig configures the learners that start from scratch on the
-// task, with the same labelled budget as the pretrained agents. The zero
-// value means the documented defaults; Resolve fills them in. The
+// task, with the same labelled budget as the pretrained agents. A nil
+// *BaselineConfig and the zero value mean the documented defaults; Resolve
+// fills them in. The
 // discount is the task's (Experiment.TaskGamma), an argument of the
 // learners.
 type BaselineConfig struct {
@@ -67,8 +68,12 @@ func checkGamma(gamma float64) error {
 // epsilon-greedily on its own Q (ties at random, Q starts at 0), and
 // returns the greedy policy after each budget (ascending). seed determines
 // the run.
-func QBaseline(env transfer.Env, r mdp.Reward, gamma float64, budgets []int, cfg BaselineConfig, seed uint64) ([]mdp.Deterministic, error) {
-	c, err := cfg.Resolve()
+func QBaseline(env transfer.Env, r mdp.Reward, gamma float64, budgets []int, cfg *BaselineConfig, seed uint64) ([]mdp.Deterministic, error) {
+	var c BaselineConfig
+	if cfg != nil {
+		c = *cfg
+	}
+	c, err := c.Resolve()
 	if err != nil {
 		return nil, err
 	}
@@ -111,8 +116,12 @@ func QBaseline(env transfer.Env, r mdp.Reward, gamma float64, budgets []int, cfg
 // a* greedy in psi(s', .) . w, ties to the lowest action) and the constant
 // step cfg.StepSize, discount gamma. It returns the greedy policy after each
 // budget (ascending).
-func SFQBaseline(env transfer.Env, phi sf.FeatureMap, r mdp.Reward, gamma float64, budgets []int, cfg BaselineConfig, seed uint64) ([]mdp.Deterministic, error) {
-	c, err := cfg.Resolve()
+func SFQBaseline(env transfer.Env, phi sf.FeatureMap, r mdp.Reward, gamma float64, budgets []int, cfg *BaselineConfig, seed uint64) ([]mdp.Deterministic, error) {
+	var c BaselineConfig
+	if cfg != nil {
+		c = *cfg
+	}
+	c, err := c.Resolve()
 	if err != nil {
 		return nil, err
 	}
@@ -125,7 +134,7 @@ func SFQBaseline(env transfer.Env, phi sf.FeatureMap, r mdp.Reward, gamma float6
 		return nil, fmt.Errorf("experiment: sf q-learning: %w", err)
 	}
 	w := make([]float64, d)
-	td, err := sf.NewTD(tab, phi, gamma, &sf.TDSettings{Target: sf.Greedy, Task: w, Schedule: sf.StepSchedule{StepSize: c.StepSize}})
+	td, err := sf.NewTD(tab, phi, gamma, &sf.TDConfig{Target: sf.Greedy, Task: w, Schedule: sf.StepSchedule{StepSize: c.StepSize}})
 	if err != nil {
 		return nil, fmt.Errorf("experiment: sf q-learning: %w", err)
 	}

@@ -376,12 +376,12 @@ func (e *Experiment) adaptAll(ag *transfer.Agent, seed uint64, rewards []mdp.Rew
 	var recs []Record
 	vars := methodVariants(ag.Method(), e.Adapt)
 	for j, job := range e.Jobs {
-		lab, err := transfer.Collect(env, ag, rewards[j], maxB, e.Adapt, DeriveSeed(seed, 1000+uint64(j)))
+		lab, err := transfer.Collect(env, ag, rewards[j], maxB, &e.Adapt, DeriveSeed(seed, 1000+uint64(j)))
 		if err != nil {
 			return nil, err
 		}
 		for _, b := range e.Budgets {
-			inf, err := transfer.Infer(ag, lab[:b], e.Adapt)
+			inf, err := transfer.Infer(ag, lab[:b], &e.Adapt)
 			if err != nil {
 				return nil, fmt.Errorf("job %q: %w", job.Name, err)
 			}
@@ -391,7 +391,7 @@ func (e *Experiment) adaptAll(ag *transfer.Agent, seed uint64, rewards []mdp.Rew
 				if !v.GPI {
 					cfg.GPI = transfer.GPIOff
 				}
-				pol, err := ag.Policy(inf, cfg)
+				pol, err := ag.Policy(inf, &cfg)
 				if err != nil {
 					return nil, fmt.Errorf("job %q: %w", job.Name, err)
 				}
@@ -414,11 +414,11 @@ func (e *Experiment) runBaselines(seed uint64, rewards []mdp.Reward, refs []*tra
 	var recs []Record
 	for j, job := range e.Jobs {
 		env := mdp.NewSampler(e.Task, bc.EpisodeSteps)
-		qp, err := QBaseline(env, rewards[j], e.TaskGamma, e.Budgets, bc, DeriveSeed(seed, 2000+uint64(j)))
+		qp, err := QBaseline(env, rewards[j], e.TaskGamma, e.Budgets, &bc, DeriveSeed(seed, 2000+uint64(j)))
 		if err != nil {
 			return nil, err
 		}
-		sp, err := SFQBaseline(env, e.Places, rewards[j], e.TaskGamma, e.Budgets, bc, DeriveSeed(seed, 3000+uint64(j)))
+		sp, err := SFQBaseline(env, e.Places, rewards[j], e.TaskGamma, e.Budgets, &bc, DeriveSeed(seed, 3000+uint64(j)))
 		if err != nil {
 			return nil, err
 		}

@@ -31,7 +31,7 @@ const tinyLayout = `
 
 func tinyGrid(t testing.TB) (*mdp.Grid, *sf.Labels) {
 	t.Helper()
-	g, err := mdp.ParseGrid(tinyLayout, &mdp.GridOptions{Labels: map[rune]string{'A': "apple", 'B': "berry"}, Stay: true})
+	g, err := mdp.ParseGrid(tinyLayout, &mdp.GridConfig{Labels: map[rune]string{'A': "apple", 'B': "berry"}, Stay: true})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -198,7 +198,7 @@ func TestBaselinesLearn(t *testing.T) {
 	w, _ := g.Weights(map[string]float64{"berry": 1})
 	r, _ := g.PlaceReward(w)
 	env := mdp.NewSampler(g.MDP, 0)
-	pols, err := experiment.QBaseline(env, r, 0.9, []int{20000}, experiment.BaselineConfig{EpisodeSteps: 30}, 1)
+	pols, err := experiment.QBaseline(env, r, 0.9, []int{20000}, &experiment.BaselineConfig{EpisodeSteps: 30}, 1)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -210,7 +210,7 @@ func TestBaselinesLearn(t *testing.T) {
 		t.Errorf("q-learning scores %v after 20000 steps, want >= 0.99", ev.Score.Normalised)
 	}
 	f, _ := sf.GridLabels(g, false)
-	pols, err = experiment.SFQBaseline(env, f, r, 0.9, []int{20000}, experiment.BaselineConfig{EpisodeSteps: 30}, 1)
+	pols, err = experiment.SFQBaseline(env, f, r, 0.9, []int{20000}, &experiment.BaselineConfig{EpisodeSteps: 30}, 1)
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -34,9 +34,9 @@ func (sel *Selector) Policy(dst mdp.Deterministic, winners []int, w []float64, s
 	return nil
 }
 
-// EvaluateSettings configures Evaluate. A nil *EvaluateSettings and the zero
+// EvaluateConfig configures Evaluate. A nil *EvaluateConfig and the zero
 // value mean the defaults.
-type EvaluateSettings struct {
+type EvaluateConfig struct {
 	// Policies, if not nil, holds for every source i the policy pi_i whose
 	// successor features the source holds (exactly or approximately). Its
 	// exact values are the Evaluation's Sources, which is what Theorem 1 of
@@ -63,7 +63,7 @@ type Evaluation struct {
 	Policy mdp.Deterministic
 	// Winner[s] is the source that attains the maximum in state s.
 	Winner []int
-	// SourcePolicies[i] is source i's own policy (see EvaluateSettings).
+	// SourcePolicies[i] is source i's own policy (see EvaluateConfig).
 	SourcePolicies []mdp.Policy
 	// Sources[i] holds the exact values of SourcePolicies[i] for the task.
 	Sources []*mdp.Values
@@ -91,7 +91,7 @@ func (r *Evaluation) Improvement() []float64 {
 // Epsilon returns max_i max_{s,a} |Approx[i][s*A+a] - Sources[i].Q[s*A+a]|,
 // the measured eps of Theorem 1 of Barreto et al. (2017): how far each
 // source's estimate is from the exact value of its own policy. It is only
-// that eps when the sources' policies were given in EvaluateSettings.
+// that eps when the sources' policies were given in EvaluateConfig.
 func (r *Evaluation) Epsilon() float64 {
 	var e float64
 	for i, v := range r.Sources {
@@ -105,7 +105,7 @@ func (r *Evaluation) Epsilon() float64 {
 // Evaluate returns the exact value, on the finite MDP m, of the GPI policy
 // over sources for the task w with reward r(s,a,s') = phi(s,a,s') . w and
 // discount gamma, together with the exact values of each source's own
-// policy (see EvaluateSettings) so that the caller can see where GPI
+// policy (see EvaluateConfig) so that the caller can see where GPI
 // improves on which policy.
 //
 // The GPI policy pi(s) = argmax_a max_i psi_i(s, a) . w is built with Act
@@ -122,9 +122,9 @@ func (r *Evaluation) Epsilon() float64 {
 // (shapes of sources, phi, w, m, settings disagree), ErrNonFinite (w or a
 // GPE value is not finite) or the error of the mdp oracle (bad discount,
 // singular system).
-func Evaluate(m *mdp.Finite, sources []Source, phi sf.FeatureMap, w []float64, gamma float64, settings *EvaluateSettings) (*Evaluation, error) {
+func Evaluate(m *mdp.Finite, sources []Source, phi sf.FeatureMap, w []float64, gamma float64, settings *EvaluateConfig) (*Evaluation, error) {
 	if settings == nil {
-		settings = &EvaluateSettings{}
+		settings = &EvaluateConfig{}
 	}
 	n, na := m.NumStates(), m.NumActions()
 	if err := checkSources(sources, na, len(w), n); err != nil {

@@ -62,7 +62,7 @@ func ExampleEvaluate() {
 		}
 		src = append(src, tab)
 	}
-	res, err := gpi.Evaluate(m, src, phi, []float64{1}, gamma, &gpi.EvaluateSettings{Policies: pols})
+	res, err := gpi.Evaluate(m, src, phi, []float64{1}, gamma, &gpi.EvaluateConfig{Policies: pols})
 	if err != nil {
 		log.Fatal(err)
 	}
@@ -118,10 +118,10 @@ func ExampleSFQLearning() {
 	// 1 = optimal) at the start and at the end of each task, and the mean
 	// over all evaluations. GPI over the earlier tasks' SFs starts the
 	// later tasks near optimal; the Q table of the last task does not.
-	set := &gpi.LearnSettings{StepsPerTask: 20000}
+	set := &gpi.LearnConfig{StepsPerTask: 20000}
 	for _, run := range []struct {
 		name  string
-		learn func(*rand.Rand, *mdp.Finite, sf.FeatureMap, [][]float64, *gpi.LearnSettings, func(gpi.Progress)) (*gpi.LearnResult, error)
+		learn func(*rand.Rand, *mdp.Finite, sf.FeatureMap, [][]float64, *gpi.LearnConfig, func(gpi.Progress)) (*gpi.LearnResult, error)
 	}{{"SF Q-learning", gpi.SFQLearning}, {"Q-learning", gpi.QLearning}} {
 		res, err := run.learn(rand.New(rand.NewPCG(1, 2)), g.MDP, phi, tasks, set, nil)
 		if err != nil {

@@ -70,7 +70,7 @@ func TestGPIBeatsEverySource(t *testing.T) {
 		}
 		src[i] = tab
 	}
-	res, err := gpi.Evaluate(m, src, phi, w, gamma, &gpi.EvaluateSettings{Policies: pols})
+	res, err := gpi.Evaluate(m, src, phi, w, gamma, &gpi.EvaluateConfig{Policies: pols})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -203,7 +203,7 @@ func TestEvaluateErrors(t *testing.T) {
 		name string
 		src  []gpi.Source
 		w    []float64
-		set  *gpi.EvaluateSettings
+		set  *gpi.EvaluateConfig
 		want error
 	}{
 		{"no sources", nil, w, nil, gpi.ErrNoSources},
@@ -211,8 +211,8 @@ func TestEvaluateErrors(t *testing.T) {
 		{"shape", []gpi.Source{good, wide}, w, nil, gpi.ErrDimension},
 		{"w length", []gpi.Source{good}, []float64{1}, nil, gpi.ErrDimension},
 		{"w NaN", []gpi.Source{good}, []float64{math.NaN(), 0}, nil, gpi.ErrNonFinite},
-		{"policies", []gpi.Source{good}, w, &gpi.EvaluateSettings{Policies: []mdp.Policy{mdp.Uniform{N: 2}, mdp.Uniform{N: 2}}}, gpi.ErrDimension},
-		{"tasks", []gpi.Source{good}, w, &gpi.EvaluateSettings{Tasks: [][]float64{{1}}}, gpi.ErrDimension},
+		{"policies", []gpi.Source{good}, w, &gpi.EvaluateConfig{Policies: []mdp.Policy{mdp.Uniform{N: 2}, mdp.Uniform{N: 2}}}, gpi.ErrDimension},
+		{"tasks", []gpi.Source{good}, w, &gpi.EvaluateConfig{Tasks: [][]float64{{1}}}, gpi.ErrDimension},
 	} {
 		if _, err := gpi.Evaluate(m, c.src, phi, c.w, 0.9, c.set); !errors.Is(err, c.want) {
 			t.Errorf("%s: error %v, want %v", c.name, err, c.want)

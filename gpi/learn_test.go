@@ -72,7 +72,7 @@ func TestSFQLearningBeatsQLearning(t *testing.T) {
 	var sfq, ql, sfq0, ql0 float64
 	for seed := uint64(1); seed <= seeds; seed++ {
 		g, phi, tasks := depotTasks(t, seed, 10)
-		set := &gpi.LearnSettings{StepsPerTask: 4000}
+		set := &gpi.LearnConfig{StepsPerTask: 4000}
 		var calls int
 		a, err := gpi.SFQLearning(rand.New(rand.NewPCG(seed, 2)), g.MDP, phi, tasks, set, func(gpi.Progress) { calls++ })
 		if err != nil {
@@ -105,8 +105,8 @@ func TestSFQLearningBeatsQLearning(t *testing.T) {
 
 func TestLearnDeterministic(t *testing.T) {
 	g, phi, tasks := depotTasks(t, 9, 3)
-	set := &gpi.LearnSettings{StepsPerTask: 300, EvalEvery: 100}
-	for name, f := range map[string]func(*rand.Rand, *mdp.Finite, sf.FeatureMap, [][]float64, *gpi.LearnSettings, func(gpi.Progress)) (*gpi.LearnResult, error){
+	set := &gpi.LearnConfig{StepsPerTask: 300, EvalEvery: 100}
+	for name, f := range map[string]func(*rand.Rand, *mdp.Finite, sf.FeatureMap, [][]float64, *gpi.LearnConfig, func(gpi.Progress)) (*gpi.LearnResult, error){
 		"sfq": gpi.SFQLearning, "ql": gpi.QLearning,
 	} {
 		a, err := f(rand.New(rand.NewPCG(5, 5)), g.MDP, phi, tasks, set, nil)
@@ -141,16 +141,16 @@ func TestLearnErrors(t *testing.T) {
 		name  string
 		rng   *rand.Rand
 		tasks [][]float64
-		set   *gpi.LearnSettings
+		set   *gpi.LearnConfig
 		want  error
 	}{
 		{"nil rng", nil, tasks, nil, gpi.ErrConfig},
 		{"no tasks", rng, nil, nil, gpi.ErrNoSources},
 		{"task length", rng, [][]float64{{1}}, nil, gpi.ErrDimension},
-		{"gamma", rng, tasks, &gpi.LearnSettings{Gamma: 1}, gpi.ErrDiscount},
-		{"epsilon", rng, tasks, &gpi.LearnSettings{Epsilon: 2}, gpi.ErrConfig},
-		{"step size", rng, tasks, &gpi.LearnSettings{StepSize: -1}, gpi.ErrConfig},
-		{"steps", rng, tasks, &gpi.LearnSettings{StepsPerTask: -1}, gpi.ErrConfig},
+		{"gamma", rng, tasks, &gpi.LearnConfig{Gamma: 1}, gpi.ErrDiscount},
+		{"epsilon", rng, tasks, &gpi.LearnConfig{Epsilon: 2}, gpi.ErrConfig},
+		{"step size", rng, tasks, &gpi.LearnConfig{StepSize: -1}, gpi.ErrConfig},
+		{"steps", rng, tasks, &gpi.LearnConfig{StepsPerTask: -1}, gpi.ErrConfig},
 		{"zero task", rng, zero, nil, gpi.ErrConfig}, // every policy has return 0
 	} {
 		if _, err := gpi.SFQLearning(c.rng, g.MDP, phi, c.tasks, c.set, nil); !errors.Is(err, c.want) {

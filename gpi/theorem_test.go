@@ -35,7 +35,7 @@ func randomProblem(t *testing.T, rng *rand.Rand) problem {
 	if rng.IntN(3) == 0 {
 		frac = 0.2 // some runs with terminal states
 	}
-	m, err := mdp.RandomFinite(rng, mdp.RandomConfig{States: n, Actions: na, Branching: 1 + rng.IntN(3), TerminalFraction: frac, SelfLoops: rng.IntN(2) == 0})
+	m, err := mdp.RandomFinite(rng, &mdp.RandomConfig{States: n, Actions: na, Branching: 1 + rng.IntN(3), TerminalFraction: frac, SelfLoops: rng.IntN(2) == 0})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -88,7 +88,7 @@ func TestTheorem1(t *testing.T) {
 			}
 			src[i] = tab
 		}
-		res, err := gpi.Evaluate(p.m, src, p.phi, p.w, p.gamma, &gpi.EvaluateSettings{Policies: pols})
+		res, err := gpi.Evaluate(p.m, src, p.phi, p.w, p.gamma, &gpi.EvaluateConfig{Policies: pols})
 		if err != nil {
 			t.Fatalf("run %d: %v", run, err)
 		}
@@ -166,7 +166,7 @@ func TestTheorem1Approximate(t *testing.T) {
 			}
 			src[i] = perturbed(rng, tab, p.w, eps)
 		}
-		res, err := gpi.Evaluate(p.m, src, p.phi, p.w, p.gamma, &gpi.EvaluateSettings{Policies: pols})
+		res, err := gpi.Evaluate(p.m, src, p.phi, p.w, p.gamma, &gpi.EvaluateConfig{Policies: pols})
 		if err != nil {
 			t.Fatalf("run %d: %v", run, err)
 		}

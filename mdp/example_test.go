@@ -42,7 +42,7 @@ func ExampleParseGrid() {
 		S.G
 		...
 	`
-	g, err := mdp.ParseGrid(layout, &mdp.GridOptions{
+	g, err := mdp.ParseGrid(layout, &mdp.GridConfig{
 		Labels:   map[rune]string{'G': "goal"},
 		Terminal: []string{"goal"},
 	})

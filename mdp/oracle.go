@@ -307,7 +307,7 @@ func (o *Solver) solve(v []float64, p *linalg.CSR, gamma float64, b []float64, w
 		return SolveReport{Method: "dense LU"}, nil
 	}
 	if gamma < 1 {
-		res, err := linalg.SolveIterative(v, p, gamma, b, &linalg.IterSettings{Tol: s.Tol, MaxIter: s.MaxIter, UseInitial: warm})
+		res, err := linalg.SolveIterative(v, p, gamma, b, &linalg.IterConfig{Tol: s.Tol, MaxIter: s.MaxIter, UseInitial: warm})
 		if err != nil {
 			return SolveReport{}, fmt.Errorf("iterative solve: %w", err)
 		}

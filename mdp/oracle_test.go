@@ -306,7 +306,7 @@ func TestOptimalBruteForce(t *testing.T) {
 		rng := rand.New(rand.NewPCG(seed, 11))
 		n := 2 + rng.IntN(4)
 		na := 2 + rng.IntN(2)
-		m, err := RandomFinite(rng, RandomConfig{States: n, Actions: na, Branching: 2, TerminalFraction: 0.2})
+		m, err := RandomFinite(rng, &RandomConfig{States: n, Actions: na, Branching: 2, TerminalFraction: 0.2})
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -353,7 +353,7 @@ func TestOptimalBruteForce(t *testing.T) {
 func TestBellmanIdentities(t *testing.T) {
 	for seed := uint64(1); seed <= 10; seed++ {
 		rng := rand.New(rand.NewPCG(seed, 12))
-		m, err := RandomFinite(rng, RandomConfig{States: 30, Actions: 3, Branching: 4, TerminalFraction: 0.1})
+		m, err := RandomFinite(rng, &RandomConfig{States: 30, Actions: 3, Branching: 4, TerminalFraction: 0.1})
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -397,7 +397,7 @@ func TestBellmanIdentities(t *testing.T) {
 // a dense LU is the reference for the sparse iterative solver).
 func TestDenseIterativeAgree(t *testing.T) {
 	rng := rand.New(rand.NewPCG(3, 3))
-	m, err := RandomFinite(rng, RandomConfig{States: 200, Actions: 4, Branching: 5, TerminalFraction: 0.05})
+	m, err := RandomFinite(rng, &RandomConfig{States: 200, Actions: 4, Branching: 5, TerminalFraction: 0.05})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -426,7 +426,7 @@ func TestDenseIterativeAgree(t *testing.T) {
 // entry by entry on a random MDP.
 func TestChains(t *testing.T) {
 	rng := rand.New(rand.NewPCG(5, 5))
-	m, err := RandomFinite(rng, RandomConfig{States: 12, Actions: 3, Branching: 3, TerminalFraction: 0.25})
+	m, err := RandomFinite(rng, &RandomConfig{States: 12, Actions: 3, Branching: 3, TerminalFraction: 0.25})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -581,7 +581,7 @@ func panics(f func()) (p bool) {
 func TestStateActionChainGivesQ(t *testing.T) {
 	for seed := uint64(1); seed <= 5; seed++ {
 		rng := rand.New(rand.NewPCG(seed, 21))
-		m, err := RandomFinite(rng, RandomConfig{States: 25, Actions: 3, Branching: 3, TerminalFraction: 0.2})
+		m, err := RandomFinite(rng, &RandomConfig{States: 25, Actions: 3, Branching: 3, TerminalFraction: 0.2})
 		if err != nil {
 			t.Fatal(err)
 		}

@@ -6,8 +6,8 @@ import (
 	"math/rand/v2"
 )
 
-// RandomConfig configures RandomFinite. The zero value means the
-// documented defaults.
+// RandomConfig configures RandomFinite. A nil *RandomConfig and the zero
+// value mean the documented defaults.
 type RandomConfig struct {
 	// States is the number of states. 0 means 10.
 	States int
@@ -31,7 +31,11 @@ type RandomConfig struct {
 // over the non-terminal states. The same rng state gives the same MDP.
 // The error wraps ErrDimension for negative sizes or a
 // TerminalFraction outside [0, 1).
-func RandomFinite(rng *rand.Rand, cfg RandomConfig) (*Finite, error) {
+func RandomFinite(rng *rand.Rand, c *RandomConfig) (*Finite, error) {
+	var cfg RandomConfig
+	if c != nil {
+		cfg = *c
+	}
 	n, na, b := cfg.States, cfg.Actions, cfg.Branching
 	if n == 0 {
 		n = 10

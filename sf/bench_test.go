@@ -90,7 +90,7 @@ func benchTD(b *testing.B, ns, na, d int, target Target, step StepSchedule) {
 	if err != nil {
 		b.Fatal(err)
 	}
-	l, err := NewTD(t, phi, 0.9, &TDSettings{Target: target, Policy: mdp.Uniform{N: na}, Task: w, Schedule: step})
+	l, err := NewTD(t, phi, 0.9, &TDConfig{Target: target, Policy: mdp.Uniform{N: na}, Task: w, Schedule: step})
 	if err != nil {
 		b.Fatal(err)
 	}
@@ -153,7 +153,7 @@ func BenchmarkTDRatio(b *testing.B) {
 				for k := range w {
 					w[k] = float64(k%5) - 2
 				}
-				l, err := NewTD(t, phi, 0.9, &TDSettings{Target: target, Policy: mdp.Uniform{N: na}, Task: w, Schedule: StepSchedule{StepSize: 0.1}})
+				l, err := NewTD(t, phi, 0.9, &TDConfig{Target: target, Policy: mdp.Uniform{N: na}, Task: w, Schedule: StepSchedule{StepSize: 0.1}})
 				if err != nil {
 					b.Fatal(err)
 				}
@@ -211,7 +211,7 @@ func BenchmarkLinearTD(b *testing.B) {
 	for _, target := range []Target{Sampled, Expected, Greedy} {
 		b.Run(fmt.Sprintf("%v/d=%d/x=%d", target, d, m), func(b *testing.B) {
 			lin, _ := NewLinear(na, d, m)
-			lt, err := NewLinearTD(lin, 0.9, &LinearTDSettings{Target: target, Task: w, Schedule: StepSchedule{StepSize: 0.01},
+			lt, err := NewLinearTD(lin, 0.9, &LinearTDConfig{Target: target, Task: w, Schedule: StepSchedule{StepSize: 0.01},
 				Policy: func(dst, x []float64) { dst[0], dst[1], dst[2], dst[3] = 0.25, 0.25, 0.25, 0.25 }})
 			if err != nil {
 				b.Fatal(err)
@@ -251,7 +251,7 @@ func BenchmarkDepotRun(b *testing.B) {
 			for b.Loop() {
 				t0 := time.Now()
 				tb, _ := NewTable(m.NumStates(), na, phi.Dim())
-				l, err := NewTD(tb, phi, 0.95, &TDSettings{Target: target, Policy: mdp.Uniform{N: na}, Schedule: StepSchedule{Power: 0.75}})
+				l, err := NewTD(tb, phi, 0.95, &TDConfig{Target: target, Policy: mdp.Uniform{N: na}, Schedule: StepSchedule{Power: 0.75}})
 				if err != nil {
 					b.Fatal(err)
 				}

@@ -87,7 +87,7 @@ func ExampleTD() {
 		log.Fatal(err)
 	}
 	t, _ := sf.NewTable(7, 2, 7)
-	td, err := sf.NewTD(t, phi, 1, &sf.TDSettings{Target: sf.Expected, Policy: pi, Schedule: sf.StepSchedule{Power: 0.6}})
+	td, err := sf.NewTD(t, phi, 1, &sf.TDConfig{Target: sf.Expected, Policy: pi, Schedule: sf.StepSchedule{Power: 0.6}})
 	if err != nil {
 		log.Fatal(err)
 	}
@@ -162,7 +162,7 @@ func Example_customFeatureMap() {
 	fmt.Printf("value of C: %.3f\n", 0.5*(psi.Q(3, 0, []float64{10, -1})+psi.Q(3, 1, []float64{10, -1})))
 
 	t, _ := sf.NewTable(7, 2, 2)
-	td, err := sf.NewTD(t, corner{}, 1, &sf.TDSettings{Schedule: sf.StepSchedule{StepSize: 1}})
+	td, err := sf.NewTD(t, corner{}, 1, &sf.TDConfig{Schedule: sf.StepSchedule{StepSize: 1}})
 	if err != nil {
 		log.Fatal(err)
 	}

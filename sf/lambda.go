@@ -27,9 +27,9 @@ func (t Trace) String() string {
 	return fmt.Sprintf("Trace(%d)", int(t))
 }
 
-// LambdaSettings configures a TDLambda learner. A nil *LambdaSettings means
+// TDLambdaConfig configures a TDLambda learner. A nil *TDLambdaConfig means
 // the zero value: lambda 0, accumulating traces, constant step 0.1.
-type LambdaSettings struct {
+type TDLambdaConfig struct {
 	// Lambda is the trace decay, in [0, 1]. 0 gives TD(0).
 	Lambda float64
 	// Trace is the kind of trace.
@@ -83,9 +83,9 @@ type TDLambda struct {
 // features phi and discount gamma in [0, 1]. Errors wrap ErrDiscount,
 // ErrDimension or ErrConfig (lambda outside [0, 1], an unknown trace, a
 // bad step).
-func NewTDLambda(t *Table, phi FeatureMap, gamma float64, s *LambdaSettings) (*TDLambda, error) {
+func NewTDLambda(t *Table, phi FeatureMap, gamma float64, s *TDLambdaConfig) (*TDLambda, error) {
 	if s == nil {
-		s = &LambdaSettings{}
+		s = &TDLambdaConfig{}
 	}
 	if !(gamma >= 0 && gamma <= 1) {
 		return nil, fmt.Errorf("sf: td lambda: gamma %v outside [0, 1]: %w", gamma, ErrDiscount)

@@ -117,9 +117,9 @@ func (sc *schedule) step(i int) float64 {
 	return sc.alpha * math.Exp(-sc.power*math.Log(n))
 }
 
-// TDSettings configures a TD learner. A nil *TDSettings means the zero value:
+// TDConfig configures a TD learner. A nil *TDConfig means the zero value:
 // the Sampled target with the constant step 0.1.
-type TDSettings struct {
+type TDConfig struct {
 	Target Target
 	// Policy is the target policy of Expected; it is read once, at every
 	// state (terminal ones included), when the learner is made. Required
@@ -182,9 +182,9 @@ type TD struct {
 // ErrDimension (phi.Dim() != t.D, a task or policy of the wrong size),
 // ErrConfig (a missing policy or task, an unknown target or a bad step)
 // or linalg.ErrNotStochastic (a policy that is not a distribution).
-func NewTD(t *Table, phi FeatureMap, gamma float64, s *TDSettings) (*TD, error) {
+func NewTD(t *Table, phi FeatureMap, gamma float64, s *TDConfig) (*TD, error) {
 	if s == nil {
-		s = &TDSettings{}
+		s = &TDConfig{}
 	}
 	if !(gamma >= 0 && gamma <= 1) {
 		return nil, fmt.Errorf("sf: td: gamma %v outside [0, 1]: %w", gamma, ErrDiscount)

@@ -16,8 +16,8 @@ func TestFeatureMapLiveFrozen(t *testing.T) {
 	// phi . TaskVector(z) is the discriminator's reward.
 	const ns = 6
 	rng := rand.New(rand.NewPCG(2, 2))
-	v, _ := NewVMF(&VMFConfig{In: ns, Dim: 3, Optim: Optim{StepSize: 0.1}}, rng)
-	s, _ := NewSoftmax(&SoftmaxConfig{In: ns, K: 3, Optim: Optim{StepSize: 0.1}}, rng)
+	v, _ := NewVMF(&VMFConfig{In: ns, Dim: 3, Optim: OptimConfig{StepSize: 0.1}}, rng)
+	s, _ := NewSoftmax(&SoftmaxConfig{In: ns, K: 3, Optim: OptimConfig{StepSize: 0.1}}, rng)
 	for _, d := range []Discriminator{v, s} {
 		live, err := NewFeatureMap(d, nil)
 		if err != nil {

@@ -102,9 +102,9 @@ func TestLearnGridSoftmax(t *testing.T) {
 		skills[i][i] = 1
 	}
 	p := Categorical{K: k}
-	for _, net := range []Net{{}, {Hidden: []int{16}, MaxBatch: 32}} {
+	for _, net := range []NetConfig{{}, {Hidden: []int{16}, MaxBatch: 32}} {
 		rng := rand.New(rand.NewPCG(7, 1))
-		s, err := NewSoftmax(&SoftmaxConfig{In: ns, K: k, Net: net, Optim: Optim{StepSize: 0.05}}, rng)
+		s, err := NewSoftmax(&SoftmaxConfig{In: ns, K: k, Net: net, Optim: OptimConfig{StepSize: 0.05}}, rng)
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -140,12 +140,12 @@ func TestLearnGridVMF(t *testing.T) {
 	ns := gridSide * gridSide
 	p := UniformSphere{D: d}
 	for _, tc := range []struct {
-		net   Net
+		net   NetConfig
 		learn bool
 	}{
-		{Net{}, false},
-		{Net{}, true},
-		{Net{Hidden: []int{16}, Tanh: true}, false},
+		{NetConfig{}, false},
+		{NetConfig{}, true},
+		{NetConfig{Hidden: []int{16}, Tanh: true}, false},
 	} {
 		rng := rand.New(rand.NewPCG(8, 1))
 		skills := make([][]float64, k)
@@ -153,7 +153,7 @@ func TestLearnGridVMF(t *testing.T) {
 			skills[i] = make([]float64, d)
 			p.Sample(skills[i], rng)
 		}
-		v, err := NewVMF(&VMFConfig{In: ns, Dim: d, Net: tc.net, Kappa: 5, LearnKappa: tc.learn, Optim: Optim{StepSize: 0.05}}, rng)
+		v, err := NewVMF(&VMFConfig{In: ns, Dim: d, Net: tc.net, Kappa: 5, LearnKappa: tc.learn, Optim: OptimConfig{StepSize: 0.05}}, rng)
 		if err != nil {
 			t.Fatal(err)
 		}

@@ -62,12 +62,12 @@ func (m *OptimMethod) UnmarshalText(b []byte) error {
 	return fmt.Errorf("skills: unknown optimiser %q (want adam or sparse-adam): %w", b, ErrConfig)
 }
 
-// Optim holds the optimiser settings shared by the discriminators. Every
+// OptimConfig holds the optimiser settings shared by the discriminators. Every
 // update is one step of Adam (Kingma & Ba 2015, Algorithm 1), dense or
 // sparse (see OptimMethod), on the mean loss of a minibatch, after optional
 // global gradient-norm clipping (Pascanu et al. 2013, Algorithm 1). Zero
 // fields mean the defaults.
-type Optim struct {
+type OptimConfig struct {
 	// Method selects dense Adam (the zero value) or sparse Adam.
 	Method OptimMethod
 	// StepSize is the Adam step size alpha. 0 means 1e-3.
@@ -83,13 +83,13 @@ type Optim struct {
 }
 
 // resolve returns o with defaults filled in, or an error wrapping ErrConfig.
-func (o Optim) resolve() (Optim, error) {
+func (o OptimConfig) resolve() (OptimConfig, error) {
 	c := nn.AdamConfig{StepSize: o.StepSize, Beta1: o.Beta1, Beta2: o.Beta2, Eps: o.Eps}.WithDefaults()
 	o.StepSize, o.Beta1, o.Beta2, o.Eps = c.StepSize, c.Beta1, c.Beta2, c.Eps
 	return o, o.check()
 }
 
-func (o Optim) check() error {
+func (o OptimConfig) check() error {
 	switch {
 	case !(o.StepSize > 0) || math.IsInf(o.StepSize, 0):
 		return fmt.Errorf("learn rate %g: %w", o.StepSize, ErrConfig)
@@ -110,7 +110,7 @@ func (o Optim) check() error {
 // newAdam returns an Adam optimiser (internal/nn) for n parameters with the
 // hyperparameters of o, taken as they are: o is resolved or checked already,
 // and a zero Beta1 read from a file stays zero.
-func newAdam(n int, o *Optim) *nn.Adam {
+func newAdam(n int, o *OptimConfig) *nn.Adam {
 	a := nn.NewAdam(n, nil)
 	a.StepSize, a.Beta1, a.Beta2, a.Eps = o.StepSize, o.Beta1, o.Beta2, o.Eps
 	return a
@@ -118,7 +118,7 @@ func newAdam(n int, o *Optim) *nn.Adam {
 
 // checkNet reports an error wrapping ErrConfig if o cannot train the map
 // described by net: sparse Adam needs a linear f.
-func (o Optim) checkNet(net *Net) error {
+func (o OptimConfig) checkNet(net *NetConfig) error {
 	if o.Method == OptimSparseAdam && len(net.Hidden) > 0 {
 		return fmt.Errorf("optimiser %v needs a linear net, have %d hidden layers: %w", o.Method, len(net.Hidden), ErrConfig)
 	}

@@ -17,7 +17,7 @@ type VMFConfig struct {
 	// Dim is d, the length of a skill z on the sphere S^{d-1} (required, >= 2).
 	Dim int
 	// Net describes f; the zero value is linear.
-	Net Net
+	Net NetConfig
 	// Kappa is the concentration kappa, or its starting value when
 	// LearnKappa is set. 0 means 1.
 	Kappa float64
@@ -28,7 +28,7 @@ type VMFConfig struct {
 	// MaxKappa caps a learned kappa. 0 means 1000.
 	MaxKappa float64
 	// Optim sets the optimiser.
-	Optim Optim
+	Optim OptimConfig
 }
 
 // minKappa is the smallest learned kappa.
@@ -49,7 +49,7 @@ const minNorm = 1e-100
 type VMF struct {
 	core
 	dim      int
-	net      Net
+	net      NetConfig
 	learn    bool
 	maxKappa float64
 	kappa    float64
@@ -160,7 +160,7 @@ func (v *VMF) LogNorm() float64 { return v.logNorm }
 func (v *VMF) Steps() int { return v.steps }
 
 // Optim returns the optimiser settings, defaults filled in.
-func (v *VMF) Optim() Optim { return v.opt }
+func (v *VMF) Optim() OptimConfig { return v.opt }
 
 // Features writes phi(x) = f(x)/||f(x)|| into dst. It panics if
 // len(dst) != d or len(x) != InDim().

@@ -43,8 +43,8 @@ type Labelled struct {
 // task is revealed. The rules never look ahead at k, so the first j
 // transitions of a collection of k are a collection of j. seed determines
 // the draws.
-func Collect(env mdp.Env, ag *Agent, reward mdp.Reward, k int, cfg AdaptConfig, seed uint64) ([]Labelled, error) {
-	c, err := cfg.Resolve()
+func Collect(env mdp.Env, ag *Agent, reward mdp.Reward, k int, cfg *AdaptConfig, seed uint64) ([]Labelled, error) {
+	c, err := orZero(cfg).Resolve()
 	if err != nil {
 		return nil, err
 	}
@@ -84,9 +84,9 @@ func Collect(env mdp.Env, ag *Agent, reward mdp.Reward, k int, cfg AdaptConfig, 
 		for t := 0; t < c.EpisodeSteps && len(out) < k; t++ {
 			greedy := c.Explore == ExploreGreedy && len(out) >= c.Warmup
 			if greedy && (len(out)-c.Warmup)%c.SwitchEvery == 0 {
-				inf, err := Infer(ag, out, c)
+				inf, err := Infer(ag, out, &c)
 				if err == nil {
-					pol, err = ag.Policy(inf, c)
+					pol, err = ag.Policy(inf, &c)
 				}
 				if err != nil {
 					return nil, fmt.Errorf("transfer: collect: %w", err)
@@ -247,8 +247,8 @@ func inferCV(ag *Agent, labelled []Labelled, grid []float64) (*Inference, error)
 // ErrConfig for an invalid cfg or penalty, and ErrDiverged if the
 // regression fails (for example rank-deficient features with lambda = 0,
 // or a zero w to normalise).
-func Infer(ag *Agent, labelled []Labelled, cfg AdaptConfig) (*Inference, error) {
-	c, err := cfg.Resolve()
+func Infer(ag *Agent, labelled []Labelled, cfg *AdaptConfig) (*Inference, error) {
+	c, err := orZero(cfg).Resolve()
 	if err != nil {
 		return nil, err
 	}
@@ -303,16 +303,16 @@ func (p *Policy) Act(s int) int { return p.Actions[s] }
 // label, but it is model-based evaluation of the inferred task, not
 // successor-feature transfer; state-action pairs never tried have no
 // fitted value and are left to the skills.
-func Adapt(ag *Agent, labelled []Labelled, cfg AdaptConfig) (*Policy, error) {
-	c, err := cfg.Resolve()
+func Adapt(ag *Agent, labelled []Labelled, cfg *AdaptConfig) (*Policy, error) {
+	c, err := orZero(cfg).Resolve()
 	if err != nil {
 		return nil, err
 	}
-	inf, err := Infer(ag, labelled, c)
+	inf, err := Infer(ag, labelled, &c)
 	if err != nil {
 		return nil, err
 	}
-	return ag.Policy(inf, c)
+	return ag.Policy(inf, &c)
 }
 
 // Policy returns the acting policy for an inferred task,
@@ -326,8 +326,8 @@ func Adapt(ag *Agent, labelled []Labelled, cfg AdaptConfig) (*Policy, error) {
 // similar skill, then to the lowest action. It returns an error wrapping
 // ErrNoData if a fit is asked for and there are no reward-free transitions,
 // ErrDiverged, or ErrConfig.
-func (ag *Agent) Policy(inf *Inference, cfg AdaptConfig) (*Policy, error) {
-	c, err := cfg.Resolve()
+func (ag *Agent) Policy(inf *Inference, cfg *AdaptConfig) (*Policy, error) {
+	c, err := orZero(cfg).Resolve()
 	if err != nil {
 		return nil, err
 	}

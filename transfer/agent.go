@@ -202,7 +202,7 @@ func newAgent(n, na int, c PretrainConfig) (*Agent, error) {
 	ag.pcg = rand.NewPCG(c.Seed, streamPretrain)
 	ag.rng = rand.New(ag.pcg)
 	var err error
-	opt := skills.Optim{StepSize: c.DiscStepSize, Method: c.DiscOptim}
+	opt := skills.OptimConfig{StepSize: c.DiscStepSize, Method: c.DiscOptim}
 	switch c.Method {
 	case VMF:
 		ag.disc, err = skills.NewVMF(&skills.VMFConfig{In: n, Dim: c.Dim, Kappa: c.Kappa, Optim: opt}, ag.rng)

@@ -231,7 +231,7 @@ func Unmarshal(data []byte) (*Agent, error) {
 		if c.Method == Categorical {
 			zd = c.Skills
 		}
-		var opt skills.Optim
+		var opt skills.OptimConfig
 		switch d := disc.(type) {
 		case *skills.VMF:
 			opt = d.Optim()

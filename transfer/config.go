@@ -175,7 +175,7 @@ type PretrainConfig struct {
 	// StepSize is the TD step size of the successor features, in (0, 1].
 	// 0 means 0.2.
 	StepSize float64 `json:"step_size"`
-	// DiscStepSize is the Adam step size of the discriminator (skills.Optim
+	// DiscStepSize is the Adam step size of the discriminator (skills.OptimConfig
 	// StepSize). 0 means 0.03.
 	DiscStepSize float64 `json:"disc_step_size"`
 	// DiscOptim is the discriminator's optimiser. The zero value is dense
@@ -557,4 +557,13 @@ func setI(p *int, def int) {
 	if *p == 0 {
 		*p = def
 	}
+}
+
+// orZero returns *p, or the zero value (every default) for a nil p.
+func orZero[T any](p *T) T {
+	if p == nil {
+		var z T
+		return z
+	}
+	return *p
 }

@@ -129,8 +129,9 @@
 //
 // # Configuration
 //
-// PretrainConfig and AdaptConfig are plain structs whose zero value means
-// the documented defaults. Resolve fills them in; resolving twice gives the
+// PretrainConfig, ResumeConfig and AdaptConfig are plain structs whose zero
+// value means the documented defaults; the functions take a pointer, and
+// nil means the zero value. Resolve fills them in; resolving twice gives the
 // same configuration, and "off" is never written as "default": the ridge
 // rule (RidgeCV or RidgeFixed) and GPI (GPIOn or GPIOff) are fields of
 // their own, and "no relabelling" and "no random actions" are recorded as

@@ -16,14 +16,14 @@ func Example() {
 		#A...B#
 		#.....#
 		#..S..#
-		#######`, &mdp.GridOptions{Labels: map[rune]string{'A': "apple", 'B': "berry"}, Stay: true})
+		#######`, &mdp.GridConfig{Labels: map[rune]string{'A': "apple", 'B': "berry"}, Stay: true})
 	if err != nil {
 		fmt.Println(err)
 		return
 	}
 	// Reward-free pretraining, dropped anywhere in the room.
 	explore, _ := mdp.WithStart(g.MDP, mdp.UniformStart(g.MDP))
-	agent, err := transfer.Pretrain(mdp.NewSampler(explore, 0), transfer.PretrainConfig{
+	agent, err := transfer.Pretrain(mdp.NewSampler(explore, 0), &transfer.PretrainConfig{
 		Dim: 8, Skills: 16, Steps: 4000, EpisodeSteps: 20, SkillGamma: 0.95, Seed: 1,
 	})
 	if err != nil {
@@ -39,12 +39,12 @@ func Example() {
 	// cross-validation (Infer); the policy is GPI over the universal
 	// SFs of the 8 skills nearest the inferred task.
 	cfg := transfer.AdaptConfig{EpisodeSteps: 50, SwitchEvery: 10}
-	labelled, err := transfer.Collect(env, agent, reward, 200, cfg, 2)
+	labelled, err := transfer.Collect(env, agent, reward, 200, &cfg, 2)
 	if err != nil {
 		fmt.Println(err)
 		return
 	}
-	policy, err := transfer.Adapt(agent, labelled, cfg)
+	policy, err := transfer.Adapt(agent, labelled, &cfg)
 	if err != nil {
 		fmt.Println(err)
 		return

@@ -20,7 +20,7 @@ const roomLayout = `
 
 func room(t testing.TB) (*mdp.Grid, *sf.Labels) {
 	t.Helper()
-	g, err := mdp.ParseGrid(roomLayout, &mdp.GridOptions{Labels: map[rune]string{'A': "apple", 'B': "berry"}, Stay: true})
+	g, err := mdp.ParseGrid(roomLayout, &mdp.GridConfig{Labels: map[rune]string{'A': "apple", 'B': "berry"}, Stay: true})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -37,7 +37,7 @@ func room(t testing.TB) (*mdp.Grid, *sf.Labels) {
 // equations are solved exactly up to the lambda = 1e-12 bias).
 func TestInferTaskExact(t *testing.T) {
 	g, f := room(t)
-	ag, err := newAgent(g.NumStates(), g.MDP.NumActions(), mustDefaults(t, PretrainConfig{Method: Given, Features: f}))
+	ag, err := newAgent(g.NumStates(), g.MDP.NumActions(), mustDefaults(t, &PretrainConfig{Method: Given, Features: f}))
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -67,9 +67,9 @@ func TestInferTaskExact(t *testing.T) {
 	}
 }
 
-func mustDefaults(t testing.TB, c PretrainConfig) PretrainConfig {
+func mustDefaults(t testing.TB, cfg *PretrainConfig) PretrainConfig {
 	t.Helper()
-	c, err := c.Resolve()
+	c, err := cfg.Resolve()
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -130,7 +130,7 @@ func TestMonteCarlo(t *testing.T) {
 func TestGivenSkillsExact(t *testing.T) {
 	g, f := room(t)
 	explore, _ := mdp.WithStart(g.MDP, mdp.UniformStart(g.MDP))
-	ag, err := Pretrain(mdp.NewSampler(explore, 0), PretrainConfig{Method: Given, Features: f, Skills: 6, Steps: 20000, EpisodeSteps: 20, SkillGamma: 0.9, Seed: 4})
+	ag, err := Pretrain(mdp.NewSampler(explore, 0), &PretrainConfig{Method: Given, Features: f, Skills: 6, Steps: 20000, EpisodeSteps: 20, SkillGamma: 0.9, Seed: 4})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -167,7 +167,7 @@ func TestGivenSkillsExact(t *testing.T) {
 // transitions grouped by their next state.
 func TestInferCV(t *testing.T) {
 	g, _ := room(t)
-	ag, err := newAgent(g.NumStates(), g.MDP.NumActions(), mustDefaults(t, PretrainConfig{Dim: 6, Skills: 4, Seed: 3}))
+	ag, err := newAgent(g.NumStates(), g.MDP.NumActions(), mustDefaults(t, &PretrainConfig{Dim: 6, Skills: 4, Seed: 3}))
 	if err != nil {
 		t.Fatal(err)
 	}

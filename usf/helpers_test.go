@@ -35,7 +35,7 @@ func randomProblem(t testing.TB, seed uint64, states, actions, d int, terminal f
 func randomProblemBranching(t testing.TB, seed uint64, states, actions, d, branching int, terminal float64) problem {
 	t.Helper()
 	rng := rand.New(rand.NewPCG(seed, 1))
-	m, err := mdp.RandomFinite(rng, mdp.RandomConfig{States: states, Actions: actions, Branching: branching, TerminalFraction: terminal})
+	m, err := mdp.RandomFinite(rng, &mdp.RandomConfig{States: states, Actions: actions, Branching: branching, TerminalFraction: terminal})
 	if err != nil {
 		t.Fatal(err)
 	}

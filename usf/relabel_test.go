@@ -61,7 +61,7 @@ func TestUpdateRelabelMatchesTD(t *testing.T) {
 			ref := make([]*sf.TD, len(zs))
 			for k := range zs {
 				rt, _ := sf.NewTable(9, 3, 4)
-				ref[k], err = sf.NewTD(rt, p.phi, p.gamma, &sf.TDSettings{Target: sf.Sampled, Schedule: sf.StepSchedule{StepSize: alpha}})
+				ref[k], err = sf.NewTD(rt, p.phi, p.gamma, &sf.TDConfig{Target: sf.Sampled, Schedule: sf.StepSchedule{StepSize: alpha}})
 				if err != nil {
 					t.Fatal(err)
 				}

@@ -128,7 +128,7 @@ func run(args []string, stdout, stderr io.Writer) error {
 	if err != nil {
 		return err
 	}
-	td, err := sf.NewTD(t, phi, 1, &sf.TDSettings{Target: c.target, Policy: pi, Schedule: sf.StepSchedule{Power: c.power}})
+	td, err := sf.NewTD(t, phi, 1, &sf.TDConfig{Target: c.target, Policy: pi, Schedule: sf.StepSchedule{Power: c.power}})
 	if err != nil {
 		return err
 	}
