@@ -66,9 +66,9 @@ func checkGamma(gamma float64) error {
 // Barto 2nd ed., section 6.5) on env with reward r and discount gamma for
 // the largest of the budgets in labelled transitions, acting
 // epsilon-greedily on its own Q (ties at random, Q starts at 0), and
-// returns the greedy policy after each budget (ascending). seed determines
-// the run.
-func QBaseline(env transfer.Env, r mdp.Reward, gamma float64, budgets []int, cfg *BaselineConfig, seed uint64) ([]mdp.Deterministic, error) {
+// returns the greedy policy after each budget (ascending). Every draw comes
+// from rng, which it advances.
+func QBaseline(env transfer.Env, r mdp.Reward, gamma float64, budgets []int, cfg *BaselineConfig, rng *rand.Rand) ([]mdp.Deterministic, error) {
 	var c BaselineConfig
 	if cfg != nil {
 		c = *cfg
@@ -80,9 +80,11 @@ func QBaseline(env transfer.Env, r mdp.Reward, gamma float64, budgets []int, cfg
 	if err := checkGamma(gamma); err != nil {
 		return nil, err
 	}
+	if rng == nil {
+		return nil, fmt.Errorf("experiment: baseline: nil rng: %w", ErrConfig)
+	}
 	n, na := env.NumStates(), env.NumActions()
 	q := make([]float64, n*na)
-	rng := rand.New(rand.NewPCG(seed, streamBaseline))
 	var out []mdp.Deterministic
 	err = runEpisodes(env, budgets, c, rng, func(s int) int {
 		return vec.ArgmaxReservoir(q[s*na:(s+1)*na], rng)
@@ -115,8 +117,8 @@ func QBaseline(env transfer.Env, r mdp.Reward, gamma float64, budgets []int, cfg
 // sf.TD with the Greedy target for the current w (phi + gamma psi(s', a*),
 // a* greedy in psi(s', .) . w, ties to the lowest action) and the constant
 // step cfg.StepSize, discount gamma. It returns the greedy policy after each
-// budget (ascending).
-func SFQBaseline(env transfer.Env, phi sf.FeatureMap, r mdp.Reward, gamma float64, budgets []int, cfg *BaselineConfig, seed uint64) ([]mdp.Deterministic, error) {
+// budget (ascending). Every draw comes from rng, which it advances.
+func SFQBaseline(env transfer.Env, phi sf.FeatureMap, r mdp.Reward, gamma float64, budgets []int, cfg *BaselineConfig, rng *rand.Rand) ([]mdp.Deterministic, error) {
 	var c BaselineConfig
 	if cfg != nil {
 		c = *cfg
@@ -127,6 +129,9 @@ func SFQBaseline(env transfer.Env, phi sf.FeatureMap, r mdp.Reward, gamma float6
 	}
 	if err := checkGamma(gamma); err != nil {
 		return nil, err
+	}
+	if rng == nil {
+		return nil, fmt.Errorf("experiment: baseline: nil rng: %w", ErrConfig)
 	}
 	n, na, d := env.NumStates(), env.NumActions(), phi.Dim()
 	tab, err := sf.NewTable(n, na, d)
@@ -144,7 +149,6 @@ func SFQBaseline(env transfer.Env, phi sf.FeatureMap, r mdp.Reward, gamma float6
 	}
 	f := make([]float64, d)
 	q := make([]float64, na)
-	rng := rand.New(rand.NewPCG(seed, streamBaseline))
 	qs := func(s int) []float64 {
 		for a := range na {
 			q[a] = tab.Q(s, a, w)
@@ -231,14 +235,9 @@ func runEpisodes(env transfer.Env, budgets []int, c BaselineConfig, rng *rand.Ra
 	return nil
 }
 
-// Stream of the baselines' generators (the stream number the transfer
-// package gave them before the split, kept so that the figures keep their
-// bits), and the number of consecutive episodes without a step (a
+// maxEmpty is the number of consecutive episodes without a step (a
 // terminal start state) after which a learner gives up.
-const (
-	streamBaseline = 4
-	maxEmpty       = 1000
-)
+const maxEmpty = 1000
 
 // startDone reports whether env's episode ended at Reset (a terminal start
 // state), for environments that can tell (such as *mdp.Sampler).

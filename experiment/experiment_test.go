@@ -5,6 +5,7 @@ import (
 	"encoding/csv"
 	"encoding/json"
 	"errors"
+	"math/rand/v2"
 	"os"
 	"path/filepath"
 	"reflect"
@@ -198,7 +199,7 @@ func TestBaselinesLearn(t *testing.T) {
 	w, _ := g.Weights(map[string]float64{"berry": 1})
 	r, _ := g.PlaceReward(w)
 	env := mdp.NewSampler(g.MDP, 0)
-	pols, err := experiment.QBaseline(env, r, 0.9, []int{20000}, &experiment.BaselineConfig{EpisodeSteps: 30}, 1)
+	pols, err := experiment.QBaseline(env, r, 0.9, []int{20000}, &experiment.BaselineConfig{EpisodeSteps: 30}, rand.New(rand.NewPCG(1, 4)))
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -210,7 +211,7 @@ func TestBaselinesLearn(t *testing.T) {
 		t.Errorf("q-learning scores %v after 20000 steps, want >= 0.99", ev.Score.Normalised)
 	}
 	f, _ := sf.GridLabels(g, false)
-	pols, err = experiment.SFQBaseline(env, f, r, 0.9, []int{20000}, &experiment.BaselineConfig{EpisodeSteps: 30}, 1)
+	pols, err = experiment.SFQBaseline(env, f, r, 0.9, []int{20000}, &experiment.BaselineConfig{EpisodeSteps: 30}, rand.New(rand.NewPCG(1, 4)))
 	if err != nil {
 		t.Fatal(err)
 	}

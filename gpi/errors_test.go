@@ -38,7 +38,7 @@ func TestSharedErrors(t *testing.T) {
 			errOf(gpi.DominanceSlack(-1, 0.9)),
 			gpi.ErrConfig, errs.Config, usf.ErrConfig},
 		{"config: negative steps per task",
-			errOf(gpi.QLearning(rand.New(rand.NewPCG(1, 1)), nil, nil, nil, &gpi.LearnConfig{StepsPerTask: -1}, nil)),
+			errOf(gpi.QLearning(nil, nil, nil, &gpi.LearnConfig{StepsPerTask: -1}, nil, rand.New(rand.NewPCG(1, 1)))),
 			gpi.ErrConfig, errs.Config, linalg.ErrConfig},
 		{"diverged: successor features overflow",
 			diverge(t),
@@ -70,8 +70,8 @@ func diverge(t *testing.T) error {
 			dst[1] = 1
 		}
 	}}
-	_, err = gpi.SFQLearning(rand.New(rand.NewPCG(2, 2)), m, phi, [][]float64{{0, 1}},
-		&gpi.LearnConfig{Gamma: 0.9, StepSize: 1, Epsilon: 0.5, StepsPerTask: 1000}, nil)
+	_, err = gpi.SFQLearning(m, phi, [][]float64{{0, 1}},
+		&gpi.LearnConfig{Gamma: 0.9, StepSize: 1, Epsilon: 0.5, StepsPerTask: 1000}, nil, rand.New(rand.NewPCG(2, 2)))
 	return err
 }
 

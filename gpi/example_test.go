@@ -121,9 +121,9 @@ func ExampleSFQLearning() {
 	set := &gpi.LearnConfig{StepsPerTask: 20000}
 	for _, run := range []struct {
 		name  string
-		learn func(*rand.Rand, *mdp.Finite, sf.FeatureMap, [][]float64, *gpi.LearnConfig, func(gpi.Progress)) (*gpi.LearnResult, error)
+		learn func(*mdp.Finite, sf.FeatureMap, [][]float64, *gpi.LearnConfig, func(gpi.Progress), *rand.Rand) (*gpi.LearnResult, error)
 	}{{"SF Q-learning", gpi.SFQLearning}, {"Q-learning", gpi.QLearning}} {
-		res, err := run.learn(rand.New(rand.NewPCG(1, 2)), g.MDP, phi, tasks, set, nil)
+		res, err := run.learn(g.MDP, phi, tasks, set, nil, rand.New(rand.NewPCG(1, 2)))
 		if err != nil {
 			log.Fatal(err)
 		}

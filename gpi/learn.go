@@ -175,13 +175,13 @@ type agent interface {
 // and uniform returns coincide, so that the normalised return is
 // undefined), ErrNoSources (no tasks), ErrDimension, ErrNonFinite,
 // ErrDiverged (with the step, from sf.DivergenceError) or an oracle error.
-func SFQLearning(rng *rand.Rand, m *mdp.Finite, phi sf.FeatureMap, tasks [][]float64, settings *LearnConfig, progress func(Progress)) (*LearnResult, error) {
+func SFQLearning(m *mdp.Finite, phi sf.FeatureMap, tasks [][]float64, settings *LearnConfig, progress func(Progress), rng *rand.Rand) (*LearnResult, error) {
 	c, err := settings.resolve()
 	if err != nil {
 		return nil, fmt.Errorf("gpi: sf q-learning: %w", err)
 	}
 	ag := &sfqAgent{m: m, phi: phi, cfg: c}
-	res, err := learn(rng, m, phi, tasks, c, ag, progress)
+	res, err := learn(m, phi, tasks, c, ag, progress, rng)
 	if err != nil {
 		return nil, fmt.Errorf("gpi: sf q-learning: %w", err)
 	}
@@ -198,13 +198,13 @@ func SFQLearning(rng *rand.Rand, m *mdp.Finite, phi sf.FeatureMap, tasks [][]flo
 // tasks (a new task starts from the previous task's values), and the
 // reward phi(s,a,s') . w_i is computed from the features. Errors are as
 // for SFQLearning.
-func QLearning(rng *rand.Rand, m *mdp.Finite, phi sf.FeatureMap, tasks [][]float64, settings *LearnConfig, progress func(Progress)) (*LearnResult, error) {
+func QLearning(m *mdp.Finite, phi sf.FeatureMap, tasks [][]float64, settings *LearnConfig, progress func(Progress), rng *rand.Rand) (*LearnResult, error) {
 	c, err := settings.resolve()
 	if err != nil {
 		return nil, fmt.Errorf("gpi: q-learning: %w", err)
 	}
 	ag := &qAgent{m: m, phi: phi, cfg: c, q: make([]float64, m.NumStates()*m.NumActions()), f: make([]float64, phi.Dim())}
-	res, err := learn(rng, m, phi, tasks, c, ag, progress)
+	res, err := learn(m, phi, tasks, c, ag, progress, rng)
 	if err != nil {
 		return nil, fmt.Errorf("gpi: q-learning: %w", err)
 	}
@@ -213,7 +213,7 @@ func QLearning(rng *rand.Rand, m *mdp.Finite, phi sf.FeatureMap, tasks [][]float
 }
 
 // learn is the loop shared by the learners.
-func learn(rng *rand.Rand, m *mdp.Finite, phi sf.FeatureMap, tasks [][]float64, c learnParams, ag agent, progress func(Progress)) (*LearnResult, error) {
+func learn(m *mdp.Finite, phi sf.FeatureMap, tasks [][]float64, c learnParams, ag agent, progress func(Progress), rng *rand.Rand) (*LearnResult, error) {
 	if rng == nil {
 		return nil, fmt.Errorf("nil rng: %w", ErrConfig)
 	}

@@ -74,14 +74,14 @@ func TestSFQLearningBeatsQLearning(t *testing.T) {
 		g, phi, tasks := depotTasks(t, seed, 10)
 		set := &gpi.LearnConfig{StepsPerTask: 4000}
 		var calls int
-		a, err := gpi.SFQLearning(rand.New(rand.NewPCG(seed, 2)), g.MDP, phi, tasks, set, func(gpi.Progress) { calls++ })
+		a, err := gpi.SFQLearning(g.MDP, phi, tasks, set, func(gpi.Progress) { calls++ }, rand.New(rand.NewPCG(seed, 2)))
 		if err != nil {
 			t.Fatal(err)
 		}
 		if calls != len(a.Curve) || len(a.Curve) != 10*11 || len(a.Tables) != 10 {
 			t.Fatalf("seed %d: %d progress calls, %d evaluations, %d tables; want 110, 110, 10", seed, calls, len(a.Curve), len(a.Tables))
 		}
-		b, err := gpi.QLearning(rand.New(rand.NewPCG(seed, 2)), g.MDP, phi, tasks, set, nil)
+		b, err := gpi.QLearning(g.MDP, phi, tasks, set, nil, rand.New(rand.NewPCG(seed, 2)))
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -106,14 +106,14 @@ func TestSFQLearningBeatsQLearning(t *testing.T) {
 func TestLearnDeterministic(t *testing.T) {
 	g, phi, tasks := depotTasks(t, 9, 3)
 	set := &gpi.LearnConfig{StepsPerTask: 300, EvalEvery: 100}
-	for name, f := range map[string]func(*rand.Rand, *mdp.Finite, sf.FeatureMap, [][]float64, *gpi.LearnConfig, func(gpi.Progress)) (*gpi.LearnResult, error){
+	for name, f := range map[string]func(*mdp.Finite, sf.FeatureMap, [][]float64, *gpi.LearnConfig, func(gpi.Progress), *rand.Rand) (*gpi.LearnResult, error){
 		"sfq": gpi.SFQLearning, "ql": gpi.QLearning,
 	} {
-		a, err := f(rand.New(rand.NewPCG(5, 5)), g.MDP, phi, tasks, set, nil)
+		a, err := f(g.MDP, phi, tasks, set, nil, rand.New(rand.NewPCG(5, 5)))
 		if err != nil {
 			t.Fatal(err)
 		}
-		b, err := f(rand.New(rand.NewPCG(5, 5)), g.MDP, phi, tasks, set, nil)
+		b, err := f(g.MDP, phi, tasks, set, nil, rand.New(rand.NewPCG(5, 5)))
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -153,10 +153,10 @@ func TestLearnErrors(t *testing.T) {
 		{"steps", rng, tasks, &gpi.LearnConfig{StepsPerTask: -1}, gpi.ErrConfig},
 		{"zero task", rng, zero, nil, gpi.ErrConfig}, // every policy has return 0
 	} {
-		if _, err := gpi.SFQLearning(c.rng, g.MDP, phi, c.tasks, c.set, nil); !errors.Is(err, c.want) {
+		if _, err := gpi.SFQLearning(g.MDP, phi, c.tasks, c.set, nil, c.rng); !errors.Is(err, c.want) {
 			t.Errorf("sfq %s: error %v, want %v", c.name, err, c.want)
 		}
-		if _, err := gpi.QLearning(c.rng, g.MDP, phi, c.tasks, c.set, nil); !errors.Is(err, c.want) {
+		if _, err := gpi.QLearning(g.MDP, phi, c.tasks, c.set, nil, c.rng); !errors.Is(err, c.want) {
 			t.Errorf("ql %s: error %v, want %v", c.name, err, c.want)
 		}
 	}

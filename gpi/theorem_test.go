@@ -35,7 +35,7 @@ func randomProblem(t *testing.T, rng *rand.Rand) problem {
 	if rng.IntN(3) == 0 {
 		frac = 0.2 // some runs with terminal states
 	}
-	m, err := mdp.RandomFinite(rng, &mdp.RandomConfig{States: n, Actions: na, Branching: 1 + rng.IntN(3), TerminalFraction: frac, SelfLoops: rng.IntN(2) == 0})
+	m, err := mdp.RandomFinite(&mdp.RandomConfig{States: n, Actions: na, Branching: 1 + rng.IntN(3), TerminalFraction: frac, SelfLoops: rng.IntN(2) == 0}, rng)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -81,7 +81,7 @@ func TestTheorem1(t *testing.T) {
 		src := make([]gpi.Source, k)
 		pols := make([]mdp.Policy, k)
 		for i := range src {
-			pols[i] = mdp.RandomPolicy(rng, p.m)
+			pols[i] = mdp.RandomPolicy(p.m, rng)
 			tab, err := sf.Exact(p.m, pols[i], p.phi, p.gamma)
 			if err != nil {
 				t.Fatal(err)
@@ -159,7 +159,7 @@ func TestTheorem1Approximate(t *testing.T) {
 		src := make([]gpi.Source, k)
 		pols := make([]mdp.Policy, k)
 		for i := range src {
-			pols[i] = mdp.RandomPolicy(rng, p.m)
+			pols[i] = mdp.RandomPolicy(p.m, rng)
 			tab, err := sf.Exact(p.m, pols[i], p.phi, p.gamma)
 			if err != nil {
 				t.Fatal(err)

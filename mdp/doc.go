@@ -115,6 +115,6 @@
 //
 // # Randomness
 //
-// Samplers and generators take a *rand.Rand from math/rand/v2; the same
-// seed gives the same draws.
+// Samplers and generators take a *rand.Rand from math/rand/v2 as their
+// last argument; the same seed gives the same draws.
 package mdp

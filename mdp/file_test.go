@@ -171,7 +171,7 @@ func filesEqual(a, b *File) bool {
 func TestFileRoundTrip(t *testing.T) {
 	for seed := uint64(1); seed <= 20; seed++ {
 		rng := rand.New(rand.NewPCG(seed, 7))
-		m, err := RandomFinite(rng, &RandomConfig{States: 1 + rng.IntN(12), Actions: 1 + rng.IntN(3), Branching: 1 + rng.IntN(4), TerminalFraction: 0.3})
+		m, err := RandomFinite(&RandomConfig{States: 1 + rng.IntN(12), Actions: 1 + rng.IntN(3), Branching: 1 + rng.IntN(4), TerminalFraction: 0.3}, rng)
 		if err != nil {
 			t.Fatal(err)
 		}

@@ -306,11 +306,11 @@ func TestOptimalBruteForce(t *testing.T) {
 		rng := rand.New(rand.NewPCG(seed, 11))
 		n := 2 + rng.IntN(4)
 		na := 2 + rng.IntN(2)
-		m, err := RandomFinite(rng, &RandomConfig{States: n, Actions: na, Branching: 2, TerminalFraction: 0.2})
+		m, err := RandomFinite(&RandomConfig{States: n, Actions: na, Branching: 2, TerminalFraction: 0.2}, rng)
 		if err != nil {
 			t.Fatal(err)
 		}
-		rbar := RandomReward(rng, m)
+		rbar := RandomReward(m, rng)
 		gamma := []float64{0, 0.5, 0.9, 0.99}[seed%4]
 		res, err := OptimalExpected(m, rbar, gamma)
 		if err != nil {
@@ -353,12 +353,12 @@ func TestOptimalBruteForce(t *testing.T) {
 func TestBellmanIdentities(t *testing.T) {
 	for seed := uint64(1); seed <= 10; seed++ {
 		rng := rand.New(rand.NewPCG(seed, 12))
-		m, err := RandomFinite(rng, &RandomConfig{States: 30, Actions: 3, Branching: 4, TerminalFraction: 0.1})
+		m, err := RandomFinite(&RandomConfig{States: 30, Actions: 3, Branching: 4, TerminalFraction: 0.1}, rng)
 		if err != nil {
 			t.Fatal(err)
 		}
-		rbar := RandomReward(rng, m)
-		pi := RandomPolicy(rng, m)
+		rbar := RandomReward(m, rng)
+		pi := RandomPolicy(m, rng)
 		gamma := 0.95
 		v, err := EvaluateExpected(m, pi, rbar, gamma)
 		if err != nil {
@@ -397,12 +397,12 @@ func TestBellmanIdentities(t *testing.T) {
 // a dense LU is the reference for the sparse iterative solver).
 func TestDenseIterativeAgree(t *testing.T) {
 	rng := rand.New(rand.NewPCG(3, 3))
-	m, err := RandomFinite(rng, &RandomConfig{States: 200, Actions: 4, Branching: 5, TerminalFraction: 0.05})
+	m, err := RandomFinite(&RandomConfig{States: 200, Actions: 4, Branching: 5, TerminalFraction: 0.05}, rng)
 	if err != nil {
 		t.Fatal(err)
 	}
-	rbar := RandomReward(rng, m)
-	pi := RandomPolicy(rng, m)
+	rbar := RandomReward(m, rng)
+	pi := RandomPolicy(m, rng)
 	for _, gamma := range []float64{0.5, 0.9, 0.99} {
 		d, err := (&Solver{Method: SolveDense}).EvaluateExpected(m, pi, rbar, gamma)
 		if err != nil {
@@ -426,11 +426,11 @@ func TestDenseIterativeAgree(t *testing.T) {
 // entry by entry on a random MDP.
 func TestChains(t *testing.T) {
 	rng := rand.New(rand.NewPCG(5, 5))
-	m, err := RandomFinite(rng, &RandomConfig{States: 12, Actions: 3, Branching: 3, TerminalFraction: 0.25})
+	m, err := RandomFinite(&RandomConfig{States: 12, Actions: 3, Branching: 3, TerminalFraction: 0.25}, rng)
 	if err != nil {
 		t.Fatal(err)
 	}
-	pi := RandomPolicy(rng, m)
+	pi := RandomPolicy(m, rng)
 	n, na := m.NumStates(), m.NumActions()
 	tab, err := m.PolicyTable(pi)
 	if err != nil {
@@ -581,12 +581,12 @@ func panics(f func()) (p bool) {
 func TestStateActionChainGivesQ(t *testing.T) {
 	for seed := uint64(1); seed <= 5; seed++ {
 		rng := rand.New(rand.NewPCG(seed, 21))
-		m, err := RandomFinite(rng, &RandomConfig{States: 25, Actions: 3, Branching: 3, TerminalFraction: 0.2})
+		m, err := RandomFinite(&RandomConfig{States: 25, Actions: 3, Branching: 3, TerminalFraction: 0.2}, rng)
 		if err != nil {
 			t.Fatal(err)
 		}
-		rbar := RandomReward(rng, m)
-		pi := RandomPolicy(rng, m)
+		rbar := RandomReward(m, rng)
+		pi := RandomPolicy(m, rng)
 		v, err := EvaluateExpected(m, pi, rbar, 0.9)
 		if err != nil {
 			t.Fatal(err)

@@ -31,7 +31,7 @@ type RandomConfig struct {
 // over the non-terminal states. The same rng state gives the same MDP.
 // The error wraps ErrDimension for negative sizes or a
 // TerminalFraction outside [0, 1).
-func RandomFinite(rng *rand.Rand, c *RandomConfig) (*Finite, error) {
+func RandomFinite(c *RandomConfig, rng *rand.Rand) (*Finite, error) {
 	var cfg RandomConfig
 	if c != nil {
 		cfg = *c
@@ -128,7 +128,7 @@ func RandomFinite(rng *rand.Rand, c *RandomConfig) (*Finite, error) {
 // RandomReward returns a seeded expected-reward table rbar[s*A + a] with
 // entries uniform in [-1, 1) for non-terminal states and 0 for terminal
 // ones.
-func RandomReward(rng *rand.Rand, m *Finite) []float64 {
+func RandomReward(m *Finite, rng *rand.Rand) []float64 {
 	rbar := make([]float64, m.n*m.a)
 	for i := range rbar {
 		if !m.terminal[i/m.a] {
@@ -140,7 +140,7 @@ func RandomReward(rng *rand.Rand, m *Finite) []float64 {
 
 // RandomPolicy returns a seeded stochastic table policy with each state's
 // action probabilities drawn from the flat Dirichlet distribution.
-func RandomPolicy(rng *rand.Rand, m *Finite) *Table {
+func RandomPolicy(m *Finite, rng *rand.Rand) *Table {
 	p := make([]float64, m.n*m.a)
 	for s := 0; s < m.n; s++ {
 		row := p[s*m.a : (s+1)*m.a]

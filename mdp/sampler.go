@@ -52,7 +52,7 @@ func (e *Sampler) MDP() *Finite { return e.m }
 // start distribution. If that state is terminal the episode is already
 // over: Done reports true and Step panics until the next Reset.
 func (e *Sampler) Reset(rng *rand.Rand) int {
-	e.state = e.startIdx[SampleIndex(rng, e.startP)]
+	e.state = e.startIdx[SampleIndex(e.startP, rng)]
 	e.steps = 0
 	e.started = true
 	e.done = e.m.terminal[e.state]
@@ -72,7 +72,7 @@ func (e *Sampler) Step(a int, rng *rand.Rand) Outcome {
 		panic("mdp: sampler: action out of range")
 	}
 	ind, val := e.m.p.Row(e.state*e.m.a + a)
-	next := ind[SampleIndex(rng, val)]
+	next := ind[SampleIndex(val, rng)]
 	e.state = next
 	e.steps++
 	end := Continuing

@@ -13,7 +13,7 @@ import (
 // P(. | s, a) with a 5-sigma binomial tolerance (common practice).
 func TestSamplerFrequencies(t *testing.T) {
 	rng := rand.New(rand.NewPCG(9, 9))
-	m, err := RandomFinite(rng, &RandomConfig{States: 6, Actions: 2, Branching: 4})
+	m, err := RandomFinite(&RandomConfig{States: 6, Actions: 2, Branching: 4}, rng)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -66,7 +66,7 @@ func TestSamplerEpisodes(t *testing.T) {
 		}
 		for {
 			pi.Probs(probs, s)
-			out := e.Step(SampleIndex(rng, probs), rng)
+			out := e.Step(SampleIndex(probs, rng), rng)
 			if out.End == TimeLimit {
 				t.Fatal("truncated without a time limit")
 			}
@@ -184,7 +184,7 @@ func TestPolicies(t *testing.T) {
 		"softmax T=0":      func() { Softmax{Q: q, A: 3}.Probs(dst, 0) },
 		"softmax Inf":      func() { Softmax{Q: []float64{math.Inf(1), 0, 0}, A: 3, Temperature: 1}.Probs(dst, 0) },
 		"table length":     func() { mustTable(t, 2, 3, []float64{0.2, 0.3, 0.5, 1, 0, 0}).Probs(dst[:2], 0) },
-		"sample empty":     func() { SampleIndex(rand.New(rand.NewPCG(1, 1)), []float64{0, 0}) },
+		"sample empty":     func() { SampleIndex([]float64{0, 0}, rand.New(rand.NewPCG(1, 1))) },
 		"deterministic ix": func() { Deterministic{5}.Probs(dst, 0) },
 	} {
 		if !panics(f) {
@@ -284,16 +284,16 @@ func TestNewErrors(t *testing.T) {
 func TestRandomConfig(t *testing.T) {
 	rng := rand.New(rand.NewPCG(4, 4))
 	for _, cfg := range []RandomConfig{{States: -1}, {TerminalFraction: 1}, {TerminalFraction: math.NaN()}, {Actions: -2}} {
-		if _, err := RandomFinite(rng, &cfg); !errors.Is(err, linalg.ErrDimension) {
+		if _, err := RandomFinite(&cfg, rng); !errors.Is(err, linalg.ErrDimension) {
 			t.Errorf("%+v: %v", cfg, err)
 		}
 	}
 	// Defaults, determinism, branching and the self-loop rule.
-	a, err := RandomFinite(rand.New(rand.NewPCG(1, 1)), &RandomConfig{})
+	a, err := RandomFinite(&RandomConfig{}, rand.New(rand.NewPCG(1, 1)))
 	if err != nil {
 		t.Fatal(err)
 	}
-	b, _ := RandomFinite(rand.New(rand.NewPCG(1, 1)), nil) // nil means the zero value
+	b, _ := RandomFinite(nil, rand.New(rand.NewPCG(1, 1))) // nil means the zero value
 	if a.NumStates() != 10 || a.NumActions() != 2 {
 		t.Errorf("defaults: %d states %d actions", a.NumStates(), a.NumActions())
 	}
@@ -302,7 +302,7 @@ func TestRandomConfig(t *testing.T) {
 		t.Error("same seed, different MDPs")
 	}
 	for _, cfg := range []RandomConfig{{States: 50, Branching: 3, TerminalFraction: 0.5}, {States: 5, Branching: 9, SelfLoops: true}} {
-		m, err := RandomFinite(rng, &cfg)
+		m, err := RandomFinite(&cfg, rng)
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -334,7 +334,7 @@ func TestRandomConfig(t *testing.T) {
 // and every state it returns lies in [0, NumStates).
 func TestSamplerNumStates(t *testing.T) {
 	for _, tc := range []struct{ states, actions int }{{1, 1}, {3, 2}, {17, 4}} {
-		m, err := RandomFinite(rand.New(rand.NewPCG(uint64(tc.states), 1)), &RandomConfig{States: tc.states, Actions: tc.actions, Branching: 2, SelfLoops: true})
+		m, err := RandomFinite(&RandomConfig{States: tc.states, Actions: tc.actions, Branching: 2, SelfLoops: true}, rand.New(rand.NewPCG(uint64(tc.states), 1)))
 		if err != nil {
 			t.Fatal(err)
 		}

@@ -28,7 +28,7 @@ func TestExactOneHotState(t *testing.T) {
 	for seed := uint64(1); seed <= 6; seed++ {
 		for _, gamma := range []float64{0, 0.5, 0.95} {
 			m := randomMDP(t, seed, &mdp.RandomConfig{States: 9, Actions: 3, TerminalFraction: 0.25, SelfLoops: seed%2 == 0})
-			pi := mdp.RandomPolicy(rand.New(rand.NewPCG(seed, 7)), m)
+			pi := mdp.RandomPolicy(m, rand.New(rand.NewPCG(seed, 7)))
 			n, na := m.NumStates(), m.NumActions()
 			psi, err := Exact(m, pi, OneHotState{N: n}, gamma)
 			if err != nil {
@@ -89,7 +89,7 @@ func TestExactOneHotState(t *testing.T) {
 func TestExactOneHotStateAction(t *testing.T) {
 	for seed := uint64(1); seed <= 4; seed++ {
 		m := randomMDP(t, seed, &mdp.RandomConfig{States: 7, Actions: 2, TerminalFraction: 0.3})
-		pi := mdp.RandomPolicy(rand.New(rand.NewPCG(seed, 8)), m)
+		pi := mdp.RandomPolicy(m, rand.New(rand.NewPCG(seed, 8)))
 		n, na := m.NumStates(), m.NumActions()
 		const gamma = 0.9
 		psi, err := Exact(m, pi, OneHotStateAction{N: n, A: na}, gamma)
@@ -136,7 +136,7 @@ func TestExactQ(t *testing.T) {
 			for seed := uint64(1); seed <= 3; seed++ {
 				rng := rand.New(rand.NewPCG(seed, 3))
 				m := randomMDP(t, seed, &mdp.RandomConfig{States: tc.states, Actions: tc.actions, TerminalFraction: tc.term})
-				pi := mdp.RandomPolicy(rng, m)
+				pi := mdp.RandomPolicy(m, rng)
 				phi, err := NewRandom(tc.states, 4, false, rng)
 				if err != nil {
 					t.Fatal(err)
@@ -204,7 +204,7 @@ func TestExactRandomWalk(t *testing.T) {
 // of Exact directly (an invariant, derived by hand from the definition).
 func TestExactBellman(t *testing.T) {
 	m := randomMDP(t, 11, &mdp.RandomConfig{States: 15, Actions: 3, TerminalFraction: 0.2})
-	pi := mdp.RandomPolicy(rand.New(rand.NewPCG(5, 5)), m)
+	pi := mdp.RandomPolicy(m, rand.New(rand.NewPCG(5, 5)))
 	phi, _ := NewRandom(15, 6, true, rand.New(rand.NewPCG(6, 6)))
 	const gamma = 0.97
 	psi, err := Exact(m, pi, phi, gamma)

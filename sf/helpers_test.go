@@ -34,7 +34,7 @@ func randomWalk(t testing.TB) *mdp.Finite {
 // randomMDP returns a seeded random MDP from mdp.RandomFinite.
 func randomMDP(t testing.TB, seed uint64, cfg *mdp.RandomConfig) *mdp.Finite {
 	t.Helper()
-	m, err := mdp.RandomFinite(rand.New(rand.NewPCG(seed, 99)), cfg)
+	m, err := mdp.RandomFinite(cfg, rand.New(rand.NewPCG(seed, 99)))
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -17,7 +17,7 @@ import (
 func TestLinearOneHot(t *testing.T) {
 	const n, na, d, gamma = 5, 2, 3, 0.9
 	phi, _ := NewRandom(n, d, false, rand.New(rand.NewPCG(3, 3)))
-	pi := mdp.RandomPolicy(rand.New(rand.NewPCG(4, 4)), randomMDP(t, 2, &mdp.RandomConfig{States: n, Actions: na}))
+	pi := mdp.RandomPolicy(randomMDP(t, 2, &mdp.RandomConfig{States: n, Actions: na}), rand.New(rand.NewPCG(4, 4)))
 	onehot := func(dst []float64, s int) { clear(dst); dst[s] = 1 }
 	state := func(x []float64) int {
 		for s, v := range x {

@@ -194,7 +194,7 @@ func TestTDGreedy(t *testing.T) {
 func TestTDExpected(t *testing.T) {
 	rng := rand.New(rand.NewPCG(4, 4))
 	m := randomMDP(t, 4, &mdp.RandomConfig{States: 8, Actions: 3, TerminalFraction: 0.2})
-	target := mdp.RandomPolicy(rng, m)
+	target := mdp.RandomPolicy(m, rng)
 	phi := OneHotState{N: 8}
 	const gamma = 0.7
 	ex, err := Exact(m, target, phi, gamma)
@@ -239,7 +239,7 @@ func TestTDOneStep(t *testing.T) {
 	// The sparse paths against the dense ones, for every target.
 	lab, _ := NewLabels([]int{0, -1, 1, 2, -1}, 3, true)
 	fn := FeatureFunc{D: 4, F: lab.Features}
-	pi := mdp.RandomPolicy(rand.New(rand.NewPCG(1, 1)), randomMDP(t, 1, &mdp.RandomConfig{States: 5, Actions: 2}))
+	pi := mdp.RandomPolicy(randomMDP(t, 1, &mdp.RandomConfig{States: 5, Actions: 2}), rand.New(rand.NewPCG(1, 1)))
 	w := []float64{1, -2, 0.5, 0.1}
 	for _, tc := range []struct {
 		target Target

@@ -41,9 +41,12 @@ type Labelled struct {
 //
 // The labelled transitions are the whole budget: nothing else about the
 // task is revealed. The rules never look ahead at k, so the first j
-// transitions of a collection of k are a collection of j. seed determines
-// the draws.
-func Collect(env mdp.Env, ag *Agent, reward mdp.Reward, k int, cfg *AdaptConfig, seed uint64) ([]Labelled, error) {
+// transitions of a collection of k are a collection of j. Every random
+// draw (env's and the rules') comes from rng, which it advances. It
+// returns an error wrapping ErrConfig for a nil rng, a negative k, an
+// invalid cfg (nil means the defaults) or skill exploration without an
+// agent.
+func Collect(env mdp.Env, ag *Agent, reward mdp.Reward, k int, cfg *AdaptConfig, rng *rand.Rand) ([]Labelled, error) {
 	c, err := orZero(cfg).Resolve()
 	if err != nil {
 		return nil, err
@@ -54,7 +57,9 @@ func Collect(env mdp.Env, ag *Agent, reward mdp.Reward, k int, cfg *AdaptConfig,
 	if c.Explore != ExploreUniform && ag == nil {
 		return nil, fmt.Errorf("transfer: collect: skill exploration needs an agent: %w", ErrConfig)
 	}
-	rng := rand.New(rand.NewPCG(seed, streamCollect))
+	if rng == nil {
+		return nil, fmt.Errorf("transfer: collect: nil rng: %w", ErrConfig)
+	}
 	na := env.NumActions()
 	out := make([]Labelled, 0, k)
 	var order []int

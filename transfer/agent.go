@@ -332,11 +332,8 @@ func (ag *Agent) modelKey(s, a, next int, term bool) uint64 {
 	return k
 }
 
-// Stream identifiers of the generators derived from one seed (3 and 4
-// were used by adaptation and the from-scratch baselines, which now live in
-// package experiment; 4 keeps its meaning there).
-const (
-	streamPretrain = 1
-	streamCollect  = 2
-	streamEval     = 5
-)
+// streamPretrain is the PCG stream of a pretraining run's generator,
+// seeded with PretrainConfig.Seed. (Collect and MonteCarlo, which took
+// seeds with streams 2 and 5, now take a *rand.Rand; package experiment
+// makes its generators with the streams the figures were defined with.)
+const streamPretrain = 1

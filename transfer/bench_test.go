@@ -1,6 +1,7 @@
 package transfer
 
 import (
+	"math/rand/v2"
 	"testing"
 
 	"github.com/successor-go/successor/mdp"
@@ -94,7 +95,7 @@ func BenchmarkAdapt(b *testing.B) {
 	g, _ := mdp.Depot()
 	w, _ := g.Weights(map[string]float64{"bench": 1})
 	r, _ := g.PlaceReward(w)
-	lab, err := Collect(env, ag, r, 1000, &AdaptConfig{}, 1)
+	lab, err := Collect(env, ag, r, 1000, &AdaptConfig{}, rand.New(rand.NewPCG(1, 2)))
 	if err != nil {
 		b.Fatal(err)
 	}

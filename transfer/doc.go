@@ -143,8 +143,11 @@
 //
 // # Runs, seeds and checkpoints
 //
-// A run is fully determined by PretrainConfig.Seed (a PCG generator) and,
-// for Collect and MonteCarlo, by their seed arguments. PretrainContext,
+// A pretraining run owns its generator, a PCG generator seeded from
+// PretrainConfig.Seed, so that its checkpoint can carry the generator's
+// state; the run is fully determined by it. Every other call that draws
+// (Collect, MonteCarlo) takes a *rand.Rand as its last argument and
+// advances it. PretrainContext,
 // ResumeContext and Agent.Continue stop at the first episode end after
 // their context is done, saving a checkpoint there when a path is set.
 //

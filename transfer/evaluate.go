@@ -107,13 +107,14 @@ func startValue(m *mdp.Finite, v []float64) float64 {
 // MonteCarlo estimates the discounted return of the policy act on env for
 // reward r: the mean over episodes of sum_t gamma^t r(S_t, A_t, S_{t+1})
 // (episodes end at a terminal state, a truncation, or after maxSteps steps),
-// with its standard error. Use it where no exact oracle exists. seed
-// determines the draws.
-func MonteCarlo(env mdp.Env, act func(s int) int, r mdp.Reward, gamma float64, episodes, maxSteps int, seed uint64) (mean, stdErr float64, err error) {
-	if episodes < 2 || maxSteps < 1 || !(gamma >= 0 && gamma <= 1) {
-		return 0, 0, fmt.Errorf("transfer: monte carlo: %d episodes, %d steps, gamma %v: %w", episodes, maxSteps, gamma, ErrConfig)
+// with its standard error. Use it where no exact oracle exists. env draws
+// from rng, which it advances. It returns an error wrapping ErrConfig for
+// fewer than 2 episodes, maxSteps < 1, gamma outside [0, 1] or a nil rng,
+// and ErrDiverged for a non-finite return.
+func MonteCarlo(env mdp.Env, act func(s int) int, r mdp.Reward, gamma float64, episodes, maxSteps int, rng *rand.Rand) (mean, stdErr float64, err error) {
+	if episodes < 2 || maxSteps < 1 || !(gamma >= 0 && gamma <= 1) || rng == nil {
+		return 0, 0, fmt.Errorf("transfer: monte carlo: %d episodes, %d steps, gamma %v, rng %p: %w", episodes, maxSteps, gamma, rng, ErrConfig)
 	}
-	rng := rand.New(rand.NewPCG(seed, streamEval))
 	var sum, sum2 float64
 	for range episodes {
 		s := env.Reset(rng)

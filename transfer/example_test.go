@@ -2,6 +2,7 @@ package transfer_test
 
 import (
 	"fmt"
+	"math/rand/v2"
 
 	"github.com/successor-go/successor/mdp"
 	"github.com/successor-go/successor/transfer"
@@ -39,7 +40,7 @@ func Example() {
 	// cross-validation (Infer); the policy is GPI over the universal
 	// SFs of the 8 skills nearest the inferred task.
 	cfg := transfer.AdaptConfig{EpisodeSteps: 50, SwitchEvery: 10}
-	labelled, err := transfer.Collect(env, agent, reward, 200, &cfg, 2)
+	labelled, err := transfer.Collect(env, agent, reward, 200, &cfg, rand.New(rand.NewPCG(2, 2)))
 	if err != nil {
 		fmt.Println(err)
 		return

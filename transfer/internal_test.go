@@ -113,7 +113,7 @@ func TestMonteCarlo(t *testing.T) {
 	exact := startValue(g.MDP, v.V)
 	rng := rand.New(rand.NewPCG(9, 9))
 	na := g.MDP.NumActions()
-	mean, se, err := MonteCarlo(mdp.NewSampler(g.MDP, 0), func(int) int { return rng.IntN(na) }, r, 0.8, 4000, 80, 5)
+	mean, se, err := MonteCarlo(mdp.NewSampler(g.MDP, 0), func(int) int { return rng.IntN(na) }, r, 0.8, 4000, 80, rand.New(rand.NewPCG(5, 5)))
 	if err != nil {
 		t.Fatal(err)
 	}

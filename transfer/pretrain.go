@@ -281,7 +281,7 @@ func (ag *Agent) update() error {
 	for i := range nb {
 		ag.features(b.Phi[i*d:(i+1)*d], b.Next[i])
 	}
-	if err := ag.usf.UpdateRelabel(b, c.relabel(), ag.rng, &ag.td); err != nil {
+	if err := ag.usf.UpdateRelabel(b, c.relabel(), &ag.td, ag.rng); err != nil {
 		return fmt.Errorf("transfer: pretrain: successor features non-finite at step %d: %w: %w", ag.steps, ErrDiverged, err)
 	}
 	return nil

@@ -5,6 +5,7 @@ import (
 	"encoding/json"
 	"errors"
 	"fmt"
+	"math/rand/v2"
 	"os"
 	"path/filepath"
 	"reflect"
@@ -207,7 +208,7 @@ func TestCollect(t *testing.T) {
 	r, _ := g.PlaceReward(w)
 	env := mdp.NewSampler(g.MDP, 0)
 	for _, k := range []int{0, 1, 37, 200} {
-		lab, err := transfer.Collect(env, nil, r, k, &transfer.AdaptConfig{Explore: transfer.ExploreUniform, EpisodeSteps: 15}, 1)
+		lab, err := transfer.Collect(env, nil, r, k, &transfer.AdaptConfig{Explore: transfer.ExploreUniform, EpisodeSteps: 15}, rand.New(rand.NewPCG(1, 2)))
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -220,11 +221,17 @@ func TestCollect(t *testing.T) {
 			}
 		}
 	}
-	if _, err := transfer.Collect(env, nil, r, 5, &transfer.AdaptConfig{}, 1); !errors.Is(err, transfer.ErrConfig) {
+	if _, err := transfer.Collect(env, nil, r, 5, &transfer.AdaptConfig{}, rand.New(rand.NewPCG(1, 2))); !errors.Is(err, transfer.ErrConfig) {
 		t.Errorf("skills without an agent: got %v, want ErrConfig", err)
 	}
-	if _, err := transfer.Collect(env, nil, r, -1, &transfer.AdaptConfig{Explore: transfer.ExploreUniform}, 1); !errors.Is(err, transfer.ErrConfig) {
+	if _, err := transfer.Collect(env, nil, r, -1, &transfer.AdaptConfig{Explore: transfer.ExploreUniform}, rand.New(rand.NewPCG(1, 2))); !errors.Is(err, transfer.ErrConfig) {
 		t.Errorf("negative budget: got %v, want ErrConfig", err)
+	}
+	if _, err := transfer.Collect(env, nil, r, 5, &transfer.AdaptConfig{Explore: transfer.ExploreUniform}, nil); !errors.Is(err, transfer.ErrConfig) {
+		t.Errorf("nil rng: %v, want ErrConfig", err)
+	}
+	if _, _, err := transfer.MonteCarlo(env, func(int) int { return 0 }, r, 0.9, 10, 10, nil); !errors.Is(err, transfer.ErrConfig) {
+		t.Errorf("monte carlo, nil rng: %v, want ErrConfig", err)
 	}
 }
 
@@ -259,11 +266,11 @@ func TestCollectPrefix(t *testing.T) {
 	}
 	for _, ex := range []transfer.Explore{transfer.ExploreSkills, transfer.ExploreUniform, transfer.ExploreGreedy} {
 		cfg := transfer.AdaptConfig{Explore: ex, EpisodeSteps: 30, SwitchEvery: 10, Warmup: 40}
-		long, err := transfer.Collect(env, ag, r, 150, &cfg, 3)
+		long, err := transfer.Collect(env, ag, r, 150, &cfg, rand.New(rand.NewPCG(3, 2)))
 		if err != nil {
 			t.Fatal(err)
 		}
-		short, err := transfer.Collect(env, ag, r, 77, &cfg, 3)
+		short, err := transfer.Collect(env, ag, r, 77, &cfg, rand.New(rand.NewPCG(3, 2)))
 		if err != nil {
 			t.Fatal(err)
 		}

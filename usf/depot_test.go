@@ -120,7 +120,7 @@ func trainDepotAnneal(t testing.TB, ap Approximator, p problem, updates, batch i
 		for i := range b.A {
 			s, a := rng.IntN(n), rng.IntN(na)
 			next, prob := p.m.Next(s, a)
-			s2 := next[mdp.SampleIndex(rng, prob)]
+			s2 := next[mdp.SampleIndex(prob, rng)]
 			b.S[i], b.A[i], b.Next[i], b.Terminal[i] = s, a, s2, p.m.Terminal(s2)
 			p.phi.Features(b.Phi[i*d:(i+1)*d], s, a, s2)
 			randomUnit(b.Z[i*d:(i+1)*d], rng)

@@ -35,7 +35,7 @@ func ExampleTabular_UpdateRelabel() {
 	rng := rand.New(rand.NewPCG(1, 2))
 	var st usf.TDStats
 	for range 60 {
-		if err := tab.UpdateRelabel(b, 1, rng, &st); err != nil {
+		if err := tab.UpdateRelabel(b, 1, &st, rng); err != nil {
 			fmt.Println(err)
 			return
 		}

@@ -75,7 +75,7 @@ func TestUpdateRelabelMatchesTD(t *testing.T) {
 			var st TDStats
 			for range 200 {
 				sp.fillK(b, rng)
-				if err := tab.UpdateRelabel(b, extra, draws, &st); err != nil {
+				if err := tab.UpdateRelabel(b, extra, &st, draws); err != nil {
 					t.Fatal(err)
 				}
 				for i := range b.A {
@@ -128,7 +128,7 @@ func TestUpdateRelabelLearnsOptimal(t *testing.T) {
 	b.K = make([]int, 32)
 	for range 100_000 / 32 {
 		sp.fillK(b, rng)
-		if err := tab.UpdateRelabel(b, 3, rng, nil); err != nil {
+		if err := tab.UpdateRelabel(b, 3, nil, rng); err != nil {
 			t.Fatal(err)
 		}
 	}
@@ -182,7 +182,7 @@ func TestTabularValuesCache(t *testing.T) {
 			if _, err := tab.Update(b); err != nil {
 				t.Fatal(err)
 			}
-		} else if err := tab.UpdateRelabel(b, 1, rng, nil); err != nil {
+		} else if err := tab.UpdateRelabel(b, 1, nil, rng); err != nil {
 			t.Fatal(err)
 		}
 	}
@@ -201,10 +201,10 @@ func TestTabularValuesCache(t *testing.T) {
 	for range 30 {
 		sp.fillK(b, r1)
 		sp.fillK(b, r2) // same batch again, keeping the two generators level
-		if err := tab.UpdateRelabel(b, 2, r1, nil); err != nil {
+		if err := tab.UpdateRelabel(b, 2, nil, r1); err != nil {
 			t.Fatal(err)
 		}
-		if err := back.UpdateRelabel(b, 2, r2, nil); err != nil {
+		if err := back.UpdateRelabel(b, 2, nil, r2); err != nil {
 			t.Fatal(err)
 		}
 	}
@@ -235,7 +235,7 @@ func TestUpdateRelabelHand(t *testing.T) {
 	var st TDStats
 	// target = phi + 0.5 psi(1, 0) = (2, 1); delta = (2, 1);
 	// psi(0, 1) = 0.5 delta = (1, 0.5); ||delta||^2 / d = 5/2.
-	if err := tab.UpdateRelabel(b, 0, nil, &st); err != nil {
+	if err := tab.UpdateRelabel(b, 0, &st, nil); err != nil {
 		t.Fatal(err)
 	}
 	if r := tab.Tables[0].Row(0, 1); r[0] != 1 || r[1] != 0.5 {
@@ -250,7 +250,7 @@ func TestUpdateRelabelHand(t *testing.T) {
 	// A terminal next state bootstraps nothing: target = phi = (1, 1),
 	// delta = (0, 0.5), psi(0, 1) = (1, 0.75), ||delta||^2 / d = 1/8.
 	b.Terminal[0] = true
-	if err := tab.UpdateRelabel(b, 0, nil, &st); err != nil {
+	if err := tab.UpdateRelabel(b, 0, &st, nil); err != nil {
 		t.Fatal(err)
 	}
 	if r := tab.Tables[0].Row(0, 1); r[0] != 1 || r[1] != 0.75 {
@@ -297,7 +297,7 @@ func TestUpdateRelabelErrors(t *testing.T) {
 		b.K = []int{0}
 		copy(b.Z, z)
 		tc.f(b)
-		if !panics(func() { tab.UpdateRelabel(b, tc.extra, tc.rng, nil) }) {
+		if !panics(func() { tab.UpdateRelabel(b, tc.extra, nil, tc.rng) }) {
 			t.Errorf("%s: no panic", tc.name)
 		}
 	}
@@ -316,7 +316,7 @@ func TestUpdateRelabelAllocs(t *testing.T) {
 	var st TDStats
 	tab.Greedy(0, 0)
 	if n := testing.AllocsPerRun(100, func() {
-		if err := tab.UpdateRelabel(b, 4, rng, &st); err != nil {
+		if err := tab.UpdateRelabel(b, 4, &st, rng); err != nil {
 			t.Fatal(err)
 		}
 		_ = tab.Greedy(3, 5) + len(tab.Values(2, 1))
@@ -348,7 +348,7 @@ func BenchmarkTabularUpdateRelabel(b *testing.B) {
 	tab.Greedy(0, 0)
 	b.ReportAllocs()
 	for b.Loop() {
-		if err := tab.UpdateRelabel(bt, 4, rng, &st); err != nil {
+		if err := tab.UpdateRelabel(bt, 4, &st, rng); err != nil {
 			b.Fatal(err)
 		}
 	}

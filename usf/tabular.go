@@ -471,14 +471,14 @@ func (st TDStats) Mean() float64 {
 // nil if extra is 0). Every update adds to st, if it is not nil, the
 // squared TD error per feature, recovered from the change of the row as
 // ||change||^2 / (alpha^2 d). The step alpha follows the schedule of
-// TabularConfig.Step; each update counts as one step (Steps).
+// TabularConfig.Schedule; each update counts as one step (Steps).
 //
 // It returns an error wrapping a *sf.DivergenceError (ErrDiverged) if a
 // row becomes non-finite, naming the set index; the Tabular is then
 // unusable. It panics if b is malformed (S or Next nil), extra < 0, a
 // state, action or index is out of range, a z is not in the set, or rng
 // is nil with extra > 0. It does not allocate once the cache is built.
-func (t *Tabular) UpdateRelabel(b *Batch, extra int, rng *rand.Rand, st *TDStats) error {
+func (t *Tabular) UpdateRelabel(b *Batch, extra int, st *TDStats, rng *rand.Rand) error {
 	if t.err != nil {
 		return t.err
 	}

@@ -270,7 +270,7 @@ func drawSuccessor(path string, g *mdp.Grid, e *experiment.Experiment, kept map[
 		}
 		env := mdp.NewSampler(g.MDP, 100)
 		budget := e.Budgets[len(e.Budgets)-1]
-		lab, err := transfer.Collect(env, ag, reward, budget, &e.Adapt, experiment.DeriveSeed(e.Seeds[0], 1000))
+		lab, err := transfer.Collect(env, ag, reward, budget, &e.Adapt, experiment.CollectRand(e.Seeds[0], 0))
 		if err != nil {
 			return err
 		}
