@@ -10,12 +10,6 @@ import (
 	"github.com/successor-go/successor/sf"
 )
 
-// Tolerance tiers (the package tests of sf and mdp use the same).
-const (
-	tolExact = 1e-12 // same arithmetic, or a closed form
-	tolTD    = 2e-2  // a TD learner against the exact oracle, relative to max |psi|
-)
-
 // problem is a finite MDP with features and a discount.
 type problem struct {
 	m     *mdp.Finite

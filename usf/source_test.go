@@ -7,6 +7,7 @@ import (
 	"testing"
 
 	"github.com/successor-go/successor/gpi"
+	"github.com/successor-go/successor/internal/testtol"
 	"github.com/successor-go/successor/internal/vec"
 )
 
@@ -63,7 +64,7 @@ func TestSourceFastAndGeneric(t *testing.T) {
 			}
 		}
 	}
-	if act != ba || which != bi || math.Abs(val-best) > tolExact {
+	if act != ba || which != bi || math.Abs(val-best) > testtol.Exact {
 		t.Fatalf("gpi.Act = (%d, %d, %v), brute force (%d, %d, %v)", act, which, val, ba, bi, best)
 	}
 	if _, err := NewSource(l, []float64{1}, nil); !errors.Is(err, ErrDimension) {
@@ -99,7 +100,7 @@ func TestCandidates(t *testing.T) {
 		}
 		var mean, sumSq float64
 		for _, z := range c[1:] {
-			if math.Abs(vec.Dot(z, z)-1) > 1e-12 {
+			if math.Abs(vec.Dot(z, z)-1) > testtol.Exact {
 				t.Fatal("candidate not on the unit sphere")
 			}
 			cos := vec.Dot(z, []float64{0.6, 0, 0.8})
