@@ -5,20 +5,22 @@ import (
 	"math"
 	"math/rand/v2"
 
+	"github.com/successor-go/successor/internal/vec"
 	"github.com/successor-go/successor/mdp"
 	"github.com/successor-go/successor/sf"
 	"github.com/successor-go/successor/transfer"
 )
 
 // BaselineConfig configures the learners that start from scratch on the
-// task, with the same labelled budget as the pretrained agents. The zero
-// value means the documented defaults; Resolve fills them in. The
+// task, with the same labelled budget as the pretrained agents. A nil
+// *BaselineConfig and the zero value mean the documented defaults; Resolve
+// fills them in. The
 // discount is the task's (Experiment.TaskGamma), an argument of the
 // learners.
 type BaselineConfig struct {
-	// Alpha is the step size, in (0, 1]. 0 means 0.5 (a deterministic
+	// StepSize is the step size, in (0, 1]. 0 means 0.5 (a deterministic
 	// floor).
-	Alpha float64 `json:"alpha"`
+	StepSize float64 `json:"step_size"`
 	// Epsilon is the random-action rate of the epsilon-greedy behaviour.
 	// 0 means 0.1; a negative value means none, which Resolve records as
 	// -1.
@@ -33,8 +35,8 @@ type BaselineConfig struct {
 // returns it unchanged.
 func (cfg BaselineConfig) Resolve() (BaselineConfig, error) {
 	c := cfg
-	if c.Alpha == 0 {
-		c.Alpha = 0.5
+	if c.StepSize == 0 {
+		c.StepSize = 0.5
 	}
 	if c.Epsilon == 0 {
 		c.Epsilon = 0.1
@@ -45,7 +47,7 @@ func (cfg BaselineConfig) Resolve() (BaselineConfig, error) {
 	if c.EpisodeSteps == 0 {
 		c.EpisodeSteps = 1000
 	}
-	if !(c.Alpha > 0 && c.Alpha <= 1) || !(c.Epsilon == -1 || c.Epsilon >= 0 && c.Epsilon <= 1) || c.EpisodeSteps < 1 {
+	if !(c.StepSize > 0 && c.StepSize <= 1) || !(c.Epsilon == -1 || c.Epsilon >= 0 && c.Epsilon <= 1) || c.EpisodeSteps < 1 {
 		return c, fmt.Errorf("experiment: baseline: invalid settings %+v: %w", c, ErrConfig)
 	}
 	return c, nil
@@ -60,32 +62,38 @@ func checkGamma(gamma float64) error {
 	return nil
 }
 
-// QLearning runs tabular Q-learning from scratch (Watkins 1989; Sutton &
+// QBaseline runs tabular Q-learning from scratch (Watkins 1989; Sutton &
 // Barto 2nd ed., section 6.5) on env with reward r and discount gamma for
 // the largest of the budgets in labelled transitions, acting
 // epsilon-greedily on its own Q (ties at random, Q starts at 0), and
-// returns the greedy policy after each budget (ascending). seed determines
-// the run.
-func QLearning(env transfer.Env, r mdp.Reward, gamma float64, budgets []int, cfg BaselineConfig, seed uint64) ([]mdp.Deterministic, error) {
-	c, err := cfg.Resolve()
+// returns the greedy policy after each budget (ascending). Every draw comes
+// from rng, which it advances.
+func QBaseline(env transfer.Env, r mdp.Reward, gamma float64, budgets []int, cfg *BaselineConfig, rng *rand.Rand) ([]mdp.Deterministic, error) {
+	var c BaselineConfig
+	if cfg != nil {
+		c = *cfg
+	}
+	c, err := c.Resolve()
 	if err != nil {
 		return nil, err
 	}
 	if err := checkGamma(gamma); err != nil {
 		return nil, err
 	}
+	if rng == nil {
+		return nil, fmt.Errorf("experiment: baseline: nil rng: %w", ErrConfig)
+	}
 	n, na := env.NumStates(), env.NumActions()
 	q := make([]float64, n*na)
-	rng := rand.New(rand.NewPCG(seed, streamBaseline))
 	var out []mdp.Deterministic
 	err = runEpisodes(env, budgets, c, rng, func(s int) int {
-		return argmaxRand(q[s*na:(s+1)*na], rng)
+		return vec.ArgmaxReservoir(q[s*na:(s+1)*na], rng)
 	}, func(s, a, next int, term bool) error {
 		target := r(s, a, next)
 		if !term {
 			target += gamma * maxOf(q[next*na:(next+1)*na])
 		}
-		q[s*na+a] += c.Alpha * (target - q[s*na+a])
+		q[s*na+a] += c.StepSize * (target - q[s*na+a])
 		if math.IsNaN(q[s*na+a]) || math.IsInf(q[s*na+a], 0) {
 			return fmt.Errorf("experiment: q-learning: %w", ErrDiverged)
 		}
@@ -93,14 +101,14 @@ func QLearning(env transfer.Env, r mdp.Reward, gamma float64, budgets []int, cfg
 	}, func() {
 		pol := make(mdp.Deterministic, n)
 		for s := range pol {
-			pol[s] = argmaxRand(q[s*na:(s+1)*na], nil)
+			pol[s] = vec.ArgmaxReservoir(q[s*na:(s+1)*na], nil)
 		}
 		out = append(out, pol)
 	})
 	return out, err
 }
 
-// SFQLearning runs SF Q-learning from scratch with the given features phi
+// SFQBaseline runs SF Q-learning from scratch with the given features phi
 // (Barreto et al. 2017, section 5, with a single task), composed of the sf
 // package's pieces: the task vector w is re-fitted after every transition
 // by recursive least squares (sf.TaskEstimator, ridge lambda 1e-6, the
@@ -108,15 +116,22 @@ func QLearning(env transfer.Env, r mdp.Reward, gamma float64, budgets []int, cfg
 // epsilon-greedily on psi(s, a) . w (an sf.Table), and psi learns by
 // sf.TD with the Greedy target for the current w (phi + gamma psi(s', a*),
 // a* greedy in psi(s', .) . w, ties to the lowest action) and the constant
-// step cfg.Alpha, discount gamma. It returns the greedy policy after each
-// budget (ascending).
-func SFQLearning(env transfer.Env, phi sf.FeatureMap, r mdp.Reward, gamma float64, budgets []int, cfg BaselineConfig, seed uint64) ([]mdp.Deterministic, error) {
-	c, err := cfg.Resolve()
+// step cfg.StepSize, discount gamma. It returns the greedy policy after each
+// budget (ascending). Every draw comes from rng, which it advances.
+func SFQBaseline(env transfer.Env, phi sf.FeatureMap, r mdp.Reward, gamma float64, budgets []int, cfg *BaselineConfig, rng *rand.Rand) ([]mdp.Deterministic, error) {
+	var c BaselineConfig
+	if cfg != nil {
+		c = *cfg
+	}
+	c, err := c.Resolve()
 	if err != nil {
 		return nil, err
 	}
 	if err := checkGamma(gamma); err != nil {
 		return nil, err
+	}
+	if rng == nil {
+		return nil, fmt.Errorf("experiment: baseline: nil rng: %w", ErrConfig)
 	}
 	n, na, d := env.NumStates(), env.NumActions(), phi.Dim()
 	tab, err := sf.NewTable(n, na, d)
@@ -124,7 +139,7 @@ func SFQLearning(env transfer.Env, phi sf.FeatureMap, r mdp.Reward, gamma float6
 		return nil, fmt.Errorf("experiment: sf q-learning: %w", err)
 	}
 	w := make([]float64, d)
-	td, err := sf.NewTD(tab, phi, gamma, &sf.TDSettings{Target: sf.Greedy, Task: w, Step: sf.StepSize{Alpha: c.Alpha}})
+	td, err := sf.NewTD(tab, phi, gamma, &sf.TDConfig{Target: sf.Greedy, Task: w, Schedule: sf.StepSchedule{StepSize: c.StepSize}})
 	if err != nil {
 		return nil, fmt.Errorf("experiment: sf q-learning: %w", err)
 	}
@@ -134,7 +149,6 @@ func SFQLearning(env transfer.Env, phi sf.FeatureMap, r mdp.Reward, gamma float6
 	}
 	f := make([]float64, d)
 	q := make([]float64, na)
-	rng := rand.New(rand.NewPCG(seed, streamBaseline))
 	qs := func(s int) []float64 {
 		for a := range na {
 			q[a] = tab.Q(s, a, w)
@@ -143,7 +157,7 @@ func SFQLearning(env transfer.Env, phi sf.FeatureMap, r mdp.Reward, gamma float6
 	}
 	var out []mdp.Deterministic
 	err = runEpisodes(env, budgets, c, rng, func(s int) int {
-		return argmaxRand(qs(s), rng)
+		return vec.ArgmaxReservoir(qs(s), rng)
 	}, func(s, a, next int, term bool) error {
 		phi.Features(f, s, a, next)
 		if err := est.Observe(f, r(s, a, next)); err != nil {
@@ -162,7 +176,7 @@ func SFQLearning(env transfer.Env, phi sf.FeatureMap, r mdp.Reward, gamma float6
 	}, func() {
 		pol := make(mdp.Deterministic, n)
 		for s := range pol {
-			pol[s] = argmaxRand(qs(s), nil)
+			pol[s] = vec.ArgmaxReservoir(qs(s), nil)
 		}
 		out = append(out, pol)
 	})
@@ -203,8 +217,8 @@ func runEpisodes(env transfer.Env, budgets []int, c BaselineConfig, rng *rand.Ra
 			} else {
 				a = greedy(s)
 			}
-			next, term, trunc := env.Step(a, rng)
-			if err := learn(s, a, next, term); err != nil {
+			out := env.Step(a, rng)
+			if err := learn(s, a, out.Next, out.Terminal()); err != nil {
 				return err
 			}
 			steps++
@@ -212,47 +226,24 @@ func runEpisodes(env transfer.Env, budgets []int, c BaselineConfig, rng *rand.Ra
 				snap()
 				bi++
 			}
-			if term || trunc {
+			if out.Done() {
 				break
 			}
-			s = next
+			s = out.Next
 		}
 	}
 	return nil
 }
 
-// Stream of the baselines' generators (the stream number the transfer
-// package gave them before the split, kept so that the figures keep their
-// bits), and the number of consecutive episodes without a step (a
+// maxEmpty is the number of consecutive episodes without a step (a
 // terminal start state) after which a learner gives up.
-const (
-	streamBaseline = 4
-	maxEmpty       = 1000
-)
+const maxEmpty = 1000
 
 // startDone reports whether env's episode ended at Reset (a terminal start
 // state), for environments that can tell (such as *mdp.Sampler).
 func startDone(env mdp.Env) bool {
 	d, ok := env.(interface{ Done() bool })
 	return ok && d.Done()
-}
-
-// argmaxRand returns the index of the largest value, ties broken uniformly
-// at random with rng (the lowest index if rng is nil).
-func argmaxRand(q []float64, rng *rand.Rand) int {
-	best, arg, ties := math.Inf(-1), 0, 0
-	for i, v := range q {
-		switch {
-		case v > best:
-			best, arg, ties = v, i, 1
-		case v == best && rng != nil:
-			ties++
-			if rng.IntN(ties) == 0 {
-				arg = i
-			}
-		}
-	}
-	return arg
 }
 
 func maxOf(q []float64) float64 {

@@ -30,9 +30,10 @@
 //
 // With Baselines, every seed and job also runs tabular Q-learning (Watkins
 // 1989) and SF Q-learning with the place features (Barreto et al. 2017,
-// section 5) from scratch on the labelled budget (QLearning, SFQLearning;
+// section 5) from scratch on the labelled budget (QBaseline, SFQBaseline;
 // seeds DeriveSeed(s, 2000+j) and DeriveSeed(s, 3000+j)), with the task
-// discount.
+// discount. They are not gpi.QLearning and gpi.SFQLearning, which learn a
+// sequence of tasks and record exact learning curves.
 //
 // Work is split into units (one method on one seed, or the baselines of one
 // seed) run by Experiment.Workers goroutines. Every random draw comes from

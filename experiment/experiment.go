@@ -4,6 +4,7 @@ import (
 	"context"
 	"fmt"
 	"math"
+	"math/rand/v2"
 
 	"github.com/successor-go/successor/mdp"
 	"github.com/successor-go/successor/sf"
@@ -238,6 +239,25 @@ func (e *Experiment) RunContext(ctx context.Context) (*Results, error) {
 	return r.assemble(outs), nil
 }
 
+// Streams of the generators the harness makes from derived seeds (the
+// stream numbers package transfer used when its calls took seeds, kept so
+// that the figures keep their bits).
+const (
+	streamCollect  = 2
+	streamBaseline = 4
+)
+
+// CollectRand returns the generator the harness passes to transfer.Collect
+// for job j of the run with the given seed: a PCG generator seeded with
+// DeriveSeed(seed, 1000+j). A program can replay that collection with it.
+func CollectRand(seed uint64, j int) *rand.Rand {
+	return rand.New(rand.NewPCG(DeriveSeed(seed, 1000+uint64(j)), streamCollect))
+}
+
+// baselineRand returns the generator of a baseline run with the derived
+// seed s.
+func baselineRand(s uint64) *rand.Rand { return rand.New(rand.NewPCG(s, streamBaseline)) }
+
 // DeriveSeed returns the seed of a sub-run (a method, a job) of the run with
 // the given seed: a SplitMix64 mix (Steele et al. 2014) of seed and the
 // sub-run's index. An experiment pretrains method m of run seed s with
@@ -259,12 +279,12 @@ func (e *Experiment) adaptAll(ag *transfer.Agent, seed uint64, rewards []mdp.Rew
 	var recs []Record
 	vars := methodVariants(ag.Method(), e.Adapt)
 	for j, job := range e.Jobs {
-		lab, err := transfer.Collect(env, ag, rewards[j], maxB, e.Adapt, DeriveSeed(seed, 1000+uint64(j)))
+		lab, err := transfer.Collect(env, ag, rewards[j], maxB, &e.Adapt, CollectRand(seed, j))
 		if err != nil {
 			return nil, err
 		}
 		for _, b := range e.Budgets {
-			inf, err := transfer.Infer(ag, lab[:b], e.Adapt)
+			inf, err := transfer.Infer(ag, lab[:b], &e.Adapt)
 			if err != nil {
 				return nil, fmt.Errorf("job %q: %w", job.Name, err)
 			}
@@ -274,7 +294,7 @@ func (e *Experiment) adaptAll(ag *transfer.Agent, seed uint64, rewards []mdp.Rew
 				if !v.GPI {
 					cfg.GPI = transfer.GPIOff
 				}
-				pol, err := ag.Policy(inf, cfg)
+				pol, err := ag.Policy(inf, &cfg)
 				if err != nil {
 					return nil, fmt.Errorf("job %q: %w", job.Name, err)
 				}
@@ -297,11 +317,11 @@ func (e *Experiment) runBaselines(seed uint64, rewards []mdp.Reward, refs []*tra
 	var recs []Record
 	for j, job := range e.Jobs {
 		env := mdp.NewSampler(e.Task, bc.EpisodeSteps)
-		qp, err := QLearning(env, rewards[j], e.TaskGamma, e.Budgets, bc, DeriveSeed(seed, 2000+uint64(j)))
+		qp, err := QBaseline(env, rewards[j], e.TaskGamma, e.Budgets, &bc, baselineRand(DeriveSeed(seed, 2000+uint64(j))))
 		if err != nil {
 			return nil, err
 		}
-		sp, err := SFQLearning(env, e.Places, rewards[j], e.TaskGamma, e.Budgets, bc, DeriveSeed(seed, 3000+uint64(j)))
+		sp, err := SFQBaseline(env, e.Places, rewards[j], e.TaskGamma, e.Budgets, &bc, baselineRand(DeriveSeed(seed, 3000+uint64(j))))
 		if err != nil {
 			return nil, err
 		}

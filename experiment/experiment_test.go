@@ -5,6 +5,7 @@ import (
 	"encoding/csv"
 	"encoding/json"
 	"errors"
+	"math/rand/v2"
 	"os"
 	"path/filepath"
 	"reflect"
@@ -31,7 +32,7 @@ const tinyLayout = `
 
 func tinyGrid(t testing.TB) (*mdp.Grid, *sf.Labels) {
 	t.Helper()
-	g, err := mdp.ParseGrid(tinyLayout, &mdp.GridOptions{Labels: map[rune]string{'A': "apple", 'B': "berry"}, Stay: true})
+	g, err := mdp.ParseGrid(tinyLayout, &mdp.GridConfig{Labels: map[rune]string{'A': "apple", 'B': "berry"}, Stay: true})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -190,32 +191,32 @@ func TestReportFiles(t *testing.T) {
 	}
 }
 
-// TestQLearningLearns: with a generous budget tabular Q-learning reaches
+// TestBaselinesLearn: with a generous budget tabular Q-learning reaches
 // the optimal policy of a small room (Watkins' convergence, Sutton & Barto
 // 2nd ed. section 6.5; measured 1.00 at 20000 steps).
-func TestQLearningLearns(t *testing.T) {
+func TestBaselinesLearn(t *testing.T) {
 	g, _ := tinyGrid(t)
 	w, _ := g.Weights(map[string]float64{"berry": 1})
 	r, _ := g.PlaceReward(w)
 	env := mdp.NewSampler(g.MDP, 0)
-	pols, err := experiment.QLearning(env, r, 0.9, []int{20000}, experiment.BaselineConfig{EpisodeSteps: 30}, 1)
+	pols, err := experiment.QBaseline(env, r, 0.9, []int{20000}, &experiment.BaselineConfig{EpisodeSteps: 30}, rand.New(rand.NewPCG(1, 4)))
 	if err != nil {
 		t.Fatal(err)
 	}
-	sc, err := transfer.Evaluate(g.MDP, pols[0], r, 0.9)
+	ev, err := transfer.Evaluate(g.MDP, pols[0], r, 0.9)
 	if err != nil {
 		t.Fatal(err)
 	}
-	if sc.Normalised < 0.99 {
-		t.Errorf("q-learning scores %v after 20000 steps, want >= 0.99", sc.Normalised)
+	if ev.Score.Normalised < 0.99 {
+		t.Errorf("q-learning scores %v after 20000 steps, want >= 0.99", ev.Score.Normalised)
 	}
 	f, _ := sf.GridLabels(g, false)
-	pols, err = experiment.SFQLearning(env, f, r, 0.9, []int{20000}, experiment.BaselineConfig{EpisodeSteps: 30}, 1)
+	pols, err = experiment.SFQBaseline(env, f, r, 0.9, []int{20000}, &experiment.BaselineConfig{EpisodeSteps: 30}, rand.New(rand.NewPCG(1, 4)))
 	if err != nil {
 		t.Fatal(err)
 	}
-	if sc, _ = transfer.Evaluate(g.MDP, pols[0], r, 0.9); sc.Normalised < 0.99 {
-		t.Errorf("sf q-learning scores %v after 20000 steps, want >= 0.99", sc.Normalised)
+	if ev, err = transfer.Evaluate(g.MDP, pols[0], r, 0.9); err != nil || ev.Score.Normalised < 0.99 {
+		t.Fatalf("sf q-learning: %v, want a score >= 0.99 after 20000 steps", err)
 	}
 }
 
@@ -270,7 +271,7 @@ func TestResolve(t *testing.T) {
 	if m["task_gamma"] != 0.95 {
 		t.Errorf("task_gamma %v, want the default 0.95", m["task_gamma"])
 	}
-	if got := keys(m["baseline"]); !reflect.DeepEqual(got, []string{"alpha", "episode_steps", "epsilon"}) {
+	if got := keys(m["baseline"]); !reflect.DeepEqual(got, []string{"episode_steps", "epsilon", "step_size"}) {
 		t.Errorf("baseline keys %v", got)
 	}
 	for _, mc := range m["methods"].([]any) {
@@ -292,7 +293,7 @@ func TestResolve(t *testing.T) {
 		{"budgets not increasing", func(e *experiment.Experiment) { e.Budgets = []int{100, 20} }},
 		{"bad method setting", func(e *experiment.Experiment) { e.Methods[0].SkillGamma = 2 }},
 		{"bad adapt setting", func(e *experiment.Experiment) { e.Adapt.Candidates = -1 }},
-		{"bad baseline setting", func(e *experiment.Experiment) { e.Baseline.Alpha = 2 }},
+		{"bad baseline setting", func(e *experiment.Experiment) { e.Baseline.StepSize = 2 }},
 		{"nothing to run", func(e *experiment.Experiment) { e.Methods, e.Baselines = nil, false }},
 	} {
 		e := tinyExperiment(t, 1)
@@ -309,7 +310,7 @@ func TestResolve(t *testing.T) {
 // TestBaselineResolve checks that the baselines' defaults are idempotent and
 // that "no random actions" is recorded apart from the default.
 func TestBaselineResolve(t *testing.T) {
-	for _, c := range []experiment.BaselineConfig{{}, {Epsilon: -1}, {Alpha: 0.2, Epsilon: 0.3, EpisodeSteps: 5}} {
+	for _, c := range []experiment.BaselineConfig{{}, {Epsilon: -1}, {StepSize: 0.2, Epsilon: 0.3, EpisodeSteps: 5}} {
 		once, err := c.Resolve()
 		if err != nil {
 			t.Fatal(err)

@@ -67,7 +67,7 @@ func (e *Experiment) runMethod(ctx context.Context, mc transfer.PretrainConfig, 
 	cfg.Progress = progress
 
 	if e.CheckpointDir == "" {
-		ag, err := transfer.PretrainContext(ctx, env, cfg)
+		ag, err := transfer.PretrainContext(ctx, env, &cfg)
 		if err != nil {
 			return out, fmt.Errorf("pretrain %s: %w", m, err)
 		}
@@ -127,7 +127,7 @@ func (e *Experiment) runMethod(ctx context.Context, mc transfer.PretrainConfig, 
 	var resumed *ResumedRun
 	switch {
 	case ag == nil:
-		ag, err = transfer.PretrainContext(ctx, env, cfg)
+		ag, err = transfer.PretrainContext(ctx, env, &cfg)
 	case ag.Steps() >= c.Steps:
 		if rec == nil {
 			return out, fmt.Errorf("experiment: checkpoint %s is finished but its run record %s is missing: %w", ckPath, recPath, ErrCheckpoint)
@@ -137,7 +137,7 @@ func (e *Experiment) runMethod(ctx context.Context, mc transfer.PretrainConfig, 
 		addSteps(ag.Steps())
 	default:
 		resumed = &ResumedRun{Method: m, Seed: seed, Steps: ag.Steps()}
-		err = ag.Continue(ctx, env, transfer.ResumeConfig{Steps: c.Steps, CheckpointEvery: cfg.CheckpointEvery,
+		err = ag.Continue(ctx, env, &transfer.ResumeConfig{Steps: c.Steps, CheckpointEvery: cfg.CheckpointEvery,
 			CheckpointPath: ckPath, ProgressEvery: c.ProgressEvery, Progress: cfg.Progress})
 	}
 	if err == nil {

@@ -29,7 +29,7 @@ func ExampleExperiment_RunShard() {
 			#######
 			#A...B#
 			#..S..#
-			#######`, &mdp.GridOptions{Labels: map[rune]string{'A': "apple", 'B': "berry"}, Stay: true})
+			#######`, &mdp.GridConfig{Labels: map[rune]string{'A': "apple", 'B': "berry"}, Stay: true})
 		places, _ := sf.GridLabels(g, false)
 		w, _ := g.Weights(map[string]float64{"berry": 1})
 		return &experiment.Experiment{

@@ -26,7 +26,7 @@ func Example() {
 		#A...B#
 		#.....#
 		#..S..#
-		#######`, &mdp.GridOptions{Labels: map[rune]string{'A': "apple", 'B': "berry"}, Stay: true})
+		#######`, &mdp.GridConfig{Labels: map[rune]string{'A': "apple", 'B': "berry"}, Stay: true})
 	if err != nil {
 		log.Fatal(err)
 	}

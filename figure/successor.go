@@ -266,7 +266,7 @@ func Spread(xs [][]float64, n int) []int {
 // s), greedy in psi(s, a, w_k) . w_k with ties to the lowest action, as a
 // deterministic policy over u's states.
 func SkillPolicies(u *usf.Tabular) []mdp.Policy {
-	n, _, _ := u.Shape()
+	n := u.ObsDim()
 	out := make([]mdp.Policy, len(u.Z))
 	for k := range u.Z {
 		d := make(mdp.Deterministic, n)

@@ -38,7 +38,7 @@ func TestSharedErrors(t *testing.T) {
 			errOf(gpi.DominanceSlack(-1, 0.9)),
 			gpi.ErrConfig, errs.Config, usf.ErrConfig},
 		{"config: negative steps per task",
-			errOf(gpi.QLearning(rand.New(rand.NewPCG(1, 1)), nil, nil, nil, &gpi.LearnSettings{StepsPerTask: -1}, nil)),
+			errOf(gpi.QLearning(nil, nil, nil, &gpi.LearnConfig{StepsPerTask: -1}, nil, rand.New(rand.NewPCG(1, 1)))),
 			gpi.ErrConfig, errs.Config, linalg.ErrConfig},
 		{"diverged: successor features overflow",
 			diverge(t),
@@ -59,7 +59,7 @@ func TestSharedErrors(t *testing.T) {
 func diverge(t *testing.T) error {
 	t.Helper()
 	// State 0: action 0 goes to the terminal state 1, action 1 stays.
-	m, err := mdp.New(2, 2, []mdp.Transition{{State: 0, Action: 0, Next: 1, Prob: 1}, {State: 0, Action: 1, Next: 0, Prob: 1}},
+	m, err := mdp.New(2, 2, []mdp.ProbEntry{{State: 0, Action: 0, Next: 1, Prob: 1}, {State: 0, Action: 1, Next: 0, Prob: 1}},
 		[]bool{false, true}, []float64{1, 0})
 	if err != nil {
 		t.Fatal(err)
@@ -70,8 +70,8 @@ func diverge(t *testing.T) error {
 			dst[1] = 1
 		}
 	}}
-	_, err = gpi.SFQLearning(rand.New(rand.NewPCG(2, 2)), m, phi, [][]float64{{0, 1}},
-		&gpi.LearnSettings{Gamma: 0.9, Alpha: 1, Epsilon: 0.5, StepsPerTask: 1000}, nil)
+	_, err = gpi.SFQLearning(m, phi, [][]float64{{0, 1}},
+		&gpi.LearnConfig{Gamma: 0.9, StepSize: 1, Epsilon: 0.5, StepsPerTask: 1000}, nil, rand.New(rand.NewPCG(2, 2)))
 	return err
 }
 

@@ -34,12 +34,12 @@ func (sel *Selector) Policy(dst mdp.Deterministic, winners []int, w []float64, s
 	return nil
 }
 
-// EvaluateSettings configures Evaluate. A nil *EvaluateSettings and the zero
+// EvaluateConfig configures Evaluate. A nil *EvaluateConfig and the zero
 // value mean the defaults.
-type EvaluateSettings struct {
+type EvaluateConfig struct {
 	// Policies, if not nil, holds for every source i the policy pi_i whose
 	// successor features the source holds (exactly or approximately). Its
-	// exact values are the Result's Sources, which is what Theorem 1 of
+	// exact values are the Evaluation's Sources, which is what Theorem 1 of
 	// Barreto et al. (2017) compares the GPI policy with.
 	Policies []mdp.Policy
 	// Tasks, used when Policies is nil, holds for every source i the task
@@ -52,17 +52,18 @@ type EvaluateSettings struct {
 	Solver *mdp.Solver
 }
 
-// Result is the exact evaluation of a GPI policy and of its sources' own
-// policies on one task. Value slices are indexed s*A + a (Q) or s (V), as in
-// mdp.Values.
-type Result struct {
+// Evaluation is the exact evaluation of a GPI policy and of its sources' own
+// policies on one task: the exact values of the GPI policy (the embedded
+// mdp.Values, as mdp.Evaluate returns them) and what is specific to GPI.
+// Value slices are indexed s*A + a (Q) or s (V), as in mdp.Values.
+type Evaluation struct {
+	// Values holds the exact V and Q of Policy for the task.
+	mdp.Values
 	// Policy is the deterministic GPI policy, ties broken as in Act.
 	Policy mdp.Deterministic
 	// Winner[s] is the source that attains the maximum in state s.
 	Winner []int
-	// GPI holds the exact values of Policy for the task.
-	GPI *mdp.Values
-	// SourcePolicies[i] is source i's own policy (see EvaluateSettings).
+	// SourcePolicies[i] is source i's own policy (see EvaluateConfig).
 	SourcePolicies []mdp.Policy
 	// Sources[i] holds the exact values of SourcePolicies[i] for the task.
 	Sources []*mdp.Values
@@ -72,17 +73,17 @@ type Result struct {
 }
 
 // Improvement returns, for every state-action pair, how much the GPI policy
-// gains over the best source policy: GPI.Q[j] - max_i Sources[i].Q[j].
+// gains over the best source policy: Q[j] - max_i Sources[i].Q[j].
 // Theorem 1 of Barreto et al. (2017) says it is >= -2 eps/(1 - gamma) when
 // the sources are within eps of their policies' values (Policies given).
-func (r *Result) Improvement() []float64 {
-	d := make([]float64, len(r.GPI.Q))
+func (r *Evaluation) Improvement() []float64 {
+	d := make([]float64, len(r.Q))
 	for j := range d {
 		best := math.Inf(-1)
 		for _, v := range r.Sources {
 			best = max(best, v.Q[j])
 		}
-		d[j] = r.GPI.Q[j] - best
+		d[j] = r.Q[j] - best
 	}
 	return d
 }
@@ -90,8 +91,8 @@ func (r *Result) Improvement() []float64 {
 // Epsilon returns max_i max_{s,a} |Approx[i][s*A+a] - Sources[i].Q[s*A+a]|,
 // the measured eps of Theorem 1 of Barreto et al. (2017): how far each
 // source's estimate is from the exact value of its own policy. It is only
-// that eps when the sources' policies were given in EvaluateSettings.
-func (r *Result) Epsilon() float64 {
+// that eps when the sources' policies were given in EvaluateConfig.
+func (r *Evaluation) Epsilon() float64 {
 	var e float64
 	for i, v := range r.Sources {
 		for j, q := range v.Q {
@@ -104,7 +105,7 @@ func (r *Result) Epsilon() float64 {
 // Evaluate returns the exact value, on the finite MDP m, of the GPI policy
 // over sources for the task w with reward r(s,a,s') = phi(s,a,s') . w and
 // discount gamma, together with the exact values of each source's own
-// policy (see EvaluateSettings) so that the caller can see where GPI
+// policy (see EvaluateConfig) so that the caller can see where GPI
 // improves on which policy.
 //
 // The GPI policy pi(s) = argmax_a max_i psi_i(s, a) . w is built with Act
@@ -121,9 +122,9 @@ func (r *Result) Epsilon() float64 {
 // (shapes of sources, phi, w, m, settings disagree), ErrNonFinite (w or a
 // GPE value is not finite) or the error of the mdp oracle (bad discount,
 // singular system).
-func Evaluate(m *mdp.Finite, sources []Source, phi sf.FeatureMap, w []float64, gamma float64, settings *EvaluateSettings) (*Result, error) {
+func Evaluate(m *mdp.Finite, sources []Source, phi sf.FeatureMap, w []float64, gamma float64, settings *EvaluateConfig) (*Evaluation, error) {
 	if settings == nil {
-		settings = &EvaluateSettings{}
+		settings = &EvaluateConfig{}
 	}
 	n, na := m.NumStates(), m.NumActions()
 	if err := checkSources(sources, na, len(w), n); err != nil {
@@ -154,7 +155,7 @@ func Evaluate(m *mdp.Finite, sources []Source, phi sf.FeatureMap, w []float64, g
 
 	rbar := ExpectedReward(m, phi, w)
 	var sel Selector
-	res := &Result{
+	res := &Evaluation{
 		Policy:         make(mdp.Deterministic, n),
 		Winner:         make([]int, n),
 		SourcePolicies: make([]mdp.Policy, len(sources)),
@@ -164,11 +165,11 @@ func Evaluate(m *mdp.Finite, sources []Source, phi sf.FeatureMap, w []float64, g
 	if err := sel.Policy(res.Policy, res.Winner, w, sources...); err != nil {
 		return nil, fmt.Errorf("gpi: evaluate: %w", err)
 	}
-	var err error
-	res.GPI, err = settings.Solver.EvaluateExpected(m, res.Policy, rbar, gamma)
+	v, err := settings.Solver.EvaluateExpected(m, res.Policy, rbar, gamma)
 	if err != nil {
 		return nil, fmt.Errorf("gpi: evaluate: gpi policy: %w", err)
 	}
+	res.Values = *v
 	for i, src := range sources {
 		one := sources[i : i+1]
 		q := make([]float64, n*na)

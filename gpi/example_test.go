@@ -36,7 +36,7 @@ func ExampleEvaluate() {
 	// A corridor of three cells, 0 - 1 - 2, with cell 2 terminal; action 0
 	// steps right, action 1 steps left (or stays at cell 0). The feature
 	// is 1 on entering cell 2.
-	m, err := mdp.New(3, 2, []mdp.Transition{
+	m, err := mdp.New(3, 2, []mdp.ProbEntry{
 		{State: 0, Action: 0, Next: 1, Prob: 1},
 		{State: 0, Action: 1, Next: 0, Prob: 1},
 		{State: 1, Action: 0, Next: 2, Prob: 1},
@@ -62,13 +62,13 @@ func ExampleEvaluate() {
 		}
 		src = append(src, tab)
 	}
-	res, err := gpi.Evaluate(m, src, phi, []float64{1}, gamma, &gpi.EvaluateSettings{Policies: pols})
+	res, err := gpi.Evaluate(m, src, phi, []float64{1}, gamma, &gpi.EvaluateConfig{Policies: pols})
 	if err != nil {
 		log.Fatal(err)
 	}
 	fmt.Println("GPI policy:", res.Policy[:2], "winners:", res.Winner[:2])
-	fmt.Printf("V gpi %.2f, V right %.2f, V left %.2f\n", res.GPI.V[:2], res.Sources[0].V[:2], res.Sources[1].V[:2])
-	fmt.Println("Theorem 1 holds:", gpi.CheckDominance(res.GPI.Q, [][]float64{res.Sources[0].Q, res.Sources[1].Q}, 2, 0, gamma, 1e-12) == nil)
+	fmt.Printf("V gpi %.2f, V right %.2f, V left %.2f\n", res.V[:2], res.Sources[0].V[:2], res.Sources[1].V[:2])
+	fmt.Println("Theorem 1 holds:", gpi.CheckDominance(res.Q, [][]float64{res.Sources[0].Q, res.Sources[1].Q}, 2, 0, gamma, 1e-12) == nil)
 	// Derived by hand: stepping right from cell 1 pays 1 at once, from cell
 	// 0 one step later, 0.5 * 1; stepping left never reaches cell 2.
 
@@ -118,12 +118,12 @@ func ExampleSFQLearning() {
 	// 1 = optimal) at the start and at the end of each task, and the mean
 	// over all evaluations. GPI over the earlier tasks' SFs starts the
 	// later tasks near optimal; the Q table of the last task does not.
-	set := &gpi.LearnSettings{StepsPerTask: 20000}
+	set := &gpi.LearnConfig{StepsPerTask: 20000}
 	for _, run := range []struct {
 		name  string
-		learn func(*rand.Rand, *mdp.Finite, sf.FeatureMap, [][]float64, *gpi.LearnSettings, func(gpi.Progress)) (*gpi.LearnResult, error)
+		learn func(*mdp.Finite, sf.FeatureMap, [][]float64, *gpi.LearnConfig, func(gpi.Progress), *rand.Rand) (*gpi.LearnResult, error)
 	}{{"SF Q-learning", gpi.SFQLearning}, {"Q-learning", gpi.QLearning}} {
-		res, err := run.learn(rand.New(rand.NewPCG(1, 2)), g.MDP, phi, tasks, set, nil)
+		res, err := run.learn(g.MDP, phi, tasks, set, nil, rand.New(rand.NewPCG(1, 2)))
 		if err != nil {
 			log.Fatal(err)
 		}

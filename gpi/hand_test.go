@@ -21,7 +21,7 @@ import (
 // = 1 on every transition.
 func handMDP(t *testing.T) (*mdp.Finite, sf.FeatureMap) {
 	t.Helper()
-	m, err := mdp.New(3, 2, []mdp.Transition{
+	m, err := mdp.New(3, 2, []mdp.ProbEntry{
 		{State: 0, Action: 0, Next: 1, Prob: 1},
 		{State: 0, Action: 1, Next: 2, Prob: 1},
 		{State: 1, Action: 0, Next: 2, Prob: 1},
@@ -70,7 +70,7 @@ func TestGPIBeatsEverySource(t *testing.T) {
 		}
 		src[i] = tab
 	}
-	res, err := gpi.Evaluate(m, src, phi, w, gamma, &gpi.EvaluateSettings{Policies: pols})
+	res, err := gpi.Evaluate(m, src, phi, w, gamma, &gpi.EvaluateConfig{Policies: pols})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -81,8 +81,8 @@ func TestGPIBeatsEverySource(t *testing.T) {
 		name      string
 		got, want float64
 	}{
-		{"V_gpi(0)", res.GPI.V[0], 0.71},
-		{"V_gpi(1)", res.GPI.V[1], 0.9},
+		{"V_gpi(0)", res.V[0], 0.71},
+		{"V_gpi(1)", res.V[1], 0.9},
 		{"V_1(0)", res.Sources[0].V[0], -0.19},
 		{"V_2(0)", res.Sources[1].V[0], -0.1},
 		{"Q_1(0,0)", res.Sources[0].Q[0], -0.19},
@@ -95,8 +95,8 @@ func TestGPIBeatsEverySource(t *testing.T) {
 			t.Errorf("%s = %.15g, want %.15g (derived by hand)", c.name, c.got, c.want)
 		}
 	}
-	if !(res.GPI.V[0] > res.Sources[0].V[0]+0.5 && res.GPI.V[0] > res.Sources[1].V[0]+0.5) {
-		t.Errorf("GPI V(0) = %v not strictly above the sources %v, %v", res.GPI.V[0], res.Sources[0].V[0], res.Sources[1].V[0])
+	if !(res.V[0] > res.Sources[0].V[0]+0.5 && res.V[0] > res.Sources[1].V[0]+0.5) {
+		t.Errorf("GPI V(0) = %v not strictly above the sources %v, %v", res.V[0], res.Sources[0].V[0], res.Sources[1].V[0])
 	}
 
 	// Without Policies, each source acts alone on w, greedy in psi_i . w:
@@ -203,7 +203,7 @@ func TestEvaluateErrors(t *testing.T) {
 		name string
 		src  []gpi.Source
 		w    []float64
-		set  *gpi.EvaluateSettings
+		set  *gpi.EvaluateConfig
 		want error
 	}{
 		{"no sources", nil, w, nil, gpi.ErrNoSources},
@@ -211,8 +211,8 @@ func TestEvaluateErrors(t *testing.T) {
 		{"shape", []gpi.Source{good, wide}, w, nil, gpi.ErrDimension},
 		{"w length", []gpi.Source{good}, []float64{1}, nil, gpi.ErrDimension},
 		{"w NaN", []gpi.Source{good}, []float64{math.NaN(), 0}, nil, gpi.ErrNonFinite},
-		{"policies", []gpi.Source{good}, w, &gpi.EvaluateSettings{Policies: []mdp.Policy{mdp.Uniform{N: 2}, mdp.Uniform{N: 2}}}, gpi.ErrDimension},
-		{"tasks", []gpi.Source{good}, w, &gpi.EvaluateSettings{Tasks: [][]float64{{1}}}, gpi.ErrDimension},
+		{"policies", []gpi.Source{good}, w, &gpi.EvaluateConfig{Policies: []mdp.Policy{mdp.Uniform{N: 2}, mdp.Uniform{N: 2}}}, gpi.ErrDimension},
+		{"tasks", []gpi.Source{good}, w, &gpi.EvaluateConfig{Tasks: [][]float64{{1}}}, gpi.ErrDimension},
 	} {
 		if _, err := gpi.Evaluate(m, c.src, phi, c.w, 0.9, c.set); !errors.Is(err, c.want) {
 			t.Errorf("%s: error %v, want %v", c.name, err, c.want)

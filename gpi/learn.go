@@ -11,17 +11,17 @@ import (
 	"github.com/successor-go/successor/sf"
 )
 
-// Defaults of LearnSettings.
+// Defaults of LearnConfig.
 const (
 	DefaultLearnGamma   = 0.95
 	DefaultStepsPerTask = 10000
 	DefaultEpsilon      = 0.1
-	DefaultAlpha        = 0.1
+	DefaultStepSize     = 0.1
 )
 
-// LearnSettings configures SFQLearning and QLearning. A nil *LearnSettings
+// LearnConfig configures SFQLearning and QLearning. A nil *LearnConfig
 // and the zero value mean the defaults.
-type LearnSettings struct {
+type LearnConfig struct {
 	// Gamma is the discount, in (0, 1). 0 means DefaultLearnGamma.
 	Gamma float64
 	// StepsPerTask is K, the number of transitions before the next task
@@ -30,9 +30,9 @@ type LearnSettings struct {
 	// Epsilon is the probability of a uniformly random action, in
 	// [0, 1]. 0 means DefaultEpsilon; a negative value means none.
 	Epsilon float64
-	// Alpha is the constant step size of the TD and Q-learning updates,
-	// in (0, 1]. 0 means DefaultAlpha.
-	Alpha float64
+	// StepSize is the constant step size of the TD and Q-learning updates,
+	// in (0, 1]. 0 means DefaultStepSize.
+	StepSize float64
 	// TimeLimit is the number of steps after which an episode is
 	// truncated (it bootstraps; it is not a termination). 0 means
 	// mdp.DepotTimeLimit; a negative value means no limit.
@@ -47,18 +47,18 @@ type LearnSettings struct {
 	CurrentOnly bool
 }
 
-type learnConfig struct {
+type learnParams struct {
 	gamma, eps, alpha           float64
 	steps, timeLimit, evalEvery int
 	currentOnly                 bool
 }
 
-func (s *LearnSettings) resolve() (learnConfig, error) {
-	var z LearnSettings
+func (s *LearnConfig) resolve() (learnParams, error) {
+	var z LearnConfig
 	if s != nil {
 		z = *s
 	}
-	c := learnConfig{gamma: z.Gamma, eps: z.Epsilon, alpha: z.Alpha, steps: z.StepsPerTask,
+	c := learnParams{gamma: z.Gamma, eps: z.Epsilon, alpha: z.StepSize, steps: z.StepsPerTask,
 		timeLimit: z.TimeLimit, evalEvery: z.EvalEvery, currentOnly: z.CurrentOnly}
 	if c.gamma == 0 {
 		c.gamma = DefaultLearnGamma
@@ -81,7 +81,7 @@ func (s *LearnSettings) resolve() (learnConfig, error) {
 		return c, fmt.Errorf("epsilon %v above 1: %w", c.eps, ErrConfig)
 	}
 	if c.alpha == 0 {
-		c.alpha = DefaultAlpha
+		c.alpha = DefaultStepSize
 	}
 	if !(c.alpha > 0 && c.alpha <= 1) {
 		return c, fmt.Errorf("alpha %v outside (0, 1]: %w", c.alpha, ErrConfig)
@@ -175,13 +175,13 @@ type agent interface {
 // and uniform returns coincide, so that the normalised return is
 // undefined), ErrNoSources (no tasks), ErrDimension, ErrNonFinite,
 // ErrDiverged (with the step, from sf.DivergenceError) or an oracle error.
-func SFQLearning(rng *rand.Rand, m *mdp.Finite, phi sf.FeatureMap, tasks [][]float64, settings *LearnSettings, progress func(Progress)) (*LearnResult, error) {
+func SFQLearning(m *mdp.Finite, phi sf.FeatureMap, tasks [][]float64, settings *LearnConfig, progress func(Progress), rng *rand.Rand) (*LearnResult, error) {
 	c, err := settings.resolve()
 	if err != nil {
 		return nil, fmt.Errorf("gpi: sf q-learning: %w", err)
 	}
 	ag := &sfqAgent{m: m, phi: phi, cfg: c}
-	res, err := learn(rng, m, phi, tasks, c, ag, progress)
+	res, err := learn(m, phi, tasks, c, ag, progress, rng)
 	if err != nil {
 		return nil, fmt.Errorf("gpi: sf q-learning: %w", err)
 	}
@@ -198,13 +198,13 @@ func SFQLearning(rng *rand.Rand, m *mdp.Finite, phi sf.FeatureMap, tasks [][]flo
 // tasks (a new task starts from the previous task's values), and the
 // reward phi(s,a,s') . w_i is computed from the features. Errors are as
 // for SFQLearning.
-func QLearning(rng *rand.Rand, m *mdp.Finite, phi sf.FeatureMap, tasks [][]float64, settings *LearnSettings, progress func(Progress)) (*LearnResult, error) {
+func QLearning(m *mdp.Finite, phi sf.FeatureMap, tasks [][]float64, settings *LearnConfig, progress func(Progress), rng *rand.Rand) (*LearnResult, error) {
 	c, err := settings.resolve()
 	if err != nil {
 		return nil, fmt.Errorf("gpi: q-learning: %w", err)
 	}
 	ag := &qAgent{m: m, phi: phi, cfg: c, q: make([]float64, m.NumStates()*m.NumActions()), f: make([]float64, phi.Dim())}
-	res, err := learn(rng, m, phi, tasks, c, ag, progress)
+	res, err := learn(m, phi, tasks, c, ag, progress, rng)
 	if err != nil {
 		return nil, fmt.Errorf("gpi: q-learning: %w", err)
 	}
@@ -213,7 +213,7 @@ func QLearning(rng *rand.Rand, m *mdp.Finite, phi sf.FeatureMap, tasks [][]float
 }
 
 // learn is the loop shared by the learners.
-func learn(rng *rand.Rand, m *mdp.Finite, phi sf.FeatureMap, tasks [][]float64, c learnConfig, ag agent, progress func(Progress)) (*LearnResult, error) {
+func learn(m *mdp.Finite, phi sf.FeatureMap, tasks [][]float64, c learnParams, ag agent, progress func(Progress), rng *rand.Rand) (*LearnResult, error) {
 	if rng == nil {
 		return nil, fmt.Errorf("nil rng: %w", ErrConfig)
 	}
@@ -278,15 +278,15 @@ func learn(rng *rand.Rand, m *mdp.Finite, phi sf.FeatureMap, tasks [][]float64, 
 			if c.eps > 0 && rng.Float64() < c.eps {
 				a = rng.IntN(na)
 			}
-			next, term, trunc := env.Step(a, rng)
-			if err := ag.update(s, a, next, term); err != nil {
+			out := env.Step(a, rng)
+			if err := ag.update(s, a, out.Next, out.Terminal()); err != nil {
 				return nil, fmt.Errorf("task %d step %d: %w", i, step, err)
 			}
 			total++
-			if term || trunc {
+			if out.Done() {
 				s = env.Reset(rng)
 			} else {
-				s = next
+				s = out.Next
 			}
 			if step%c.evalEvery == 0 || step == c.steps {
 				if err := evaluate(step); err != nil {
@@ -315,7 +315,7 @@ func startValue(m *mdp.Finite, v []float64) float64 {
 type sfqAgent struct {
 	m      *mdp.Finite
 	phi    sf.FeatureMap
-	cfg    learnConfig
+	cfg    learnParams
 	tables []*sf.Table
 	tds    []*sf.TD
 	srcs   []Source
@@ -333,7 +333,7 @@ func (g *sfqAgent) begin(i int, w []float64) error {
 	if err != nil {
 		return err
 	}
-	td, err := sf.NewTD(t, g.phi, g.cfg.gamma, &sf.TDSettings{Target: sf.Greedy, Task: w, Step: sf.StepSize{Alpha: g.cfg.alpha}})
+	td, err := sf.NewTD(t, g.phi, g.cfg.gamma, &sf.TDConfig{Target: sf.Greedy, Task: w, Schedule: sf.StepSchedule{StepSize: g.cfg.alpha}})
 	if err != nil {
 		return err
 	}
@@ -390,7 +390,7 @@ func (g *sfqAgent) policy(dst mdp.Deterministic) error {
 type qAgent struct {
 	m     *mdp.Finite
 	phi   sf.FeatureMap
-	cfg   learnConfig
+	cfg   learnParams
 	q     []float64
 	f     []float64
 	w     []float64

@@ -72,16 +72,16 @@ func TestSFQLearningBeatsQLearning(t *testing.T) {
 	var sfq, ql, sfq0, ql0 float64
 	for seed := uint64(1); seed <= seeds; seed++ {
 		g, phi, tasks := depotTasks(t, seed, 10)
-		set := &gpi.LearnSettings{StepsPerTask: 4000}
+		set := &gpi.LearnConfig{StepsPerTask: 4000}
 		var calls int
-		a, err := gpi.SFQLearning(rand.New(rand.NewPCG(seed, 2)), g.MDP, phi, tasks, set, func(gpi.Progress) { calls++ })
+		a, err := gpi.SFQLearning(g.MDP, phi, tasks, set, func(gpi.Progress) { calls++ }, rand.New(rand.NewPCG(seed, 2)))
 		if err != nil {
 			t.Fatal(err)
 		}
 		if calls != len(a.Curve) || len(a.Curve) != 10*11 || len(a.Tables) != 10 {
 			t.Fatalf("seed %d: %d progress calls, %d evaluations, %d tables; want 110, 110, 10", seed, calls, len(a.Curve), len(a.Tables))
 		}
-		b, err := gpi.QLearning(rand.New(rand.NewPCG(seed, 2)), g.MDP, phi, tasks, set, nil)
+		b, err := gpi.QLearning(g.MDP, phi, tasks, set, nil, rand.New(rand.NewPCG(seed, 2)))
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -105,15 +105,15 @@ func TestSFQLearningBeatsQLearning(t *testing.T) {
 
 func TestLearnDeterministic(t *testing.T) {
 	g, phi, tasks := depotTasks(t, 9, 3)
-	set := &gpi.LearnSettings{StepsPerTask: 300, EvalEvery: 100}
-	for name, f := range map[string]func(*rand.Rand, *mdp.Finite, sf.FeatureMap, [][]float64, *gpi.LearnSettings, func(gpi.Progress)) (*gpi.LearnResult, error){
+	set := &gpi.LearnConfig{StepsPerTask: 300, EvalEvery: 100}
+	for name, f := range map[string]func(*mdp.Finite, sf.FeatureMap, [][]float64, *gpi.LearnConfig, func(gpi.Progress), *rand.Rand) (*gpi.LearnResult, error){
 		"sfq": gpi.SFQLearning, "ql": gpi.QLearning,
 	} {
-		a, err := f(rand.New(rand.NewPCG(5, 5)), g.MDP, phi, tasks, set, nil)
+		a, err := f(g.MDP, phi, tasks, set, nil, rand.New(rand.NewPCG(5, 5)))
 		if err != nil {
 			t.Fatal(err)
 		}
-		b, err := f(rand.New(rand.NewPCG(5, 5)), g.MDP, phi, tasks, set, nil)
+		b, err := f(g.MDP, phi, tasks, set, nil, rand.New(rand.NewPCG(5, 5)))
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -141,22 +141,22 @@ func TestLearnErrors(t *testing.T) {
 		name  string
 		rng   *rand.Rand
 		tasks [][]float64
-		set   *gpi.LearnSettings
+		set   *gpi.LearnConfig
 		want  error
 	}{
 		{"nil rng", nil, tasks, nil, gpi.ErrConfig},
 		{"no tasks", rng, nil, nil, gpi.ErrNoSources},
 		{"task length", rng, [][]float64{{1}}, nil, gpi.ErrDimension},
-		{"gamma", rng, tasks, &gpi.LearnSettings{Gamma: 1}, gpi.ErrDiscount},
-		{"epsilon", rng, tasks, &gpi.LearnSettings{Epsilon: 2}, gpi.ErrConfig},
-		{"alpha", rng, tasks, &gpi.LearnSettings{Alpha: -1}, gpi.ErrConfig},
-		{"steps", rng, tasks, &gpi.LearnSettings{StepsPerTask: -1}, gpi.ErrConfig},
+		{"gamma", rng, tasks, &gpi.LearnConfig{Gamma: 1}, gpi.ErrDiscount},
+		{"epsilon", rng, tasks, &gpi.LearnConfig{Epsilon: 2}, gpi.ErrConfig},
+		{"step size", rng, tasks, &gpi.LearnConfig{StepSize: -1}, gpi.ErrConfig},
+		{"steps", rng, tasks, &gpi.LearnConfig{StepsPerTask: -1}, gpi.ErrConfig},
 		{"zero task", rng, zero, nil, gpi.ErrConfig}, // every policy has return 0
 	} {
-		if _, err := gpi.SFQLearning(c.rng, g.MDP, phi, c.tasks, c.set, nil); !errors.Is(err, c.want) {
+		if _, err := gpi.SFQLearning(g.MDP, phi, c.tasks, c.set, nil, c.rng); !errors.Is(err, c.want) {
 			t.Errorf("sfq %s: error %v, want %v", c.name, err, c.want)
 		}
-		if _, err := gpi.QLearning(c.rng, g.MDP, phi, c.tasks, c.set, nil); !errors.Is(err, c.want) {
+		if _, err := gpi.QLearning(g.MDP, phi, c.tasks, c.set, nil, c.rng); !errors.Is(err, c.want) {
 			t.Errorf("ql %s: error %v, want %v", c.name, err, c.want)
 		}
 	}

@@ -35,7 +35,7 @@ func randomProblem(t *testing.T, rng *rand.Rand) problem {
 	if rng.IntN(3) == 0 {
 		frac = 0.2 // some runs with terminal states
 	}
-	m, err := mdp.RandomFinite(rng, mdp.RandomConfig{States: n, Actions: na, Branching: 1 + rng.IntN(3), TerminalFraction: frac, SelfLoops: rng.IntN(2) == 0})
+	m, err := mdp.RandomFinite(&mdp.RandomConfig{States: n, Actions: na, Branching: 1 + rng.IntN(3), TerminalFraction: frac, SelfLoops: rng.IntN(2) == 0}, rng)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -81,21 +81,21 @@ func TestTheorem1(t *testing.T) {
 		src := make([]gpi.Source, k)
 		pols := make([]mdp.Policy, k)
 		for i := range src {
-			pols[i] = mdp.RandomPolicy(rng, p.m)
+			pols[i] = mdp.RandomPolicy(p.m, rng)
 			tab, err := sf.Exact(p.m, pols[i], p.phi, p.gamma)
 			if err != nil {
 				t.Fatal(err)
 			}
 			src[i] = tab
 		}
-		res, err := gpi.Evaluate(p.m, src, p.phi, p.w, p.gamma, &gpi.EvaluateSettings{Policies: pols})
+		res, err := gpi.Evaluate(p.m, src, p.phi, p.w, p.gamma, &gpi.EvaluateConfig{Policies: pols})
 		if err != nil {
 			t.Fatalf("run %d: %v", run, err)
 		}
-		if e := res.Epsilon(); e > testtol.Solve*(1+maxAbs(res.GPI.Q)) {
+		if e := res.Epsilon(); e > testtol.Solve*(1+maxAbs(res.Q)) {
 			t.Errorf("run %d: sf.Exact . w and mdp.EvaluateExpected differ by %g", run, e)
 		}
-		if err := gpi.CheckDominance(res.GPI.Q, qs(res.Sources), p.m.NumActions(), 0, p.gamma, tolTheorem); err != nil {
+		if err := gpi.CheckDominance(res.Q, qs(res.Sources), p.m.NumActions(), 0, p.gamma, tolTheorem); err != nil {
 			t.Errorf("run %d (n=%d, A=%d, k=%d, gamma=%.3f): %v", run, p.m.NumStates(), p.m.NumActions(), k, p.gamma, err)
 		}
 		for _, g := range res.Improvement() {
@@ -159,24 +159,24 @@ func TestTheorem1Approximate(t *testing.T) {
 		src := make([]gpi.Source, k)
 		pols := make([]mdp.Policy, k)
 		for i := range src {
-			pols[i] = mdp.RandomPolicy(rng, p.m)
+			pols[i] = mdp.RandomPolicy(p.m, rng)
 			tab, err := sf.Exact(p.m, pols[i], p.phi, p.gamma)
 			if err != nil {
 				t.Fatal(err)
 			}
 			src[i] = perturbed(rng, tab, p.w, eps)
 		}
-		res, err := gpi.Evaluate(p.m, src, p.phi, p.w, p.gamma, &gpi.EvaluateSettings{Policies: pols})
+		res, err := gpi.Evaluate(p.m, src, p.phi, p.w, p.gamma, &gpi.EvaluateConfig{Policies: pols})
 		if err != nil {
 			t.Fatalf("run %d: %v", run, err)
 		}
 		if e := res.Epsilon(); e > eps+tolTheorem {
 			t.Fatalf("run %d: perturbation %g exceeds eps %g", run, e, eps)
 		}
-		if err := gpi.CheckDominance(res.GPI.Q, qs(res.Sources), p.m.NumActions(), eps, p.gamma, tolTheorem); err != nil {
+		if err := gpi.CheckDominance(res.Q, qs(res.Sources), p.m.NumActions(), eps, p.gamma, tolTheorem); err != nil {
 			t.Errorf("run %d (eps=%g, gamma=%.3f): %v", run, eps, p.gamma, err)
 		}
-		err = gpi.CheckDominance(res.GPI.Q, qs(res.Sources), p.m.NumActions(), 0, p.gamma, tolTheorem)
+		err = gpi.CheckDominance(res.Q, qs(res.Sources), p.m.NumActions(), 0, p.gamma, tolTheorem)
 		var de *gpi.DominanceError
 		if errors.As(err, &de) {
 			uncorrected++
@@ -251,7 +251,7 @@ func TestTheorem2(t *testing.T) {
 		if run%3 == 2 && math.Abs(bound-2*eps/(1-p.gamma)) > 1e-12 {
 			t.Fatalf("run %d: w_i among the tasks but bound %g != 2 eps/(1-gamma)", run, bound)
 		}
-		if err := gpi.CheckGap(opt.Q, res.GPI.Q, p.m.NumActions(), bound, tolTheorem); err != nil {
+		if err := gpi.CheckGap(opt.Q, res.Q, p.m.NumActions(), bound, tolTheorem); err != nil {
 			t.Errorf("run %d (case %d, eps=%g): %v", run, run%3, eps, err)
 		}
 	}

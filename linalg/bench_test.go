@@ -116,7 +116,7 @@ func BenchmarkSolveIterative(b *testing.B) {
 		n := side * side
 		rhs := randVec(n, rand.New(rand.NewPCG(3, 3)))
 		x := make([]float64, n)
-		set := &linalg.IterSettings{Tol: 1e-6}
+		set := &linalg.IterConfig{Tol: 1e-6}
 		b.Run(fmt.Sprintf("n=%d/rhs=1", n), func(b *testing.B) {
 			b.ReportAllocs()
 			var res linalg.IterResult
@@ -131,7 +131,7 @@ func BenchmarkSolveIterative(b *testing.B) {
 		b.Run(fmt.Sprintf("jacobi/n=%d/rhs=1", n), func(b *testing.B) {
 			b.ReportAllocs()
 			var res linalg.IterResult
-			jset := &linalg.IterSettings{Tol: 1e-6, Precond: linalg.PrecondJacobi}
+			jset := &linalg.IterConfig{Tol: 1e-6, Precond: linalg.PrecondJacobi}
 			for b.Loop() {
 				var err error
 				if res, err = linalg.SolveIterative(x, p, 0.99, rhs, jset); err != nil {
@@ -142,7 +142,7 @@ func BenchmarkSolveIterative(b *testing.B) {
 		})
 		b.Run(fmt.Sprintf("serial/n=%d/rhs=1", n), func(b *testing.B) {
 			b.ReportAllocs()
-			sset := &linalg.IterSettings{Tol: 1e-6, Workers: 1}
+			sset := &linalg.IterConfig{Tol: 1e-6, Workers: 1}
 			for b.Loop() {
 				if _, err := linalg.SolveIterative(x, p, 0.99, rhs, sset); err != nil {
 					b.Fatal(err)
@@ -169,7 +169,7 @@ func BenchmarkSolveIterative(b *testing.B) {
 		var res linalg.IterResult
 		for b.Loop() {
 			var err error
-			if res, err = linalg.SolveIterative(x, p, 0.99, rhs, &linalg.IterSettings{Tol: 1e-6}); err != nil {
+			if res, err = linalg.SolveIterative(x, p, 0.99, rhs, &linalg.IterConfig{Tol: 1e-6}); err != nil {
 				b.Fatal(err)
 			}
 		}
@@ -184,7 +184,7 @@ func BenchmarkIterSolver(b *testing.B) {
 	rhs := randVec(900, rand.New(rand.NewPCG(3, 3)))
 	x := make([]float64, 900)
 	var s linalg.IterSolver
-	set := &linalg.IterSettings{Tol: 1e-8}
+	set := &linalg.IterConfig{Tol: 1e-8}
 	b.ReportAllocs()
 	for b.Loop() {
 		if _, err := s.Solve(x, p, 0.95, rhs, set); err != nil {
@@ -204,11 +204,11 @@ func BenchmarkIterSolverBreakdown(b *testing.B) {
 	x := make([]float64, 4200)
 	for _, c := range []struct {
 		name string
-		set  *linalg.IterSettings
+		set  *linalg.IterConfig
 	}{
-		{"auto", &linalg.IterSettings{Tol: 1e-10}},
-		{"bicgstab-jacobi", &linalg.IterSettings{Tol: 1e-10, Method: linalg.IterBiCGSTAB, Precond: linalg.PrecondJacobi}},
-		{"gmres", &linalg.IterSettings{Tol: 1e-10, Method: linalg.IterGMRES}},
+		{"auto", &linalg.IterConfig{Tol: 1e-10}},
+		{"bicgstab-jacobi", &linalg.IterConfig{Tol: 1e-10, Method: linalg.IterBiCGSTAB, Precond: linalg.PrecondJacobi}},
+		{"gmres", &linalg.IterConfig{Tol: 1e-10, Method: linalg.IterGMRES}},
 	} {
 		b.Run(c.name+"/n=4200/gamma=0.99", func(b *testing.B) {
 			b.ReportAllocs()

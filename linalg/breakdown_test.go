@@ -159,7 +159,7 @@ func TestIterativeStateActionWalk(t *testing.T) {
 				for _, s := range c.settings(gamma) {
 					name := fmt.Sprintf("n=%d gamma=%v b=%s %v/%v", m, gamma, names[j], s.m, s.pc)
 					x := make([]float64, m)
-					res, err := linalg.SolveIterative(x, p, gamma, b, &linalg.IterSettings{
+					res, err := linalg.SolveIterative(x, p, gamma, b, &linalg.IterConfig{
 						Tol: tol, Method: s.m, Precond: s.pc, MaxIter: 20000,
 					})
 					if err != nil {
@@ -201,7 +201,7 @@ func TestIterativeMultiStateActionWalk(t *testing.T) {
 		t.Fatal(err)
 	}
 	var x mat.Dense
-	set := &linalg.IterSettings{Tol: tol}
+	set := &linalg.IterConfig{Tol: tol}
 	res, err := linalg.SolveIterativeMulti(&x, p, gamma, bm, set)
 	if err != nil {
 		t.Fatal(err)
@@ -263,7 +263,7 @@ func TestIterativeGMRESFallback(t *testing.T) {
 	}{{linalg.IterAuto, 3}, {linalg.IterGMRES, 0}} {
 		for _, restart := range []int{0, 4} {
 			x := make([]float64, n)
-			res, err := linalg.SolveIterative(x, p, gamma, b, &linalg.IterSettings{Tol: tol, Method: c.m, Restart: restart})
+			res, err := linalg.SolveIterative(x, p, gamma, b, &linalg.IterConfig{Tol: tol, Method: c.m, Restart: restart})
 			if err != nil {
 				t.Errorf("%v restart %d: %v", c.m, restart, err)
 				continue
@@ -285,7 +285,7 @@ func TestIterativeGMRESFallback(t *testing.T) {
 		}
 	}
 	x := make([]float64, n)
-	res, err := linalg.SolveIterative(x, p, gamma, b, &linalg.IterSettings{Tol: tol, Method: linalg.IterBiCGSTAB, MaxIter: 30})
+	res, err := linalg.SolveIterative(x, p, gamma, b, &linalg.IterConfig{Tol: tol, Method: linalg.IterBiCGSTAB, MaxIter: 30})
 	var nc *linalg.NotConvergedError
 	if !errors.As(err, &nc) || nc.Iterations != 30 || res.Breakdowns < 2 || nc.Residual != res.Residual || !(res.Residual > tol) {
 		t.Errorf("bicgstab on the skew system: %+v, %v", res, err)
@@ -300,7 +300,7 @@ func TestIterativeBreakdownDeterministic(t *testing.T) {
 	m := 1000
 	b := make([]float64, m)
 	b[m-1] = 1
-	for _, set := range []*linalg.IterSettings{
+	for _, set := range []*linalg.IterConfig{
 		{Tol: 1e-10, Method: linalg.IterBiCGSTAB, Precond: linalg.PrecondJacobi, Workers: 1},
 		{Tol: 1e-10, Workers: 1},
 		{Tol: 1e-10, Method: linalg.IterGMRES, Restart: 20, Workers: 1},
@@ -353,7 +353,7 @@ func TestIterativeRandomIndefinite(t *testing.T) {
 		}
 		b := randVec(n, rnd)
 		x := make([]float64, n)
-		res, err := linalg.SolveIterative(x, p, gamma, b, &linalg.IterSettings{Tol: tol, Restart: n, MaxIter: 3 * n})
+		res, err := linalg.SolveIterative(x, p, gamma, b, &linalg.IterConfig{Tol: tol, Restart: n, MaxIter: 3 * n})
 		if err != nil {
 			t.Errorf("seed %d: %v", seed, err)
 			continue
@@ -383,7 +383,7 @@ func TestIterativeWarmStartNonSymmetric(t *testing.T) {
 	for _, m := range []linalg.IterMethod{linalg.IterBiCGSTAB, linalg.IterGMRES} {
 		for _, pc := range []linalg.Precond{linalg.PrecondSGS, linalg.PrecondJacobi} {
 			x := make([]float64, 400)
-			set := linalg.IterSettings{Tol: 1e-6, Method: m, Precond: pc}
+			set := linalg.IterConfig{Tol: 1e-6, Method: m, Precond: pc}
 			if _, err := linalg.SolveIterative(x, p, 0.99, b, &set); err != nil {
 				t.Fatal(err)
 			}

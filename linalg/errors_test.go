@@ -47,7 +47,7 @@ func TestSharedErrors(t *testing.T) {
 		{"config: unknown iterative method",
 			func() error {
 				p := linalg.GridWalk(2, 2)
-				_, err := linalg.SolveIterative(make([]float64, 4), p, 0.5, []float64{1, 0, 0, 0}, &linalg.IterSettings{Method: 99})
+				_, err := linalg.SolveIterative(make([]float64, 4), p, 0.5, []float64{1, 0, 0, 0}, &linalg.IterConfig{Method: 99})
 				return err
 			}(),
 			linalg.ErrConfig, errs.Config, sf.ErrConfig},

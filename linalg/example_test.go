@@ -29,7 +29,7 @@ func ExampleSolveIterative() {
 	p := linalg.GridWalk(3, 3)
 	b := []float64{1, 1, 1, 1, 1, 1, 1, 1, 1}
 	x := make([]float64, 9)
-	res, err := linalg.SolveIterative(x, p, 0.9, b, &linalg.IterSettings{Tol: 1e-10})
+	res, err := linalg.SolveIterative(x, p, 0.9, b, &linalg.IterConfig{Tol: 1e-10})
 	if err != nil {
 		fmt.Println(err)
 		return
@@ -156,7 +156,7 @@ func ExampleSolveIterative_breakdown() {
 	b := make([]float64, 10)
 	b[9] = 1
 	x := make([]float64, 10)
-	res, err := linalg.SolveIterative(x, p, 0.9, b, &linalg.IterSettings{
+	res, err := linalg.SolveIterative(x, p, 0.9, b, &linalg.IterConfig{
 		Tol: 1e-12, Method: linalg.IterBiCGSTAB, Precond: linalg.PrecondJacobi,
 	})
 	if err != nil {

@@ -2,7 +2,7 @@ package linalg
 
 import "math"
 
-// defaultRestart is GMRES's restart length m when IterSettings.Restart is 0.
+// defaultRestart is GMRES's restart length m when IterConfig.Restart is 0.
 const defaultRestart = 30
 
 // gmres runs restarted GMRES(m) (Saad & Schultz 1986, SIAM J. Sci. Stat.

@@ -28,7 +28,7 @@ const (
 	// IterGMRES is restarted GMRES(m) with modified Gram-Schmidt, for any
 	// non-singular I - gamma P. It cannot break down before it reaches the
 	// solution, but it keeps m + 1 vectors of length n (see
-	// IterSettings.Restart).
+	// IterConfig.Restart).
 	IterGMRES
 )
 
@@ -47,9 +47,9 @@ func (m IterMethod) String() string {
 	return fmt.Sprintf("IterMethod(%d)", int(m))
 }
 
-// IterSettings configures the iterative solver. The zero value (or nil)
+// IterConfig configures the iterative solver. The zero value (or nil)
 // means the documented defaults.
-type IterSettings struct {
+type IterConfig struct {
 	// Tol is the relative residual ||b - (I - gamma P) x|| / ||b|| (2-norm)
 	// at which the solver stops. 0 means 1e-8.
 	Tol float64
@@ -111,7 +111,7 @@ func (e *NotConvergedError) Unwrap() error { return ErrNotConverged }
 // [0, 1), writing x into dst (len n). It allocates its workspace on every
 // call; use an IterSolver to reuse it. See IterSolver.Solve for the method,
 // the stopping rule and the errors.
-func SolveIterative(dst []float64, p *CSR, gamma float64, b []float64, s *IterSettings) (IterResult, error) {
+func SolveIterative(dst []float64, p *CSR, gamma float64, b []float64, s *IterConfig) (IterResult, error) {
 	var is IterSolver
 	defer is.release()
 	return is.Solve(dst, p, gamma, b, s)
@@ -253,8 +253,8 @@ func grow(s []float64, n int) []float64 {
 // reached, CG (not under IterAuto) or GMRES breaks down, or the residual
 // is no longer finite; dst then holds the last iterate. If b = 0, x = 0 is
 // returned at once.
-func (s *IterSolver) Solve(dst []float64, p *CSR, gamma float64, b []float64, set *IterSettings) (IterResult, error) {
-	var cfg IterSettings
+func (s *IterSolver) Solve(dst []float64, p *CSR, gamma float64, b []float64, set *IterConfig) (IterResult, error) {
+	var cfg IterConfig
 	if set != nil {
 		cfg = *set
 	}

@@ -64,7 +64,7 @@ func TestIterativeAgainstDense(t *testing.T) {
 				}
 				for _, workers := range []int{1, 2} {
 					x := make([]float64, n)
-					res, err := linalg.SolveIterative(x, c.p, gamma, b, &linalg.IterSettings{
+					res, err := linalg.SolveIterative(x, c.p, gamma, b, &linalg.IterConfig{
 						Tol: tol, Method: s.m, Precond: s.pc, Workers: workers, Restart: 10 * workers,
 					})
 					if err != nil {
@@ -113,12 +113,12 @@ func TestIterativeWarmStart(t *testing.T) {
 	rnd := rand.New(rand.NewPCG(3, 3))
 	b := randVec(225, rnd)
 	x := make([]float64, 225)
-	cold, err := linalg.SolveIterative(x, p, 0.99, b, &linalg.IterSettings{Tol: 1e-6})
+	cold, err := linalg.SolveIterative(x, p, 0.99, b, &linalg.IterConfig{Tol: 1e-6})
 	if err != nil {
 		t.Fatal(err)
 	}
 	// From the solution itself no iteration is needed.
-	again, err := linalg.SolveIterative(x, p, 0.99, b, &linalg.IterSettings{Tol: 1e-6, UseInitial: true})
+	again, err := linalg.SolveIterative(x, p, 0.99, b, &linalg.IterConfig{Tol: 1e-6, UseInitial: true})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -126,12 +126,12 @@ func TestIterativeWarmStart(t *testing.T) {
 		t.Errorf("warm start at the solution took %d iterations", again.Iterations)
 	}
 	// Tightening from there needs fewer iterations than from zero.
-	tight, err := linalg.SolveIterative(x, p, 0.99, b, &linalg.IterSettings{Tol: 1e-10, UseInitial: true})
+	tight, err := linalg.SolveIterative(x, p, 0.99, b, &linalg.IterConfig{Tol: 1e-10, UseInitial: true})
 	if err != nil {
 		t.Fatal(err)
 	}
 	y := make([]float64, 225)
-	full, err := linalg.SolveIterative(y, p, 0.99, b, &linalg.IterSettings{Tol: 1e-10})
+	full, err := linalg.SolveIterative(y, p, 0.99, b, &linalg.IterConfig{Tol: 1e-10})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -140,7 +140,7 @@ func TestIterativeWarmStart(t *testing.T) {
 	}
 	// A zero right-hand side gives x = 0 at once, whatever x0.
 	zero := make([]float64, 225)
-	res, err := linalg.SolveIterative(x, p, 0.99, zero, &linalg.IterSettings{UseInitial: true})
+	res, err := linalg.SolveIterative(x, p, 0.99, zero, &linalg.IterConfig{UseInitial: true})
 	if err != nil || res.Iterations != 0 || norm2(x) != 0 {
 		t.Errorf("b = 0: %v %v |x| = %v", res, err, norm2(x))
 	}
@@ -151,7 +151,7 @@ func TestIterativeNotConverged(t *testing.T) {
 	b := randVec(400, rand.New(rand.NewPCG(5, 5)))
 	x := make([]float64, 400)
 	for _, m := range []linalg.IterMethod{linalg.IterCG, linalg.IterBiCGSTAB, linalg.IterGMRES} {
-		res, err := linalg.SolveIterative(x, p, 0.999, b, &linalg.IterSettings{Tol: 1e-14, MaxIter: 2, Method: m})
+		res, err := linalg.SolveIterative(x, p, 0.999, b, &linalg.IterConfig{Tol: 1e-14, MaxIter: 2, Method: m})
 		if !errors.Is(err, linalg.ErrNotConverged) {
 			t.Fatalf("%v: got %v", m, err)
 		}
@@ -181,7 +181,7 @@ func TestIterativeErrors(t *testing.T) {
 		p     *linalg.CSR
 		gamma float64
 		b     []float64
-		s     *linalg.IterSettings
+		s     *linalg.IterConfig
 		want  error
 	}{
 		{"gamma one", make([]float64, 6), p, 1, make([]float64, 6), nil, linalg.ErrDiscount},
@@ -190,12 +190,12 @@ func TestIterativeErrors(t *testing.T) {
 		{"dst length", make([]float64, 5), p, 0.5, make([]float64, 6), nil, linalg.ErrDimension},
 		{"b length", make([]float64, 6), p, 0.5, make([]float64, 7), nil, linalg.ErrDimension},
 		{"NaN in b", make([]float64, 6), p, 0.5, nanVec, nil, linalg.ErrNonFinite},
-		{"NaN in x0", append([]float64(nil), nanVec...), p, 0.5, make([]float64, 6), &linalg.IterSettings{UseInitial: true}, linalg.ErrNonFinite},
+		{"NaN in x0", append([]float64(nil), nanVec...), p, 0.5, make([]float64, 6), &linalg.IterConfig{UseInitial: true}, linalg.ErrNonFinite},
 		{"NaN in p", make([]float64, 6), bad, 0.5, make([]float64, 6), nil, linalg.ErrNonFinite},
 		// SGS needs a positive diagonal of I - gamma P: 1 - 0.5*4 < 0.
-		{"sgs on bad diagonal", make([]float64, 1), mustCSR(mat.NewDense(1, 1, []float64{4})), 0.5, []float64{1}, &linalg.IterSettings{Precond: linalg.PrecondSGS}, linalg.ErrSingular},
-		{"unknown method", make([]float64, 6), p, 0.5, make([]float64, 6), &linalg.IterSettings{Method: linalg.IterGMRES + 1}, linalg.ErrConfig},
-		{"unknown precond", make([]float64, 6), p, 0.5, make([]float64, 6), &linalg.IterSettings{Precond: linalg.PrecondJacobi + 1}, linalg.ErrConfig},
+		{"sgs on bad diagonal", make([]float64, 1), mustCSR(mat.NewDense(1, 1, []float64{4})), 0.5, []float64{1}, &linalg.IterConfig{Precond: linalg.PrecondSGS}, linalg.ErrSingular},
+		{"unknown method", make([]float64, 6), p, 0.5, make([]float64, 6), &linalg.IterConfig{Method: linalg.IterGMRES + 1}, linalg.ErrConfig},
+		{"unknown precond", make([]float64, 6), p, 0.5, make([]float64, 6), &linalg.IterConfig{Precond: linalg.PrecondJacobi + 1}, linalg.ErrConfig},
 	}
 	for _, c := range cases {
 		if _, err := linalg.SolveIterative(c.dst, c.p, c.gamma, c.b, c.s); !errors.Is(err, c.want) {
@@ -220,7 +220,7 @@ func TestIterSolverAllocs(t *testing.T) {
 	b := randVec(900, rand.New(rand.NewPCG(1, 1)))
 	x := make([]float64, 900)
 	var s linalg.IterSolver
-	set := &linalg.IterSettings{Tol: 1e-8, Workers: 1}
+	set := &linalg.IterConfig{Tol: 1e-8, Workers: 1}
 	if _, err := s.Solve(x, p, 0.95, b, set); err != nil {
 		t.Fatal(err)
 	}
@@ -239,9 +239,9 @@ func TestSolveIterativeMulti(t *testing.T) {
 	for _, p := range []*linalg.CSR{linalg.GridWalk(9, 11), randSparseChain(120, 3, rnd)} {
 		n, _ := p.Dims()
 		b := randDense(n, 5, rnd)
-		set := &linalg.IterSettings{Tol: 1e-10}
+		set := &linalg.IterConfig{Tol: 1e-10}
 		var x1, x2 mat.Dense
-		res, err := linalg.SolveIterativeMulti(&x1, p, 0.95, b, &linalg.IterSettings{Tol: 1e-10, Workers: 1})
+		res, err := linalg.SolveIterativeMulti(&x1, p, 0.95, b, &linalg.IterConfig{Tol: 1e-10, Workers: 1})
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -284,7 +284,7 @@ func TestSolveIterativeMulti(t *testing.T) {
 	if _, err := linalg.SolveIterativeMulti(&mat.Dense{}, p, 0.5, b, nil); !errors.Is(err, linalg.ErrNonFinite) {
 		t.Errorf("Inf in b: %v", err)
 	}
-	_, err := linalg.SolveIterativeMulti(&mat.Dense{}, linalg.GridWalk(10, 10), 0.999, randDense(100, 3, rnd), &linalg.IterSettings{Tol: 1e-15, MaxIter: 1})
+	_, err := linalg.SolveIterativeMulti(&mat.Dense{}, linalg.GridWalk(10, 10), 0.999, randDense(100, 3, rnd), &linalg.IterConfig{Tol: 1e-15, MaxIter: 1})
 	var nc *linalg.NotConvergedError
 	if !errors.As(err, &nc) {
 		t.Errorf("not converged: %v", err)
@@ -322,7 +322,7 @@ func TestIterativeIndefinite(t *testing.T) {
 	b := randVec(n, rand.New(rand.NewPCG(8, 8)))
 	x := make([]float64, n)
 	const tol = 1e-10
-	res, err := linalg.SolveIterative(x, p, 0.9, b, &linalg.IterSettings{Tol: tol})
+	res, err := linalg.SolveIterative(x, p, 0.9, b, &linalg.IterConfig{Tol: tol})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -378,7 +378,7 @@ func TestIterativeProperties(t *testing.T) {
 		gamma := rnd.Float64() * 0.999
 		b := randVec(n, rnd)
 		x := make([]float64, n)
-		res, err := linalg.SolveIterative(x, p, gamma, b, &linalg.IterSettings{Tol: tol, Workers: 1 + int(seed%2)})
+		res, err := linalg.SolveIterative(x, p, gamma, b, &linalg.IterConfig{Tol: tol, Workers: 1 + int(seed%2)})
 		if err != nil {
 			t.Fatalf("seed %d: %v", seed, err)
 		}

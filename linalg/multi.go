@@ -30,8 +30,8 @@ import (
 // The error, if any, is that of the lowest-numbered failing column, wrapped
 // with its index; the other columns are still solved and reported. Errors
 // wrap the sentinels listed at IterSolver.Solve.
-func SolveIterativeMulti(dst *mat.Dense, p *CSR, gamma float64, b *mat.Dense, s *IterSettings) ([]IterResult, error) {
-	var cfg IterSettings
+func SolveIterativeMulti(dst *mat.Dense, p *CSR, gamma float64, b *mat.Dense, s *IterConfig) ([]IterResult, error) {
+	var cfg IterConfig
 	if s != nil {
 		cfg = *s
 	}

@@ -21,7 +21,7 @@ func openGrid(b *testing.B, rows, cols int) (*Grid, Reward) {
 		sb.Write(line)
 		sb.WriteByte('\n')
 	}
-	g, err := ParseGrid(sb.String(), &GridOptions{Labels: map[rune]string{'G': "goal"}, Slip: 0.1})
+	g, err := ParseGrid(sb.String(), &GridConfig{Labels: map[rune]string{'G': "goal"}, Slip: 0.1})
 	if err != nil {
 		b.Fatal(err)
 	}
@@ -107,7 +107,7 @@ func BenchmarkParseGrid(b *testing.B) {
 func BenchmarkSamplerStep(b *testing.B) {
 	for _, slip := range []float64{0, 0.2} {
 		b.Run(fmt.Sprintf("depot/slip=%v", slip), func(b *testing.B) {
-			opts := DepotOptions()
+			opts := DepotConfig()
 			opts.Slip = slip
 			g, err := ParseGrid(DepotLayout, opts)
 			if err != nil {
@@ -120,7 +120,7 @@ func BenchmarkSamplerStep(b *testing.B) {
 			b.ReportAllocs()
 			for b.Loop() {
 				a = (a + 1) % 5
-				if _, term, trunc := e.Step(a, rng); term || trunc {
+				if e.Step(a, rng).Done() {
 					e.Reset(rng)
 				}
 			}

@@ -46,12 +46,12 @@ func DepotLabels() map[rune]string {
 	}
 }
 
-// DepotOptions returns the options Depot uses: DepotLabels, no terminal
+// DepotConfig returns the options Depot uses: DepotLabels, no terminal
 // cells, and the Stay action (five actions), so that an agent can remain on
 // a place once there. Callers may change the returned struct (e.g. set
 // Slip) and pass it to ParseGrid with DepotLayout.
-func DepotOptions() *GridOptions {
-	return &GridOptions{Labels: DepotLabels(), Stay: true}
+func DepotConfig() *GridConfig {
+	return &GridConfig{Labels: DepotLabels(), Stay: true}
 }
 
 // DepotTimeLimit is the episode length suggested for sampling the depot
@@ -59,12 +59,12 @@ func DepotOptions() *GridOptions {
 const DepotTimeLimit = 100
 
 // Depot returns the demo depot grid: DepotLayout parsed with
-// DepotOptions. Its place cells are not terminal: a reward on a place is
+// DepotConfig. Its place cells are not terminal: a reward on a place is
 // paid on every step that ends there (PlaceReward), episodes end only by
 // truncation at a time limit, and tasks are discounted (gamma around
 // 0.95). The single start cell is 'S'.
 //
 // The depot is invented demo data, not a model of a real site.
 func Depot() (*Grid, error) {
-	return ParseGrid(DepotLayout, DepotOptions())
+	return ParseGrid(DepotLayout, DepotConfig())
 }

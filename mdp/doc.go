@@ -13,8 +13,10 @@
 //
 // A terminal state stops the episode and bootstrapping: its value is 0,
 // and the chains below have zero rows (and zero columns) for it. A time
-// limit is different: the Sampler reports it as truncation, which does not
-// stop bootstrapping.
+// limit is different: it ends the episode but not bootstrapping. An Env's
+// Step returns an Outcome, the next state and its End: Continuing,
+// Terminal or TimeLimit; Outcome.Done says whether the episode is over and
+// Outcome.Bootstraps whether a TD target uses the next state's value.
 //
 // # Exact oracles
 //
@@ -113,6 +115,6 @@
 //
 // # Randomness
 //
-// Samplers and generators take a *rand.Rand from math/rand/v2; the same
-// seed gives the same draws.
+// Samplers and generators take a *rand.Rand from math/rand/v2 as their
+// last argument; the same seed gives the same draws.
 package mdp

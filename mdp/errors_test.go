@@ -18,7 +18,7 @@ import (
 // other shared condition.
 func TestSharedErrors(t *testing.T) {
 	// A two-state chain: state 0 moves to the terminal state 1.
-	tr := []mdp.Transition{{State: 0, Action: 0, Next: 1, Prob: 1}}
+	tr := []mdp.ProbEntry{{State: 0, Action: 0, Next: 1, Prob: 1}}
 	term := []bool{false, true}
 	start := []float64{1, 0}
 	m, err := mdp.New(2, 1, tr, term, start)
@@ -35,13 +35,13 @@ func TestSharedErrors(t *testing.T) {
 			second(mdp.New(2, 1, tr, term, []float64{1, 0, 0})),
 			mdp.ErrDimension, errs.Dimension, linalg.ErrDimension},
 		{"non-finite: NaN probability",
-			second(mdp.New(2, 1, []mdp.Transition{{State: 0, Action: 0, Next: 1, Prob: math.NaN()}}, term, start)),
+			second(mdp.New(2, 1, []mdp.ProbEntry{{State: 0, Action: 0, Next: 1, Prob: math.NaN()}}, term, start)),
 			mdp.ErrNonFinite, errs.NonFinite, sf.ErrNonFinite},
 		{"discount: gamma 2",
 			second(mdp.Evaluate(m, mdp.Uniform{N: 1}, one, 2)),
 			mdp.ErrDiscount, errs.Discount, linalg.ErrDiscount},
 		{"config: next state out of range",
-			second(mdp.New(2, 1, []mdp.Transition{{State: 0, Action: 0, Next: 5, Prob: 1}}, term, start)),
+			second(mdp.New(2, 1, []mdp.ProbEntry{{State: 0, Action: 0, Next: 5, Prob: 1}}, term, start)),
 			mdp.ErrConfig, errs.Config, sf.ErrConfig},
 		{"config: nil reward",
 			second(mdp.Evaluate(m, mdp.Uniform{N: 1}, nil, 0.9)),

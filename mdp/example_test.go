@@ -9,7 +9,7 @@ import (
 func ExampleOptimal() {
 	// A three-state corridor: 0 - 1 - 2, state 2 terminal; reaching it
 	// pays 1. Actions: 0 = left, 1 = right.
-	tr := []mdp.Transition{
+	tr := []mdp.ProbEntry{
 		{State: 0, Action: 0, Next: 0, Prob: 1},
 		{State: 0, Action: 1, Next: 1, Prob: 1},
 		{State: 1, Action: 0, Next: 0, Prob: 1},
@@ -42,7 +42,7 @@ func ExampleParseGrid() {
 		S.G
 		...
 	`
-	g, err := mdp.ParseGrid(layout, &mdp.GridOptions{
+	g, err := mdp.ParseGrid(layout, &mdp.GridConfig{
 		Labels:   map[rune]string{'G': "goal"},
 		Terminal: []string{"goal"},
 	})

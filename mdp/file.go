@@ -184,7 +184,7 @@ func (fj *fileJSON) build() (*File, error) {
 		prev = s
 		start[s] = p
 	}
-	tr := make([]Transition, len(fj.Transitions))
+	tr := make([]ProbEntry, len(fj.Transitions))
 	for i, e := range fj.Transitions {
 		var p float64
 		var err error
@@ -197,7 +197,7 @@ func (fj *fileJSON) build() (*File, error) {
 		if err != nil {
 			return nil, fmt.Errorf("transition %d: %w", i, err)
 		}
-		tr[i] = Transition{State: idx[0], Action: idx[1], Next: idx[2], Prob: p}
+		tr[i] = ProbEntry{State: idx[0], Action: idx[1], Next: idx[2], Prob: p}
 	}
 	m, err := New(n, na, tr, term, start)
 	if err != nil {

@@ -24,9 +24,9 @@ const testdataDir = "../testdata"
 // Markov chain (one action; each neighbour with probability 1/2).
 func walkChain(t testing.TB) *File {
 	t.Helper()
-	var tr []Transition
+	var tr []ProbEntry
 	for s := 1; s <= 5; s++ {
-		tr = append(tr, Transition{s, 0, s - 1, 0.5}, Transition{s, 0, s + 1, 0.5})
+		tr = append(tr, ProbEntry{s, 0, s - 1, 0.5}, ProbEntry{s, 0, s + 1, 0.5})
 	}
 	m, err := New(7, 1, tr, []bool{true, false, false, false, false, false, true}, []float64{0, 0, 0, 1, 0, 0, 0})
 	if err != nil {
@@ -171,7 +171,7 @@ func filesEqual(a, b *File) bool {
 func TestFileRoundTrip(t *testing.T) {
 	for seed := uint64(1); seed <= 20; seed++ {
 		rng := rand.New(rand.NewPCG(seed, 7))
-		m, err := RandomFinite(rng, RandomConfig{States: 1 + rng.IntN(12), Actions: 1 + rng.IntN(3), Branching: 1 + rng.IntN(4), TerminalFraction: 0.3})
+		m, err := RandomFinite(&RandomConfig{States: 1 + rng.IntN(12), Actions: 1 + rng.IntN(3), Branching: 1 + rng.IntN(4), TerminalFraction: 0.3}, rng)
 		if err != nil {
 			t.Fatal(err)
 		}

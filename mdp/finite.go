@@ -7,8 +7,8 @@ import (
 	"github.com/successor-go/successor/linalg"
 )
 
-// Transition is one entry P(Next | State, Action) = Prob of a finite MDP.
-type Transition struct {
+// ProbEntry is one entry P(Next | State, Action) = Prob of a finite MDP.
+type ProbEntry struct {
 	State, Action, Next int
 	Prob                float64
 }
@@ -50,7 +50,7 @@ const StochasticTol = 1e-9
 // probability or a row or start distribution not summing to 1; rows give a
 // *linalg.RowSumError) or ErrConfig (an index out of range, a terminal
 // state with outgoing mass, an all-zero start distribution).
-func New(numStates, numActions int, t []Transition, terminal []bool, start []float64) (*Finite, error) {
+func New(numStates, numActions int, t []ProbEntry, terminal []bool, start []float64) (*Finite, error) {
 	if numStates <= 0 || numActions <= 0 {
 		return nil, fmt.Errorf("mdp: new: %d states, %d actions: %w", numStates, numActions, ErrDimension)
 	}

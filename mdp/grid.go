@@ -11,13 +11,13 @@ import (
 )
 
 // Grid actions. The four moves come first in clockwise order starting at
-// up; Stay exists only when GridOptions.Stay is set.
+// up; Stay exists only when GridConfig.Stay is set.
 const (
 	Up    = 0 // row - 1
 	Right = 1 // col + 1
 	Down  = 2 // row + 1
 	Left  = 3 // col - 1
-	Stay  = 4 // stay put (GridOptions.Stay only)
+	Stay  = 4 // stay put (GridConfig.Stay only)
 )
 
 var gridDirs = [4][2]int{{-1, 0}, {0, 1}, {1, 0}, {0, -1}}
@@ -30,9 +30,9 @@ const (
 	CellTerminal = 'T' // a free terminal cell
 )
 
-// GridOptions configures ParseGrid. A nil *GridOptions means the zero
+// GridConfig configures ParseGrid. A nil *GridConfig means the zero
 // value: no labels, four moves, no slip.
-type GridOptions struct {
+type GridConfig struct {
 	// Labels maps a one-character code used in the layout to a label
 	// name. Several codes may share a name. Codes must not be one of the
 	// reserved characters '#', '.', 'S', 'T' or white space.
@@ -53,7 +53,7 @@ type GridOptions struct {
 // coordinates and labels.
 type Grid struct {
 	// MDP is the grid's finite MDP. Actions are Up, Right, Down, Left
-	// (and Stay if GridOptions.Stay was set).
+	// (and Stay if GridConfig.Stay was set).
 	MDP *Finite
 	// Rows and Cols are the layout's size in cells.
 	Rows, Cols int
@@ -100,8 +100,8 @@ func (e *LayoutError) Unwrap() error { return ErrConfig }
 // of a bad character or ragged row, or wrap ErrConfig for bad options
 // (a reserved label code, an empty name, an unknown terminal label, Slip
 // outside [0, 1]) and layouts without free or non-terminal cells.
-func ParseGrid(layout string, opts *GridOptions) (*Grid, error) {
-	var o GridOptions
+func ParseGrid(layout string, opts *GridConfig) (*Grid, error) {
+	var o GridConfig
 	if opts != nil {
 		o = *opts
 	}

@@ -18,7 +18,7 @@ func TestParseGridBasic(t *testing.T) {
 		#.#T#
 		#####
 	`
-	g, err := ParseGrid(layout, &GridOptions{Labels: map[rune]string{'D': "dock"}})
+	g, err := ParseGrid(layout, &GridConfig{Labels: map[rune]string{'D': "dock"}})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -79,7 +79,7 @@ func TestParseGridBasic(t *testing.T) {
 // as intended with probability 1 - p + p/4 and each other direction with
 // p/4; reflected moves add up on the cell itself.
 func TestParseGridSlip(t *testing.T) {
-	g, err := ParseGrid("...\n...\n...", &GridOptions{Slip: 0.2, Stay: true})
+	g, err := ParseGrid("...\n...\n...", &GridConfig{Slip: 0.2, Stay: true})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -119,7 +119,7 @@ func TestParseGridErrors(t *testing.T) {
 	for _, tc := range []struct {
 		name      string
 		layout    string
-		opts      *GridOptions
+		opts      *GridConfig
 		line, col int // for *LayoutError; 0 if not one
 	}{
 		{"empty", "", nil, 0, 0},
@@ -128,17 +128,17 @@ func TestParseGridErrors(t *testing.T) {
 		{"all terminal", "TT", nil, 0, 0},
 		{"unknown char", "#.#\n#x#", nil, 2, 2},
 		{"unknown char indented", "\n  ...\n  .?.", nil, 3, 4},
-		{"unknown after unicode", "é.z", &GridOptions{Labels: map[rune]string{'é': "e"}}, 1, 3},
+		{"unknown after unicode", "é.z", &GridConfig{Labels: map[rune]string{'é': "e"}}, 1, 3},
 		{"ragged", "...\n..\n...", nil, 2, 0},
 		{"inner blank line", "...\n\n...", nil, 2, 0},
 		{"space inside", ". .", nil, 1, 2},
-		{"reserved code", "...", &GridOptions{Labels: map[rune]string{'#': "x"}}, 0, 0},
-		{"reserved S", "...", &GridOptions{Labels: map[rune]string{'S': "x"}}, 0, 0},
-		{"space code", "...", &GridOptions{Labels: map[rune]string{' ': "x"}}, 0, 0},
-		{"empty name", "...", &GridOptions{Labels: map[rune]string{'x': ""}}, 0, 0},
-		{"unknown terminal label", "...", &GridOptions{Terminal: []string{"dock"}}, 0, 0},
-		{"slip", "...", &GridOptions{Slip: 1.5}, 0, 0},
-		{"slip NaN", "...", &GridOptions{Slip: math.NaN()}, 0, 0},
+		{"reserved code", "...", &GridConfig{Labels: map[rune]string{'#': "x"}}, 0, 0},
+		{"reserved S", "...", &GridConfig{Labels: map[rune]string{'S': "x"}}, 0, 0},
+		{"space code", "...", &GridConfig{Labels: map[rune]string{' ': "x"}}, 0, 0},
+		{"empty name", "...", &GridConfig{Labels: map[rune]string{'x': ""}}, 0, 0},
+		{"unknown terminal label", "...", &GridConfig{Terminal: []string{"dock"}}, 0, 0},
+		{"slip", "...", &GridConfig{Slip: 1.5}, 0, 0},
+		{"slip NaN", "...", &GridConfig{Slip: math.NaN()}, 0, 0},
 	} {
 		t.Run(tc.name, func(t *testing.T) {
 			_, err := ParseGrid(tc.layout, tc.opts)
@@ -159,7 +159,7 @@ func TestParseGridErrors(t *testing.T) {
 }
 
 func TestGridTerminalLabelsAndRewards(t *testing.T) {
-	g, err := ParseGrid("S..G", &GridOptions{Labels: map[rune]string{'G': "goal"}, Terminal: []string{"goal"}})
+	g, err := ParseGrid("S..G", &GridConfig{Labels: map[rune]string{'G': "goal"}, Terminal: []string{"goal"}})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -288,7 +288,7 @@ func FuzzParseGrid(f *testing.F) {
 		if len(layout) > 4096 {
 			return
 		}
-		g, err := ParseGrid(layout, &GridOptions{Labels: labels, Slip: slip, Stay: stay, Terminal: []string{"dock"}})
+		g, err := ParseGrid(layout, &GridConfig{Labels: labels, Slip: slip, Stay: stay, Terminal: []string{"dock"}})
 		if err != nil {
 			if !errors.Is(err, ErrConfig) {
 				t.Fatalf("error %v does not wrap ErrConfig", err)

@@ -4,7 +4,6 @@ import (
 	"errors"
 	"fmt"
 	"math"
-	"math/rand/v2"
 
 	"gonum.org/v1/gonum/mat"
 
@@ -308,7 +307,7 @@ func (o *Solver) solve(v []float64, p *linalg.CSR, gamma float64, b []float64, w
 		return SolveReport{Method: "dense LU"}, nil
 	}
 	if gamma < 1 {
-		res, err := linalg.SolveIterative(v, p, gamma, b, &linalg.IterSettings{Tol: s.Tol, MaxIter: s.MaxIter, UseInitial: warm})
+		res, err := linalg.SolveIterative(v, p, gamma, b, &linalg.IterConfig{Tol: s.Tol, MaxIter: s.MaxIter, UseInitial: warm})
 		if err != nil {
 			return SolveReport{}, fmt.Errorf("iterative solve: %w", err)
 		}
@@ -579,16 +578,4 @@ func maxAbs(x []float64) float64 {
 		m = math.Max(m, math.Abs(v))
 	}
 	return m
-}
-
-// Env is the step loop of an environment with integer states.
-// Termination and truncation are distinct: a terminal next state stops
-// bootstrapping; a truncated one (a time limit) does not.
-type Env interface {
-	NumActions() int
-	// Reset starts an episode and returns the first state.
-	Reset(rng *rand.Rand) int
-	// Step takes action a and returns the next state, whether it is
-	// terminal, and whether the episode was truncated by a time limit.
-	Step(a int, rng *rand.Rand) (next int, terminal, truncated bool)
 }

@@ -22,9 +22,9 @@ const tolBook = 0.05
 // transition into the right exit.
 func randomWalk(t testing.TB) (*Finite, Reward) {
 	t.Helper()
-	var tr []Transition
+	var tr []ProbEntry
 	for s := 1; s <= 5; s++ {
-		tr = append(tr, Transition{s, 0, s - 1, 1}, Transition{s, 1, s + 1, 1})
+		tr = append(tr, ProbEntry{s, 0, s - 1, 1}, ProbEntry{s, 1, s + 1, 1})
 	}
 	term := []bool{true, false, false, false, false, false, true}
 	start := []float64{0, 0, 0, 1, 0, 0, 0} // episodes start in C
@@ -51,7 +51,7 @@ var gridMoves = [4][2]int{{-1, 0}, {0, 1}, {1, 0}, {0, -1}}
 // leaves the state unchanged with -1, other moves give 0. State r*5 + c.
 func bookGrid(t testing.TB) (*Finite, Reward) {
 	t.Helper()
-	var tr []Transition
+	var tr []ProbEntry
 	for r := 0; r < 5; r++ {
 		for c := 0; c < 5; c++ {
 			s := r*5 + c
@@ -69,7 +69,7 @@ func bookGrid(t testing.TB) (*Finite, Reward) {
 					}
 					next = nr*5 + nc
 				}
-				tr = append(tr, Transition{s, a, next, 1})
+				tr = append(tr, ProbEntry{s, a, next, 1})
 			}
 		}
 	}
@@ -100,7 +100,7 @@ func bookGrid(t testing.TB) (*Finite, Reward) {
 // off the grid leave the state unchanged.
 func cornerGrid(t testing.TB) (*Finite, Reward) {
 	t.Helper()
-	var tr []Transition
+	var tr []ProbEntry
 	term := make([]bool, 16)
 	term[0], term[15] = true, true
 	for r := 0; r < 4; r++ {
@@ -114,7 +114,7 @@ func cornerGrid(t testing.TB) (*Finite, Reward) {
 				if nr < 0 || nr >= 4 || nc < 0 || nc >= 4 {
 					nr, nc = r, c
 				}
-				tr = append(tr, Transition{s, a, nr*4 + nc, 1})
+				tr = append(tr, ProbEntry{s, a, nr*4 + nc, 1})
 			}
 		}
 	}
@@ -306,11 +306,11 @@ func TestOptimalBruteForce(t *testing.T) {
 		rng := rand.New(rand.NewPCG(seed, 11))
 		n := 2 + rng.IntN(4)
 		na := 2 + rng.IntN(2)
-		m, err := RandomFinite(rng, RandomConfig{States: n, Actions: na, Branching: 2, TerminalFraction: 0.2})
+		m, err := RandomFinite(&RandomConfig{States: n, Actions: na, Branching: 2, TerminalFraction: 0.2}, rng)
 		if err != nil {
 			t.Fatal(err)
 		}
-		rbar := RandomReward(rng, m)
+		rbar := RandomReward(m, rng)
 		gamma := []float64{0, 0.5, 0.9, 0.99}[seed%4]
 		res, err := OptimalExpected(m, rbar, gamma)
 		if err != nil {
@@ -353,12 +353,12 @@ func TestOptimalBruteForce(t *testing.T) {
 func TestBellmanIdentities(t *testing.T) {
 	for seed := uint64(1); seed <= 10; seed++ {
 		rng := rand.New(rand.NewPCG(seed, 12))
-		m, err := RandomFinite(rng, RandomConfig{States: 30, Actions: 3, Branching: 4, TerminalFraction: 0.1})
+		m, err := RandomFinite(&RandomConfig{States: 30, Actions: 3, Branching: 4, TerminalFraction: 0.1}, rng)
 		if err != nil {
 			t.Fatal(err)
 		}
-		rbar := RandomReward(rng, m)
-		pi := RandomPolicy(rng, m)
+		rbar := RandomReward(m, rng)
+		pi := RandomPolicy(m, rng)
 		gamma := 0.95
 		v, err := EvaluateExpected(m, pi, rbar, gamma)
 		if err != nil {
@@ -397,12 +397,12 @@ func TestBellmanIdentities(t *testing.T) {
 // a dense LU is the reference for the sparse iterative solver).
 func TestDenseIterativeAgree(t *testing.T) {
 	rng := rand.New(rand.NewPCG(3, 3))
-	m, err := RandomFinite(rng, RandomConfig{States: 200, Actions: 4, Branching: 5, TerminalFraction: 0.05})
+	m, err := RandomFinite(&RandomConfig{States: 200, Actions: 4, Branching: 5, TerminalFraction: 0.05}, rng)
 	if err != nil {
 		t.Fatal(err)
 	}
-	rbar := RandomReward(rng, m)
-	pi := RandomPolicy(rng, m)
+	rbar := RandomReward(m, rng)
+	pi := RandomPolicy(m, rng)
 	for _, gamma := range []float64{0.5, 0.9, 0.99} {
 		d, err := (&Solver{Method: SolveDense}).EvaluateExpected(m, pi, rbar, gamma)
 		if err != nil {
@@ -426,11 +426,11 @@ func TestDenseIterativeAgree(t *testing.T) {
 // entry by entry on a random MDP.
 func TestChains(t *testing.T) {
 	rng := rand.New(rand.NewPCG(5, 5))
-	m, err := RandomFinite(rng, RandomConfig{States: 12, Actions: 3, Branching: 3, TerminalFraction: 0.25})
+	m, err := RandomFinite(&RandomConfig{States: 12, Actions: 3, Branching: 3, TerminalFraction: 0.25}, rng)
 	if err != nil {
 		t.Fatal(err)
 	}
-	pi := RandomPolicy(rng, m)
+	pi := RandomPolicy(m, rng)
 	n, na := m.NumStates(), m.NumActions()
 	tab, err := m.PolicyTable(pi)
 	if err != nil {
@@ -474,7 +474,7 @@ func TestChains(t *testing.T) {
 func TestOracleErrors(t *testing.T) {
 	walk, walkR := randomWalk(t)
 	// A chain whose middle state loops forever: not absorbing at gamma 1.
-	loop, err := New(2, 1, []Transition{{0, 0, 0, 1}}, []bool{false, true}, []float64{1, 0})
+	loop, err := New(2, 1, []ProbEntry{{0, 0, 0, 1}}, []bool{false, true}, []float64{1, 0})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -549,9 +549,9 @@ func TestOracleErrors(t *testing.T) {
 
 // walkWithStay is the random walk with a third action that stays put.
 func walkWithStay(t testing.TB) *Finite {
-	var tr []Transition
+	var tr []ProbEntry
 	for s := 1; s <= 5; s++ {
-		tr = append(tr, Transition{s, 0, s - 1, 1}, Transition{s, 1, s + 1, 1}, Transition{s, 2, s, 1})
+		tr = append(tr, ProbEntry{s, 0, s - 1, 1}, ProbEntry{s, 1, s + 1, 1}, ProbEntry{s, 2, s, 1})
 	}
 	m, err := New(7, 3, tr, []bool{true, false, false, false, false, false, true}, []float64{0, 0, 0, 1, 0, 0, 0})
 	if err != nil {
@@ -581,12 +581,12 @@ func panics(f func()) (p bool) {
 func TestStateActionChainGivesQ(t *testing.T) {
 	for seed := uint64(1); seed <= 5; seed++ {
 		rng := rand.New(rand.NewPCG(seed, 21))
-		m, err := RandomFinite(rng, RandomConfig{States: 25, Actions: 3, Branching: 3, TerminalFraction: 0.2})
+		m, err := RandomFinite(&RandomConfig{States: 25, Actions: 3, Branching: 3, TerminalFraction: 0.2}, rng)
 		if err != nil {
 			t.Fatal(err)
 		}
-		rbar := RandomReward(rng, m)
-		pi := RandomPolicy(rng, m)
+		rbar := RandomReward(m, rng)
+		pi := RandomPolicy(m, rng)
 		v, err := EvaluateExpected(m, pi, rbar, 0.9)
 		if err != nil {
 			t.Fatal(err)

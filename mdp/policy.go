@@ -201,7 +201,7 @@ func argmax(q []float64) int {
 // and a cumulative scan. p should sum to 1; if rounding leaves the draw
 // beyond the total, the last index with positive probability is returned.
 // It panics if p is empty or has no positive entry. It does not allocate.
-func SampleIndex(rng *rand.Rand, p []float64) int {
+func SampleIndex(p []float64, rng *rand.Rand) int {
 	u := rng.Float64()
 	var c float64
 	last := -1

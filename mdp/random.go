@@ -6,8 +6,8 @@ import (
 	"math/rand/v2"
 )
 
-// RandomConfig configures RandomFinite. The zero value means the
-// documented defaults.
+// RandomConfig configures RandomFinite. A nil *RandomConfig and the zero
+// value mean the documented defaults.
 type RandomConfig struct {
 	// States is the number of states. 0 means 10.
 	States int
@@ -31,7 +31,11 @@ type RandomConfig struct {
 // over the non-terminal states. The same rng state gives the same MDP.
 // The error wraps ErrDimension for negative sizes or a
 // TerminalFraction outside [0, 1).
-func RandomFinite(rng *rand.Rand, cfg RandomConfig) (*Finite, error) {
+func RandomFinite(c *RandomConfig, rng *rand.Rand) (*Finite, error) {
+	var cfg RandomConfig
+	if c != nil {
+		cfg = *c
+	}
 	n, na, b := cfg.States, cfg.Actions, cfg.Branching
 	if n == 0 {
 		n = 10
@@ -59,7 +63,7 @@ func RandomFinite(rng *rand.Rand, cfg RandomConfig) (*Finite, error) {
 	for _, s := range perm[:nt] {
 		term[s] = true
 	}
-	tr := make([]Transition, 0, (n-nt)*na*b)
+	tr := make([]ProbEntry, 0, (n-nt)*na*b)
 	idx := make([]int, n)
 	w := make([]float64, b)
 	for s := 0; s < n; s++ {
@@ -104,7 +108,7 @@ func RandomFinite(rng *rand.Rand, cfg RandomConfig) (*Finite, error) {
 				sum += w[k]
 			}
 			for k := 0; k < b; k++ {
-				tr = append(tr, Transition{State: s, Action: a, Next: idx[k], Prob: w[k] / sum})
+				tr = append(tr, ProbEntry{State: s, Action: a, Next: idx[k], Prob: w[k] / sum})
 			}
 		}
 	}
@@ -124,7 +128,7 @@ func RandomFinite(rng *rand.Rand, cfg RandomConfig) (*Finite, error) {
 // RandomReward returns a seeded expected-reward table rbar[s*A + a] with
 // entries uniform in [-1, 1) for non-terminal states and 0 for terminal
 // ones.
-func RandomReward(rng *rand.Rand, m *Finite) []float64 {
+func RandomReward(m *Finite, rng *rand.Rand) []float64 {
 	rbar := make([]float64, m.n*m.a)
 	for i := range rbar {
 		if !m.terminal[i/m.a] {
@@ -136,7 +140,7 @@ func RandomReward(rng *rand.Rand, m *Finite) []float64 {
 
 // RandomPolicy returns a seeded stochastic table policy with each state's
 // action probabilities drawn from the flat Dirichlet distribution.
-func RandomPolicy(rng *rand.Rand, m *Finite) *Table {
+func RandomPolicy(m *Finite, rng *rand.Rand) *Table {
 	p := make([]float64, m.n*m.a)
 	for s := 0; s < m.n; s++ {
 		row := p[s*m.a : (s+1)*m.a]

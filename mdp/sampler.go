@@ -9,10 +9,10 @@ var _ Env = (*Sampler)(nil)
 // P(. | s, a), each with one rng.Float64 and a cumulative scan of the
 // sparse row. Neither allocates.
 //
-// An episode ends when the next state is terminal (terminal = true) or,
-// for maxSteps > 0, when maxSteps steps have been taken without reaching a
-// terminal state (truncated = true). The two are never both true: reaching
-// a terminal state on the last allowed step reports termination. A
+// An episode ends when the next state is terminal (End Terminal) or, for
+// maxSteps > 0, when maxSteps steps have been taken without reaching a
+// terminal state (End TimeLimit). Reaching a terminal state on the last
+// allowed step reports Terminal. A
 // Sampler is not safe for concurrent use; give each goroutine its own.
 type Sampler struct {
 	m        *Finite
@@ -52,18 +52,19 @@ func (e *Sampler) MDP() *Finite { return e.m }
 // start distribution. If that state is terminal the episode is already
 // over: Done reports true and Step panics until the next Reset.
 func (e *Sampler) Reset(rng *rand.Rand) int {
-	e.state = e.startIdx[SampleIndex(rng, e.startP)]
+	e.state = e.startIdx[SampleIndex(e.startP, rng)]
 	e.steps = 0
 	e.started = true
 	e.done = e.m.terminal[e.state]
 	return e.state
 }
 
-// Step takes action a in the current state and returns the next state,
-// whether it is terminal, and whether the time limit truncated the
-// episode. It panics if a is out of range, or if no episode is running
-// (before the first Reset, or after the episode ended: call Reset).
-func (e *Sampler) Step(a int, rng *rand.Rand) (next int, terminal, truncated bool) {
+// Step takes action a in the current state and returns the next state and
+// whether the episode goes on (Continuing), reached a terminal state
+// (Terminal) or was cut by the time limit (TimeLimit). It panics if a is
+// out of range, or if no episode is running (before the first Reset, or
+// after the episode ended: call Reset).
+func (e *Sampler) Step(a int, rng *rand.Rand) Outcome {
 	if !e.started || e.done {
 		panic("mdp: sampler: step outside an episode (call Reset)")
 	}
@@ -71,13 +72,18 @@ func (e *Sampler) Step(a int, rng *rand.Rand) (next int, terminal, truncated boo
 		panic("mdp: sampler: action out of range")
 	}
 	ind, val := e.m.p.Row(e.state*e.m.a + a)
-	next = ind[SampleIndex(rng, val)]
+	next := ind[SampleIndex(val, rng)]
 	e.state = next
 	e.steps++
-	terminal = e.m.terminal[next]
-	truncated = !terminal && e.maxSteps > 0 && e.steps >= e.maxSteps
-	e.done = terminal || truncated
-	return next, terminal, truncated
+	end := Continuing
+	switch {
+	case e.m.terminal[next]:
+		end = Terminal
+	case e.maxSteps > 0 && e.steps >= e.maxSteps:
+		end = TimeLimit
+	}
+	e.done = end != Continuing
+	return Outcome{Next: next, End: end}
 }
 
 // State returns the current state (the last one returned by Reset or
@@ -87,6 +93,6 @@ func (e *Sampler) State() int { return e.state }
 // Steps returns the number of steps taken in the current episode.
 func (e *Sampler) Steps() int { return e.steps }
 
-// Done reports whether the current episode has ended (terminal or
-// truncated); Step panics until the next Reset.
+// Done reports whether the current episode has ended (at a terminal state
+// or the time limit); Step panics until the next Reset.
 func (e *Sampler) Done() bool { return e.done }

@@ -13,7 +13,7 @@ import (
 // P(. | s, a) with a 5-sigma binomial tolerance (common practice).
 func TestSamplerFrequencies(t *testing.T) {
 	rng := rand.New(rand.NewPCG(9, 9))
-	m, err := RandomFinite(rng, RandomConfig{States: 6, Actions: 2, Branching: 4})
+	m, err := RandomFinite(&RandomConfig{States: 6, Actions: 2, Branching: 4}, rng)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -24,11 +24,11 @@ func TestSamplerFrequencies(t *testing.T) {
 			counts := make([]int, m.NumStates())
 			for range draws {
 				e.state, e.started, e.done = s, true, false
-				next, term, trunc := e.Step(a, rng)
-				if term || trunc {
+				out := e.Step(a, rng)
+				if out.Done() {
 					t.Fatal("unexpected end")
 				}
-				counts[next]++
+				counts[out.Next]++
 			}
 			next, p := m.Next(s, a)
 			seen := 0
@@ -66,15 +66,18 @@ func TestSamplerEpisodes(t *testing.T) {
 		}
 		for {
 			pi.Probs(probs, s)
-			next, term, trunc := e.Step(SampleIndex(rng, probs), rng)
-			if trunc {
+			out := e.Step(SampleIndex(probs, rng), rng)
+			if out.End == TimeLimit {
 				t.Fatal("truncated without a time limit")
 			}
-			if next != e.State() {
+			if out.Next != e.State() {
 				t.Fatal("State disagrees with Step")
 			}
-			s = next
-			if term {
+			if out.Done() != e.Done() || out.Terminal() != (out.End == Terminal) || out.Bootstraps() == out.Terminal() {
+				t.Fatalf("outcome %+v: Done %v, Terminal %v, Bootstraps %v; sampler Done %v", out, out.Done(), out.Terminal(), out.Bootstraps(), e.Done())
+			}
+			s = out.Next
+			if out.End == Terminal {
 				if s != 0 && s != 6 {
 					t.Fatalf("terminal at %d", s)
 				}
@@ -97,19 +100,19 @@ func TestSamplerEpisodes(t *testing.T) {
 
 	lim := NewSampler(m, 1)
 	lim.Reset(rng)
-	_, term, trunc := lim.Step(1, rng) // C -> D, not terminal
-	if term || !trunc || !lim.Done() {
-		t.Errorf("time limit 1: terminal %v truncated %v", term, trunc)
+	out := lim.Step(1, rng) // C -> D, not terminal
+	if out.End != TimeLimit || !out.Done() || !out.Bootstraps() || !lim.Done() {
+		t.Errorf("time limit 1: end %v, done %v, bootstraps %v", out.End, out.Done(), out.Bootstraps())
 	}
 	// Reaching a terminal state on the last allowed step is termination.
-	short, err := New(2, 1, []Transition{{0, 0, 1, 1}}, []bool{false, true}, []float64{1, 0})
+	short, err := New(2, 1, []ProbEntry{{0, 0, 1, 1}}, []bool{false, true}, []float64{1, 0})
 	if err != nil {
 		t.Fatal(err)
 	}
 	lim = NewSampler(short, 1)
 	lim.Reset(rng)
-	if _, term, trunc := lim.Step(0, rng); !term || trunc {
-		t.Errorf("terminal on the last step: terminal %v truncated %v", term, trunc)
+	if out := lim.Step(0, rng); out.End != Terminal || out.Bootstraps() {
+		t.Errorf("terminal on the last step: end %v, bootstraps %v", out.End, out.Bootstraps())
 	}
 	if !panics(func() { NewSampler(short, 0).Step(0, rng) }) {
 		t.Error("Step before Reset does not panic")
@@ -128,8 +131,7 @@ func TestSamplerAllocs(t *testing.T) {
 	rng := rand.New(rand.NewPCG(1, 1))
 	e.Reset(rng)
 	allocs := testing.AllocsPerRun(1000, func() {
-		_, term, trunc := e.Step(rng.IntN(5), rng)
-		if term || trunc {
+		if e.Step(rng.IntN(5), rng).Done() {
 			e.Reset(rng)
 		}
 	})
@@ -182,7 +184,7 @@ func TestPolicies(t *testing.T) {
 		"softmax T=0":      func() { Softmax{Q: q, A: 3}.Probs(dst, 0) },
 		"softmax Inf":      func() { Softmax{Q: []float64{math.Inf(1), 0, 0}, A: 3, Temperature: 1}.Probs(dst, 0) },
 		"table length":     func() { mustTable(t, 2, 3, []float64{0.2, 0.3, 0.5, 1, 0, 0}).Probs(dst[:2], 0) },
-		"sample empty":     func() { SampleIndex(rand.New(rand.NewPCG(1, 1)), []float64{0, 0}) },
+		"sample empty":     func() { SampleIndex([]float64{0, 0}, rand.New(rand.NewPCG(1, 1))) },
 		"deterministic ix": func() { Deterministic{5}.Probs(dst, 0) },
 	} {
 		if !panics(f) {
@@ -229,11 +231,11 @@ func mustTable(t *testing.T, n, na int, p []float64) *Table {
 }
 
 func TestNewErrors(t *testing.T) {
-	ok := []Transition{{0, 0, 1, 1}}
+	ok := []ProbEntry{{0, 0, 1, 1}}
 	for _, tc := range []struct {
 		name  string
 		n, na int
-		tr    []Transition
+		tr    []ProbEntry
 		term  []bool
 		start []float64
 		want  error
@@ -247,15 +249,15 @@ func TestNewErrors(t *testing.T) {
 		{"start negative", 2, 1, ok, []bool{false, true}, []float64{1.5, -0.5}, linalg.ErrNotStochastic},
 		{"start empty", 2, 1, ok, []bool{false, true}, []float64{0, 0}, ErrConfig},
 		{"start sum", 2, 1, ok, []bool{false, true}, []float64{0.5, 0}, linalg.ErrNotStochastic},
-		{"state range", 2, 1, []Transition{{0, 0, 2, 1}}, []bool{false, true}, []float64{1, 0}, ErrConfig},
-		{"negative state", 2, 1, []Transition{{-1, 0, 1, 1}}, []bool{false, true}, []float64{1, 0}, ErrConfig},
-		{"action range", 2, 1, []Transition{{0, 1, 1, 1}}, []bool{false, true}, []float64{1, 0}, ErrConfig},
-		{"prob NaN", 2, 1, []Transition{{0, 0, 1, math.NaN()}}, []bool{false, true}, []float64{1, 0}, linalg.ErrNonFinite},
-		{"prob negative", 2, 1, []Transition{{0, 0, 1, 1.5}, {0, 0, 0, -0.5}}, []bool{false, true}, []float64{1, 0}, linalg.ErrNotStochastic},
-		{"row sum", 2, 1, []Transition{{0, 0, 1, 0.5}}, []bool{false, true}, []float64{1, 0}, linalg.ErrNotStochastic},
+		{"state range", 2, 1, []ProbEntry{{0, 0, 2, 1}}, []bool{false, true}, []float64{1, 0}, ErrConfig},
+		{"negative state", 2, 1, []ProbEntry{{-1, 0, 1, 1}}, []bool{false, true}, []float64{1, 0}, ErrConfig},
+		{"action range", 2, 1, []ProbEntry{{0, 1, 1, 1}}, []bool{false, true}, []float64{1, 0}, ErrConfig},
+		{"prob NaN", 2, 1, []ProbEntry{{0, 0, 1, math.NaN()}}, []bool{false, true}, []float64{1, 0}, linalg.ErrNonFinite},
+		{"prob negative", 2, 1, []ProbEntry{{0, 0, 1, 1.5}, {0, 0, 0, -0.5}}, []bool{false, true}, []float64{1, 0}, linalg.ErrNotStochastic},
+		{"row sum", 2, 1, []ProbEntry{{0, 0, 1, 0.5}}, []bool{false, true}, []float64{1, 0}, linalg.ErrNotStochastic},
 		{"missing row", 2, 2, ok, []bool{false, true}, []float64{1, 0}, linalg.ErrNotStochastic},
-		{"terminal mass", 2, 1, []Transition{{0, 0, 1, 1}, {1, 0, 0, 1}}, []bool{false, true}, []float64{1, 0}, ErrConfig},
-		{"terminal half loop", 2, 1, []Transition{{0, 0, 1, 1}, {1, 0, 1, 0.5}}, []bool{false, true}, []float64{1, 0}, ErrConfig},
+		{"terminal mass", 2, 1, []ProbEntry{{0, 0, 1, 1}, {1, 0, 0, 1}}, []bool{false, true}, []float64{1, 0}, ErrConfig},
+		{"terminal half loop", 2, 1, []ProbEntry{{0, 0, 1, 1}, {1, 0, 1, 0.5}}, []bool{false, true}, []float64{1, 0}, ErrConfig},
 	} {
 		t.Run(tc.name, func(t *testing.T) {
 			_, err := New(tc.n, tc.na, tc.tr, tc.term, tc.start)
@@ -266,7 +268,7 @@ func TestNewErrors(t *testing.T) {
 	}
 	// Accepted: terminal self-loops given explicitly, zero-probability
 	// entries, duplicates summed.
-	m, err := New(2, 1, []Transition{{0, 0, 1, 0.25}, {0, 0, 1, 0.75}, {0, 0, 0, 0}, {1, 0, 1, 1}, {1, 0, 0, 0}}, []bool{false, true}, []float64{1, 0})
+	m, err := New(2, 1, []ProbEntry{{0, 0, 1, 0.25}, {0, 0, 1, 0.75}, {0, 0, 0, 0}, {1, 0, 1, 1}, {1, 0, 0, 0}}, []bool{false, true}, []float64{1, 0})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -274,7 +276,7 @@ func TestNewErrors(t *testing.T) {
 		t.Errorf("Next(0,0) = %v %v", next, p)
 	}
 	var rs *linalg.RowSumError
-	if _, err := New(1, 1, []Transition{{0, 0, 0, 0.5}}, nil, []float64{1}); !errors.As(err, &rs) || rs.Sum != 0.5 {
+	if _, err := New(1, 1, []ProbEntry{{0, 0, 0, 0.5}}, nil, []float64{1}); !errors.As(err, &rs) || rs.Sum != 0.5 {
 		t.Errorf("row sum error %v", err)
 	}
 }
@@ -282,16 +284,16 @@ func TestNewErrors(t *testing.T) {
 func TestRandomConfig(t *testing.T) {
 	rng := rand.New(rand.NewPCG(4, 4))
 	for _, cfg := range []RandomConfig{{States: -1}, {TerminalFraction: 1}, {TerminalFraction: math.NaN()}, {Actions: -2}} {
-		if _, err := RandomFinite(rng, cfg); !errors.Is(err, linalg.ErrDimension) {
+		if _, err := RandomFinite(&cfg, rng); !errors.Is(err, linalg.ErrDimension) {
 			t.Errorf("%+v: %v", cfg, err)
 		}
 	}
 	// Defaults, determinism, branching and the self-loop rule.
-	a, err := RandomFinite(rand.New(rand.NewPCG(1, 1)), RandomConfig{})
+	a, err := RandomFinite(&RandomConfig{}, rand.New(rand.NewPCG(1, 1)))
 	if err != nil {
 		t.Fatal(err)
 	}
-	b, _ := RandomFinite(rand.New(rand.NewPCG(1, 1)), RandomConfig{})
+	b, _ := RandomFinite(nil, rand.New(rand.NewPCG(1, 1))) // nil means the zero value
 	if a.NumStates() != 10 || a.NumActions() != 2 {
 		t.Errorf("defaults: %d states %d actions", a.NumStates(), a.NumActions())
 	}
@@ -300,7 +302,7 @@ func TestRandomConfig(t *testing.T) {
 		t.Error("same seed, different MDPs")
 	}
 	for _, cfg := range []RandomConfig{{States: 50, Branching: 3, TerminalFraction: 0.5}, {States: 5, Branching: 9, SelfLoops: true}} {
-		m, err := RandomFinite(rng, cfg)
+		m, err := RandomFinite(&cfg, rng)
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -332,7 +334,7 @@ func TestRandomConfig(t *testing.T) {
 // and every state it returns lies in [0, NumStates).
 func TestSamplerNumStates(t *testing.T) {
 	for _, tc := range []struct{ states, actions int }{{1, 1}, {3, 2}, {17, 4}} {
-		m, err := RandomFinite(rand.New(rand.NewPCG(uint64(tc.states), 1)), RandomConfig{States: tc.states, Actions: tc.actions, Branching: 2, SelfLoops: true})
+		m, err := RandomFinite(&RandomConfig{States: tc.states, Actions: tc.actions, Branching: 2, SelfLoops: true}, rand.New(rand.NewPCG(uint64(tc.states), 1)))
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -347,8 +349,38 @@ func TestSamplerNumStates(t *testing.T) {
 				if s < 0 || s >= e.NumStates() {
 					t.Fatalf("state %d outside [0, %d)", s, e.NumStates())
 				}
-				s, _, _ = e.Step(rng.IntN(tc.actions), rng)
+				s = e.Step(rng.IntN(tc.actions), rng).Next
 			}
+		}
+	}
+}
+
+// TestEnd checks the two questions an End answers, for each kind (the
+// convention of the package doc: a terminal state stops bootstrapping, a
+// time limit does not), and its names.
+func TestEnd(t *testing.T) {
+	for _, tc := range []struct {
+		end              End
+		done, bootstraps bool
+		name             string
+	}{
+		{Continuing, false, true, "continuing"},
+		{Terminal, true, false, "terminal"},
+		{TimeLimit, true, true, "time limit"},
+		{End(7), true, true, "end(7)"},
+	} {
+		o := Outcome{Next: 3, End: tc.end}
+		if tc.end.Done() != tc.done || o.Done() != tc.done {
+			t.Errorf("%v: Done %v, want %v", tc.end, tc.end.Done(), tc.done)
+		}
+		if tc.end.Bootstraps() != tc.bootstraps || o.Bootstraps() != tc.bootstraps {
+			t.Errorf("%v: Bootstraps %v, want %v", tc.end, tc.end.Bootstraps(), tc.bootstraps)
+		}
+		if o.Terminal() != (tc.end == Terminal) {
+			t.Errorf("%v: Terminal %v", tc.end, o.Terminal())
+		}
+		if got := tc.end.String(); got != tc.name {
+			t.Errorf("String %q, want %q", got, tc.name)
 		}
 	}
 }

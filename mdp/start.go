@@ -12,7 +12,7 @@ import "fmt"
 // linalg.ErrNonFinite, linalg.ErrNotStochastic or ErrConfig.
 func WithStart(m *Finite, start []float64) (*Finite, error) {
 	n, na := m.NumStates(), m.NumActions()
-	var tr []Transition
+	var tr []ProbEntry
 	term := make([]bool, n)
 	for s := range n {
 		term[s] = m.Terminal(s)
@@ -22,7 +22,7 @@ func WithStart(m *Finite, start []float64) (*Finite, error) {
 		for a := range na {
 			nx, p := m.Next(s, a)
 			for k, j := range nx {
-				tr = append(tr, Transition{State: s, Action: a, Next: j, Prob: p[k]})
+				tr = append(tr, ProbEntry{State: s, Action: a, Next: j, Prob: p[k]})
 			}
 		}
 	}

@@ -17,7 +17,7 @@ import (
 // by hand from the Bellman equation V = r_pi + gamma P_pi V, in which the
 // start distribution does not appear).
 func TestWithStart(t *testing.T) {
-	tr := []Transition{
+	tr := []ProbEntry{
 		{0, 0, 1, 0.9}, {0, 0, 0, 0.1}, {0, 1, 0, 1},
 		{1, 0, 2, 0.9}, {1, 0, 1, 0.1}, {1, 1, 0, 1},
 		{2, 0, 3, 0.9}, {2, 0, 2, 0.1}, {2, 1, 1, 1},

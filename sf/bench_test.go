@@ -65,18 +65,18 @@ func BenchmarkTD(b *testing.B) {
 	for _, target := range []Target{Sampled, Expected, Greedy} {
 		for _, d := range []int{16, 64} {
 			b.Run(fmt.Sprintf("%v/d=%d", target, d), func(b *testing.B) {
-				benchTD(b, ns, na, d, target, StepSize{Alpha: 0.1})
+				benchTD(b, ns, na, d, target, StepSchedule{StepSize: 0.1})
 			})
 		}
 	}
 	for _, p := range []float64{0.75, 0.7} { // fast path, exp/log path
 		b.Run(fmt.Sprintf("sampled/d=64/power=%v", p), func(b *testing.B) {
-			benchTD(b, ns, na, 64, Sampled, StepSize{Power: p})
+			benchTD(b, ns, na, 64, Sampled, StepSchedule{Power: p})
 		})
 	}
 }
 
-func benchTD(b *testing.B, ns, na, d int, target Target, step StepSize) {
+func benchTD(b *testing.B, ns, na, d int, target Target, step StepSchedule) {
 	t, _ := NewTable(ns, na, d)
 	w := make([]float64, d)
 	for k := range w {
@@ -90,7 +90,7 @@ func benchTD(b *testing.B, ns, na, d int, target Target, step StepSize) {
 	if err != nil {
 		b.Fatal(err)
 	}
-	l, err := NewTD(t, phi, 0.9, &TDSettings{Target: target, Policy: mdp.Uniform{N: na}, Task: w, Step: step})
+	l, err := NewTD(t, phi, 0.9, &TDConfig{Target: target, Policy: mdp.Uniform{N: na}, Task: w, Schedule: step})
 	if err != nil {
 		b.Fatal(err)
 	}
@@ -153,7 +153,7 @@ func BenchmarkTDRatio(b *testing.B) {
 				for k := range w {
 					w[k] = float64(k%5) - 2
 				}
-				l, err := NewTD(t, phi, 0.9, &TDSettings{Target: target, Policy: mdp.Uniform{N: na}, Task: w, Step: StepSize{Alpha: 0.1}})
+				l, err := NewTD(t, phi, 0.9, &TDConfig{Target: target, Policy: mdp.Uniform{N: na}, Task: w, Schedule: StepSchedule{StepSize: 0.1}})
 				if err != nil {
 					b.Fatal(err)
 				}
@@ -211,7 +211,7 @@ func BenchmarkLinearTD(b *testing.B) {
 	for _, target := range []Target{Sampled, Expected, Greedy} {
 		b.Run(fmt.Sprintf("%v/d=%d/x=%d", target, d, m), func(b *testing.B) {
 			lin, _ := NewLinear(na, d, m)
-			lt, err := NewLinearTD(lin, 0.9, &LinearTDSettings{Target: target, Task: w, Step: StepSize{Alpha: 0.01},
+			lt, err := NewLinearTD(lin, 0.9, &LinearTDConfig{Target: target, Task: w, Schedule: StepSchedule{StepSize: 0.01},
 				Policy: func(dst, x []float64) { dst[0], dst[1], dst[2], dst[3] = 0.25, 0.25, 0.25, 0.25 }})
 			if err != nil {
 				b.Fatal(err)
@@ -251,7 +251,7 @@ func BenchmarkDepotRun(b *testing.B) {
 			for b.Loop() {
 				t0 := time.Now()
 				tb, _ := NewTable(m.NumStates(), na, phi.Dim())
-				l, err := NewTD(tb, phi, 0.95, &TDSettings{Target: target, Policy: mdp.Uniform{N: na}, Step: StepSize{Power: 0.75}})
+				l, err := NewTD(tb, phi, 0.95, &TDConfig{Target: target, Policy: mdp.Uniform{N: na}, Schedule: StepSchedule{Power: 0.75}})
 				if err != nil {
 					b.Fatal(err)
 				}
@@ -259,14 +259,14 @@ func BenchmarkDepotRun(b *testing.B) {
 				rng := rand.New(rand.NewPCG(1, 2))
 				s, a := env.Reset(rng), rng.IntN(na)
 				for k := 0; k < steps; k++ {
-					next, terminal, truncated := env.Step(a, rng)
+					out := env.Step(a, rng)
 					a2 := rng.IntN(na)
-					l.Update(s, a, next, terminal, a2)
-					if terminal || truncated {
+					l.Update(s, a, out.Next, out.Terminal(), a2)
+					if out.Done() {
 						s, a = env.Reset(rng), rng.IntN(na)
 						continue
 					}
-					s, a = next, a2
+					s, a = out.Next, a2
 				}
 				if l.Err() != nil {
 					b.Fatal(l.Err())

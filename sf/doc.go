@@ -35,9 +35,10 @@
 //
 // # Termination and truncation
 //
-// A terminal next state bootstraps nothing: pass terminal = true. An
-// episode cut by a time limit is not terminal: pass terminal = false, and
-// the update bootstraps from the next state as usual.
+// A terminal next state bootstraps nothing: pass terminal = true (for a
+// step of an mdp.Env, the Outcome's Terminal()). An episode cut by a time
+// limit (End mdp.TimeLimit) is not terminal: pass terminal = false, and the
+// update bootstraps from the next state as usual.
 //
 // # Learners
 //
@@ -48,8 +49,8 @@
 // with the target psi' of the Sampled (psi(s', a') for the action taken),
 // Expected (sum_a' pi(a'|s') psi(s', a')) or Greedy (psi(s', a*), a* greedy
 // for a task vector w: SF Q-learning) kind. LinearTD is the semi-gradient
-// form for a Linear approximator psi(s, a) = W_a x(s). A StepSize is
-// constant or decays per pair as Alpha / (1 + n)^Power; Power in (1/2, 1]
+// form for a Linear approximator psi(s, a) = W_a x(s). A StepSchedule is
+// constant or decays per pair as StepSize / (1 + n)^Power; Power in (1/2, 1]
 // meets the Robbins-Monro conditions under which tabular TD(0) converges
 // with probability 1. Updates allocate nothing. A learner that produces a
 // non-finite value reports a *DivergenceError naming the update.

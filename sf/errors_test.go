@@ -27,7 +27,7 @@ func TestSharedErrors(t *testing.T) {
 	// hand: psi <- phi + psi).
 	huge := sf.FeatureFunc{D: 2, F: func(dst []float64, s, a, next int) { dst[0], dst[1] = 1e308, 0 }}
 	diverge := func() error {
-		l, err := sf.NewTD(tab(), huge, 1, &sf.TDSettings{Step: sf.StepSize{Alpha: 1}})
+		l, err := sf.NewTD(tab(), huge, 1, &sf.TDConfig{Schedule: sf.StepSchedule{StepSize: 1}})
 		if err != nil {
 			return err
 		}
@@ -56,7 +56,7 @@ func TestSharedErrors(t *testing.T) {
 			second(sf.NewTD(tab(), phi, 2, nil)),
 			sf.ErrDiscount, errs.Discount, mdp.ErrDiscount},
 		{"config: step 2",
-			second(sf.NewTD(tab(), phi, 0.9, &sf.TDSettings{Step: sf.StepSize{Alpha: 2}})),
+			second(sf.NewTD(tab(), phi, 0.9, &sf.TDConfig{Schedule: sf.StepSchedule{StepSize: 2}})),
 			sf.ErrConfig, errs.Config, linalg.ErrConfig},
 		{"config: ridge lambda -1",
 			second(sf.InferTask(make([]float64, 1), mat.NewDense(2, 1, []float64{1, 2}), []float64{1, 2}, -1, nil)),

@@ -121,7 +121,7 @@ func Exact(m *mdp.Finite, pi mdp.Policy, phi FeatureMap, gamma float64) (*Table,
 		}
 	} else {
 		x := mat.NewDense(nsa, d, t.Data)
-		if _, err := linalg.SolveIterativeMulti(x, p, g, mat.NewDense(nsa, d, bar), &linalg.IterSettings{Tol: ExactIterTol}); err != nil {
+		if _, err := linalg.SolveIterativeMulti(x, p, g, mat.NewDense(nsa, d, bar), &linalg.IterConfig{Tol: ExactIterTol}); err != nil {
 			return nil, fmt.Errorf("sf: exact: %w", err)
 		}
 	}

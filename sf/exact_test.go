@@ -27,8 +27,8 @@ import (
 func TestExactOneHotState(t *testing.T) {
 	for seed := uint64(1); seed <= 6; seed++ {
 		for _, gamma := range []float64{0, 0.5, 0.95} {
-			m := randomMDP(t, seed, mdp.RandomConfig{States: 9, Actions: 3, TerminalFraction: 0.25, SelfLoops: seed%2 == 0})
-			pi := mdp.RandomPolicy(rand.New(rand.NewPCG(seed, 7)), m)
+			m := randomMDP(t, seed, &mdp.RandomConfig{States: 9, Actions: 3, TerminalFraction: 0.25, SelfLoops: seed%2 == 0})
+			pi := mdp.RandomPolicy(m, rand.New(rand.NewPCG(seed, 7)))
 			n, na := m.NumStates(), m.NumActions()
 			psi, err := Exact(m, pi, OneHotState{N: n}, gamma)
 			if err != nil {
@@ -88,8 +88,8 @@ func TestExactOneHotState(t *testing.T) {
 // closed form in DESIGN.md with PhiBar = I on those rows).
 func TestExactOneHotStateAction(t *testing.T) {
 	for seed := uint64(1); seed <= 4; seed++ {
-		m := randomMDP(t, seed, mdp.RandomConfig{States: 7, Actions: 2, TerminalFraction: 0.3})
-		pi := mdp.RandomPolicy(rand.New(rand.NewPCG(seed, 8)), m)
+		m := randomMDP(t, seed, &mdp.RandomConfig{States: 7, Actions: 2, TerminalFraction: 0.3})
+		pi := mdp.RandomPolicy(m, rand.New(rand.NewPCG(seed, 8)))
 		n, na := m.NumStates(), m.NumActions()
 		const gamma = 0.9
 		psi, err := Exact(m, pi, OneHotStateAction{N: n, A: na}, gamma)
@@ -135,8 +135,8 @@ func TestExactQ(t *testing.T) {
 		t.Run(fmt.Sprintf("n=%d,A=%d,gamma=%v", tc.states, tc.actions, tc.gamma), func(t *testing.T) {
 			for seed := uint64(1); seed <= 3; seed++ {
 				rng := rand.New(rand.NewPCG(seed, 3))
-				m := randomMDP(t, seed, mdp.RandomConfig{States: tc.states, Actions: tc.actions, TerminalFraction: tc.term})
-				pi := mdp.RandomPolicy(rng, m)
+				m := randomMDP(t, seed, &mdp.RandomConfig{States: tc.states, Actions: tc.actions, TerminalFraction: tc.term})
+				pi := mdp.RandomPolicy(m, rng)
 				phi, err := NewRandom(tc.states, 4, false, rng)
 				if err != nil {
 					t.Fatal(err)
@@ -203,8 +203,8 @@ func TestExactRandomWalk(t *testing.T) {
 // TestExactBellman checks the Bellman residual Psi - PhiBar - gamma P_pi Psi
 // of Exact directly (an invariant, derived by hand from the definition).
 func TestExactBellman(t *testing.T) {
-	m := randomMDP(t, 11, mdp.RandomConfig{States: 15, Actions: 3, TerminalFraction: 0.2})
-	pi := mdp.RandomPolicy(rand.New(rand.NewPCG(5, 5)), m)
+	m := randomMDP(t, 11, &mdp.RandomConfig{States: 15, Actions: 3, TerminalFraction: 0.2})
+	pi := mdp.RandomPolicy(m, rand.New(rand.NewPCG(5, 5)))
 	phi, _ := NewRandom(15, 6, true, rand.New(rand.NewPCG(6, 6)))
 	const gamma = 0.97
 	psi, err := Exact(m, pi, phi, gamma)
@@ -275,11 +275,11 @@ func (badPolicy) Probs(dst []float64, s int) {
 // ends).
 func TestExactLongWalk(t *testing.T) {
 	const n = 2100 // 2 actions: 4200 pairs
-	var tr []mdp.Transition
+	var tr []mdp.ProbEntry
 	for s := 1; s <= n; s++ {
 		tr = append(tr,
-			mdp.Transition{State: s, Action: 0, Next: s - 1, Prob: 1},
-			mdp.Transition{State: s, Action: 1, Next: s + 1, Prob: 1})
+			mdp.ProbEntry{State: s, Action: 0, Next: s - 1, Prob: 1},
+			mdp.ProbEntry{State: s, Action: 1, Next: s + 1, Prob: 1})
 	}
 	term := make([]bool, n+2)
 	term[0], term[n+1] = true, true

@@ -16,11 +16,11 @@ import (
 // states 0..6, the two ends terminal, start in the middle; action 0 moves
 // left and action 1 right.
 func walk() *mdp.Finite {
-	var tr []mdp.Transition
+	var tr []mdp.ProbEntry
 	for s := 1; s <= 5; s++ {
 		tr = append(tr,
-			mdp.Transition{State: s, Action: 0, Next: s - 1, Prob: 1},
-			mdp.Transition{State: s, Action: 1, Next: s + 1, Prob: 1})
+			mdp.ProbEntry{State: s, Action: 0, Next: s - 1, Prob: 1},
+			mdp.ProbEntry{State: s, Action: 1, Next: s + 1, Prob: 1})
 	}
 	m, err := mdp.New(7, 2, tr,
 		[]bool{true, false, false, false, false, false, true},
@@ -87,7 +87,7 @@ func ExampleTD() {
 		log.Fatal(err)
 	}
 	t, _ := sf.NewTable(7, 2, 7)
-	td, err := sf.NewTD(t, phi, 1, &sf.TDSettings{Target: sf.Expected, Policy: pi, Step: sf.StepSize{Power: 0.6}})
+	td, err := sf.NewTD(t, phi, 1, &sf.TDConfig{Target: sf.Expected, Policy: pi, Schedule: sf.StepSchedule{Power: 0.6}})
 	if err != nil {
 		log.Fatal(err)
 	}
@@ -97,11 +97,11 @@ func ExampleTD() {
 		s := env.Reset(rng)
 		for !env.Done() {
 			a := rng.IntN(2)
-			next, terminal, _ := env.Step(a, rng)
-			if err := td.Update(s, a, next, terminal, 0); err != nil {
+			out := env.Step(a, rng)
+			if err := td.Update(s, a, out.Next, out.Terminal(), 0); err != nil {
 				log.Fatal(err)
 			}
-			s = next
+			s = out.Next
 		}
 	}
 	var worst float64
@@ -162,7 +162,7 @@ func Example_customFeatureMap() {
 	fmt.Printf("value of C: %.3f\n", 0.5*(psi.Q(3, 0, []float64{10, -1})+psi.Q(3, 1, []float64{10, -1})))
 
 	t, _ := sf.NewTable(7, 2, 2)
-	td, err := sf.NewTD(t, corner{}, 1, &sf.TDSettings{Step: sf.StepSize{Alpha: 1}})
+	td, err := sf.NewTD(t, corner{}, 1, &sf.TDConfig{Schedule: sf.StepSchedule{StepSize: 1}})
 	if err != nil {
 		log.Fatal(err)
 	}

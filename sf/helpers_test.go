@@ -16,11 +16,11 @@ import (
 // uniform policy over the two.
 func randomWalk(t testing.TB) *mdp.Finite {
 	t.Helper()
-	var tr []mdp.Transition
+	var tr []mdp.ProbEntry
 	for s := 1; s <= 5; s++ {
 		tr = append(tr,
-			mdp.Transition{State: s, Action: 0, Next: s - 1, Prob: 1},
-			mdp.Transition{State: s, Action: 1, Next: s + 1, Prob: 1})
+			mdp.ProbEntry{State: s, Action: 0, Next: s - 1, Prob: 1},
+			mdp.ProbEntry{State: s, Action: 1, Next: s + 1, Prob: 1})
 	}
 	term := []bool{true, false, false, false, false, false, true}
 	start := []float64{0, 0, 0, 1, 0, 0, 0}
@@ -32,9 +32,9 @@ func randomWalk(t testing.TB) *mdp.Finite {
 }
 
 // randomMDP returns a seeded random MDP from mdp.RandomFinite.
-func randomMDP(t testing.TB, seed uint64, cfg mdp.RandomConfig) *mdp.Finite {
+func randomMDP(t testing.TB, seed uint64, cfg *mdp.RandomConfig) *mdp.Finite {
 	t.Helper()
-	m, err := mdp.RandomFinite(rand.New(rand.NewPCG(seed, 99)), cfg)
+	m, err := mdp.RandomFinite(cfg, rand.New(rand.NewPCG(seed, 99)))
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -27,16 +27,16 @@ func (t Trace) String() string {
 	return fmt.Sprintf("Trace(%d)", int(t))
 }
 
-// LambdaSettings configures a TDLambda learner. A nil *LambdaSettings means
+// TDLambdaConfig configures a TDLambda learner. A nil *TDLambdaConfig means
 // the zero value: lambda 0, accumulating traces, constant step 0.1.
-type LambdaSettings struct {
+type TDLambdaConfig struct {
 	// Lambda is the trace decay, in [0, 1]. 0 gives TD(0).
 	Lambda float64
 	// Trace is the kind of trace.
 	Trace Trace
-	// Step is the step-size schedule; n counts all updates of the learner
+	// Schedule is the step-size schedule; n counts all updates of the learner
 	// (one step size is shared by every pair the traces reach).
-	Step StepSize
+	Schedule StepSchedule
 	// Cutoff drops a trace once it falls below this value, bounding the
 	// work per update. 0 means 1e-4; use a negative value to keep every
 	// non-zero trace (exact, but the work grows with the episode).
@@ -83,9 +83,9 @@ type TDLambda struct {
 // features phi and discount gamma in [0, 1]. Errors wrap ErrDiscount,
 // ErrDimension or ErrConfig (lambda outside [0, 1], an unknown trace, a
 // bad step).
-func NewTDLambda(t *Table, phi FeatureMap, gamma float64, s *LambdaSettings) (*TDLambda, error) {
+func NewTDLambda(t *Table, phi FeatureMap, gamma float64, s *TDLambdaConfig) (*TDLambda, error) {
 	if s == nil {
-		s = &LambdaSettings{}
+		s = &TDLambdaConfig{}
 	}
 	if !(gamma >= 0 && gamma <= 1) {
 		return nil, fmt.Errorf("sf: td lambda: gamma %v outside [0, 1]: %w", gamma, ErrDiscount)
@@ -99,7 +99,7 @@ func NewTDLambda(t *Table, phi FeatureMap, gamma float64, s *LambdaSettings) (*T
 	if phi.Dim() != t.D || len(t.Data) != t.S*t.A*t.D {
 		return nil, fmt.Errorf("sf: td lambda: features of dimension %d for a table of %d: %w", phi.Dim(), t.D, ErrDimension)
 	}
-	st, err := s.Step.resolve()
+	st, err := s.Schedule.resolve()
 	if err != nil {
 		return nil, fmt.Errorf("sf: td lambda: %w", err)
 	}

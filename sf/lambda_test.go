@@ -17,7 +17,7 @@ func TestTDLambdaHand(t *testing.T) {
 	for _, lambda := range []float64{0, 0.5, 1} {
 		for _, tr := range []Trace{Accumulating, Replacing} {
 			tb, _ := NewTable(3, 1, 3)
-			l, err := NewTDLambda(tb, OneHotState{N: 3}, 1, &LambdaSettings{Lambda: lambda, Trace: tr, Step: StepSize{Alpha: 0.5}, Cutoff: -1})
+			l, err := NewTDLambda(tb, OneHotState{N: 3}, 1, &TDLambdaConfig{Lambda: lambda, Trace: tr, Schedule: StepSchedule{StepSize: 0.5}, Cutoff: -1})
 			if err != nil {
 				t.Fatal(err)
 			}
@@ -44,8 +44,8 @@ func TestTDLambdaZero(t *testing.T) {
 	phi, _ := NewRandom(6, 3, false, rand.New(rand.NewPCG(1, 1)))
 	t0, _ := NewTable(6, 2, 3)
 	t1, _ := NewTable(6, 2, 3)
-	td, _ := NewTD(t0, phi, 0.9, &TDSettings{Step: StepSize{Alpha: 0.2}})
-	tl, _ := NewTDLambda(t1, phi, 0.9, &LambdaSettings{Step: StepSize{Alpha: 0.2}})
+	td, _ := NewTD(t0, phi, 0.9, &TDConfig{Schedule: StepSchedule{StepSize: 0.2}})
+	tl, _ := NewTDLambda(t1, phi, 0.9, &TDLambdaConfig{Schedule: StepSchedule{StepSize: 0.2}})
 	rng := rand.New(rand.NewPCG(2, 2))
 	for k := 0; k < 5000; k++ {
 		s, a, s2, a2, term := rng.IntN(6), rng.IntN(2), rng.IntN(6), rng.IntN(2), rng.IntN(8) == 0
@@ -73,7 +73,7 @@ func TestTDLambdaRandomWalk(t *testing.T) {
 	const budget = 1000000
 	for _, tr := range []Trace{Accumulating, Replacing} {
 		tb, _ := NewTable(7, 2, 7)
-		l, err := NewTDLambda(tb, phi, 1, &LambdaSettings{Lambda: 0.8, Trace: tr, Step: StepSize{Alpha: 0.3, Power: 0.6}})
+		l, err := NewTDLambda(tb, phi, 1, &TDLambdaConfig{Lambda: 0.8, Trace: tr, Schedule: StepSchedule{StepSize: 0.3, Power: 0.6}})
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -81,16 +81,16 @@ func TestTDLambdaRandomWalk(t *testing.T) {
 		env := mdp.NewSampler(m, 0)
 		s, a := env.Reset(rng), rng.IntN(2)
 		for k := 0; k < budget; k++ {
-			next, term, _ := env.Step(a, rng)
+			out := env.Step(a, rng)
 			a2 := rng.IntN(2)
-			if err := l.Update(s, a, next, term, a2); err != nil {
+			if err := l.Update(s, a, out.Next, out.Terminal(), a2); err != nil {
 				t.Fatal(err)
 			}
-			if term {
+			if out.Done() {
 				s, a = env.Reset(rng), rng.IntN(2)
 				continue
 			}
-			s, a = next, a2
+			s, a = out.Next, a2
 		}
 		d, sc := tableError(m, tb, ex)
 		t.Logf("%v: max error %.4f of largest entry %.3f", tr, d, sc)
@@ -103,7 +103,7 @@ func TestTDLambdaRandomWalk(t *testing.T) {
 func TestTDLambdaErrorsAndAllocs(t *testing.T) {
 	tb, _ := NewTable(3, 2, 3)
 	phi := OneHotState{N: 3}
-	for _, s := range []*LambdaSettings{{Lambda: 1.5}, {Trace: 9}, {Step: StepSize{Power: 2}}} {
+	for _, s := range []*TDLambdaConfig{{Lambda: 1.5}, {Trace: 9}, {Schedule: StepSchedule{Power: 2}}} {
 		if _, err := NewTDLambda(tb, phi, 0.9, s); !errors.Is(err, ErrConfig) {
 			t.Errorf("%+v: err = %v, want ErrConfig", s, err)
 		}
@@ -111,7 +111,7 @@ func TestTDLambdaErrorsAndAllocs(t *testing.T) {
 	if _, err := NewTDLambda(tb, phi, 2, nil); !errors.Is(err, ErrDiscount) {
 		t.Errorf("gamma 2: err = %v", err)
 	}
-	l, _ := NewTDLambda(tb, phi, 0.9, &LambdaSettings{Lambda: 0.9})
+	l, _ := NewTDLambda(tb, phi, 0.9, &TDLambdaConfig{Lambda: 0.9})
 	if n := testing.AllocsPerRun(100, func() {
 		l.Update(0, 1, 1, false, 0)
 		l.Update(1, 0, 2, false, 1)
@@ -120,7 +120,7 @@ func TestTDLambdaErrorsAndAllocs(t *testing.T) {
 		t.Errorf("%v allocs per update", n)
 	}
 	big, _ := NewTable(1, 1, 1)
-	lb, _ := NewTDLambda(big, FeatureFunc{D: 1, F: func(dst []float64, s, a, next int) { dst[0] = 1e308 }}, 1, &LambdaSettings{Step: StepSize{Alpha: 1}})
+	lb, _ := NewTDLambda(big, FeatureFunc{D: 1, F: func(dst []float64, s, a, next int) { dst[0] = 1e308 }}, 1, &TDLambdaConfig{Schedule: StepSchedule{StepSize: 1}})
 	lb.Update(0, 0, 0, false, 0) // psi = 1e308
 	var de *DivergenceError
 	if err := lb.Update(0, 0, 0, false, 0); !errors.As(err, &de) || de.Step != 2 {

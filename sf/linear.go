@@ -98,18 +98,18 @@ func (src *LinearSource) Psi(dst []float64, s int) {
 	src.L.EvalAll(dst, src.x)
 }
 
-// LinearTDSettings configures a LinearTD learner. A nil *LinearTDSettings
+// LinearTDConfig configures a LinearTD learner. A nil *LinearTDConfig
 // means the zero value: the Sampled target with the constant step 0.1.
-type LinearTDSettings struct {
+type LinearTDConfig struct {
 	Target Target
 	// Policy writes the target policy's probabilities pi(.|x') (len A) for
 	// the observation x' of the next state. Required for Expected.
 	Policy func(dst, x []float64)
 	// Task is the task vector w of Greedy (copied). Required for Greedy.
 	Task []float64
-	// Step is the step-size schedule; n counts all updates of the learner
-	// (not per pair): alpha_n = Alpha / (1 + n)^Power.
-	Step StepSize
+	// Schedule is the step-size schedule; n counts all updates of the learner
+	// (not per pair): alpha_n = StepSize / (1 + n)^Power.
+	Schedule StepSchedule
 }
 
 // LinearTD is the semi-gradient TD(0) learner for a Linear approximator
@@ -146,9 +146,9 @@ type LinearTD struct {
 
 // NewLinearTD returns a semi-gradient TD(0) learner updating l in place with
 // discount gamma in [0, 1]. Errors are as for NewTD.
-func NewLinearTD(l *Linear, gamma float64, s *LinearTDSettings) (*LinearTD, error) {
+func NewLinearTD(l *Linear, gamma float64, s *LinearTDConfig) (*LinearTD, error) {
 	if s == nil {
-		s = &LinearTDSettings{}
+		s = &LinearTDConfig{}
 	}
 	if !(gamma >= 0 && gamma <= 1) {
 		return nil, fmt.Errorf("sf: linear td: gamma %v outside [0, 1]: %w", gamma, ErrDiscount)
@@ -156,7 +156,7 @@ func NewLinearTD(l *Linear, gamma float64, s *LinearTDSettings) (*LinearTD, erro
 	if len(l.W) != l.A*l.D*l.M {
 		return nil, fmt.Errorf("sf: linear td: weights have length %d, want %d: %w", len(l.W), l.A*l.D*l.M, ErrDimension)
 	}
-	st, err := s.Step.resolve()
+	st, err := s.Schedule.resolve()
 	if err != nil {
 		return nil, fmt.Errorf("sf: linear td: %w", err)
 	}

@@ -17,7 +17,7 @@ import (
 func TestLinearOneHot(t *testing.T) {
 	const n, na, d, gamma = 5, 2, 3, 0.9
 	phi, _ := NewRandom(n, d, false, rand.New(rand.NewPCG(3, 3)))
-	pi := mdp.RandomPolicy(rand.New(rand.NewPCG(4, 4)), randomMDP(t, 2, mdp.RandomConfig{States: n, Actions: na}))
+	pi := mdp.RandomPolicy(randomMDP(t, 2, &mdp.RandomConfig{States: n, Actions: na}), rand.New(rand.NewPCG(4, 4)))
 	onehot := func(dst []float64, s int) { clear(dst); dst[s] = 1 }
 	state := func(x []float64) int {
 		for s, v := range x {
@@ -30,12 +30,12 @@ func TestLinearOneHot(t *testing.T) {
 	w := []float64{1, -1, 0.5}
 	for _, target := range []Target{Sampled, Expected, Greedy} {
 		tb, _ := NewTable(n, na, d)
-		td, err := NewTD(tb, phi, gamma, &TDSettings{Target: target, Policy: pi, Task: w})
+		td, err := NewTD(tb, phi, gamma, &TDConfig{Target: target, Policy: pi, Task: w})
 		if err != nil {
 			t.Fatal(err)
 		}
 		lin, _ := NewLinear(na, d, n)
-		lt, err := NewLinearTD(lin, gamma, &LinearTDSettings{Target: target, Task: w,
+		lt, err := NewLinearTD(lin, gamma, &LinearTDConfig{Target: target, Task: w,
 			Policy: func(dst, x []float64) { pi.Probs(dst, state(x)) }})
 		if err != nil {
 			t.Fatal(err)
@@ -93,7 +93,7 @@ func TestLinearRotated(t *testing.T) {
 	qr.QTo(&q)
 	obs := func(dst []float64, s int) { mat.Col(dst, s, &q) }
 	lin, _ := NewLinear(2, 7, 7)
-	lt, err := NewLinearTD(lin, 1, &LinearTDSettings{Target: Expected, Step: StepSize{Alpha: 0.5},
+	lt, err := NewLinearTD(lin, 1, &LinearTDConfig{Target: Expected, Schedule: StepSchedule{StepSize: 0.5},
 		Policy: func(dst, x []float64) { dst[0], dst[1] = 0.5, 0.5 }})
 	if err != nil {
 		t.Fatal(err)
@@ -127,7 +127,7 @@ func TestLinearRotated(t *testing.T) {
 // 1e308 + 1e308 overflows (derived by hand).
 func TestLinearDivergence(t *testing.T) {
 	lin, _ := NewLinear(1, 1, 1)
-	lt, _ := NewLinearTD(lin, 1, &LinearTDSettings{Step: StepSize{Alpha: 1}})
+	lt, _ := NewLinearTD(lin, 1, &LinearTDConfig{Schedule: StepSchedule{StepSize: 1}})
 	x, f := []float64{1}, []float64{1e308}
 	if err := lt.Update(x, 0, f, x, false, 0); err != nil {
 		t.Fatal(err)
@@ -147,10 +147,10 @@ func TestLinearAllocsAndErrors(t *testing.T) {
 		t.Errorf("NewLinear(0,1,1): err = %v", err)
 	}
 	lin, _ := NewLinear(3, 4, 6)
-	if _, err := NewLinearTD(lin, 0.9, &LinearTDSettings{Target: Expected}); !errors.Is(err, ErrConfig) {
+	if _, err := NewLinearTD(lin, 0.9, &LinearTDConfig{Target: Expected}); !errors.Is(err, ErrConfig) {
 		t.Errorf("no policy: err = %v", err)
 	}
-	if _, err := NewLinearTD(lin, 0.9, &LinearTDSettings{Target: Greedy, Task: []float64{1}}); !errors.Is(err, ErrDimension) {
+	if _, err := NewLinearTD(lin, 0.9, &LinearTDConfig{Target: Greedy, Task: []float64{1}}); !errors.Is(err, ErrDimension) {
 		t.Errorf("task length: err = %v", err)
 	}
 	if _, err := NewLinearTD(lin, -1, nil); !errors.Is(err, ErrDiscount) {
@@ -161,8 +161,8 @@ func TestLinearAllocsAndErrors(t *testing.T) {
 		x[i], x2[i] = float64(i)/6, 1-float64(i)/6
 	}
 	for _, target := range []Target{Sampled, Expected, Greedy} {
-		lt, err := NewLinearTD(lin, 0.9, &LinearTDSettings{Target: target, Task: []float64{1, 0, 0, 1},
-			Policy: func(dst, x []float64) { dst[0], dst[1], dst[2] = 0.2, 0.3, 0.5 }, Step: StepSize{Power: 0.7}})
+		lt, err := NewLinearTD(lin, 0.9, &LinearTDConfig{Target: target, Task: []float64{1, 0, 0, 1},
+			Policy: func(dst, x []float64) { dst[0], dst[1], dst[2] = 0.2, 0.3, 0.5 }, Schedule: StepSchedule{Power: 0.7}})
 		if err != nil {
 			t.Fatal(err)
 		}

@@ -10,9 +10,9 @@ import (
 	"github.com/successor-go/successor/linalg"
 )
 
-// TaskSettings configures InferTask and TaskEstimator. A nil *TaskSettings
+// TaskConfig configures InferTask and TaskEstimator. A nil *TaskConfig
 // means the zero value: no projection.
-type TaskSettings struct {
+type TaskConfig struct {
 	// Unit projects the fitted w to the unit sphere, w / ||w|| (for skill
 	// vectors, whose features live on the sphere). A zero w then gives an
 	// error wrapping ErrZeroVector.
@@ -42,7 +42,7 @@ type TaskFit struct {
 // linalg.ErrRankDeficient (lambda = 0 and phis without full column rank,
 // e.g. fewer samples than features) or ErrZeroVector. On error dst is
 // unchanged.
-func InferTask(dst []float64, phis mat.Matrix, rewards []float64, lambda float64, s *TaskSettings) (TaskFit, error) {
+func InferTask(dst []float64, phis mat.Matrix, rewards []float64, lambda float64, s *TaskConfig) (TaskFit, error) {
 	n, d := phis.Dims()
 	if len(dst) != d {
 		return TaskFit{}, fmt.Errorf("sf: infer task: dst has length %d, want %d: %w", len(dst), d, ErrDimension)
@@ -94,7 +94,7 @@ type TaskEstimator struct {
 // strength lambda > 0 (recursive least squares starts from the prior
 // w = 0 with precision lambda; a small lambda such as 1e-6 approximates
 // plain least squares). Errors wrap ErrDimension or ErrConfig.
-func NewTaskEstimator(d int, lambda float64, s *TaskSettings) (*TaskEstimator, error) {
+func NewTaskEstimator(d int, lambda float64, s *TaskConfig) (*TaskEstimator, error) {
 	r, err := linalg.NewRLS(d, lambda)
 	if err != nil {
 		return nil, fmt.Errorf("sf: task estimator: %w", err)

@@ -49,7 +49,7 @@ func TestInferTaskExact(t *testing.T) {
 		if fit.RSS > 1e-18*float64(n) || fit.Samples != n || math.Abs(fit.Norm-math.Sqrt(vec.Dot(w, w))) > 1e-9 {
 			t.Errorf("seed %d: fit %+v", seed, fit)
 		}
-		if _, err := InferTask(got, x, r, 0, &TaskSettings{Unit: true}); err != nil {
+		if _, err := InferTask(got, x, r, 0, &TaskConfig{Unit: true}); err != nil {
 			t.Fatal(err)
 		}
 		nw := math.Sqrt(vec.Dot(w, w))
@@ -152,13 +152,13 @@ func TestTaskErrors(t *testing.T) {
 		dst    []float64
 		r      []float64
 		lambda float64
-		set    *TaskSettings
+		set    *TaskConfig
 		want   error
 	}{
 		{"dst length", make([]float64, 3), []float64{1, 2, 3}, 0, nil, ErrDimension},
 		{"rewards length", dst, []float64{1, 2}, 0, nil, ErrDimension},
 		{"negative lambda", dst, []float64{1, 2, 3}, -1, nil, ErrConfig},
-		{"zero vector", dst, []float64{0, 0, 0}, 0, &TaskSettings{Unit: true}, ErrZeroVector},
+		{"zero vector", dst, []float64{0, 0, 0}, 0, &TaskConfig{Unit: true}, ErrZeroVector},
 		{"non-finite", dst, []float64{0, math.NaN(), 0}, 0, nil, ErrNonFinite},
 	} {
 		if _, err := InferTask(tc.dst, x, tc.r, tc.lambda, tc.set); !errors.Is(err, tc.want) {
@@ -169,7 +169,7 @@ func TestTaskErrors(t *testing.T) {
 	if _, err := InferTask(dst, rank, []float64{1, 2, 3}, 0, nil); !errors.Is(err, linalg.ErrSingular) {
 		t.Errorf("rank deficient: err = %v", err)
 	}
-	est, _ := NewTaskEstimator(2, 1, &TaskSettings{Unit: true})
+	est, _ := NewTaskEstimator(2, 1, &TaskConfig{Unit: true})
 	if err := est.Task(dst); !errors.Is(err, ErrZeroVector) {
 		t.Errorf("estimator before data: err = %v", err)
 	}

@@ -43,14 +43,14 @@ func (t Target) String() string {
 	return fmt.Sprintf("Target(%d)", int(t))
 }
 
-// StepSize is a step-size schedule. The step of the update of pair (s, a),
-// after n earlier updates of that pair, is
+// StepSchedule is a step-size schedule. The step of the update of pair
+// (s, a), after n earlier updates of that pair, is
 //
-//	alpha_n = Alpha / (1 + n)^Power.
+//	alpha_n = StepSize / (1 + n)^Power.
 //
-// Power = 0 gives the constant step Alpha: the estimate then converges only
-// in mean, to a neighbourhood of the fixed point whose width grows with
-// Alpha. Power in (1/2, 1] satisfies the Robbins-Monro conditions
+// Power = 0 gives the constant step StepSize: the estimate then converges
+// only in mean, to a neighbourhood of the fixed point whose width grows
+// with StepSize. Power in (1/2, 1] satisfies the Robbins-Monro conditions
 // (sum alpha_n = inf, sum alpha_n^2 < inf), under which tabular TD(0)
 // converges with probability 1 when every pair is updated infinitely often
 // (Jaakkola, Jordan and Singh 1994; Tsitsiklis 1994). Power = 1 is the
@@ -60,25 +60,25 @@ func (t Target) String() string {
 // per update.
 //
 // The zero value is the constant step 0.1.
-type StepSize struct {
-	// Alpha is the initial step. 0 means 0.1 when Power = 0 and 1 when
+type StepSchedule struct {
+	// StepSize is the initial step. 0 means 0.1 when Power = 0 and 1 when
 	// Power > 0.
-	Alpha float64
+	StepSize float64
 	// Power is the decay exponent, in [0, 1]; 0 means constant.
 	Power float64
 }
 
-func (st StepSize) resolve() (StepSize, error) {
+func (st StepSchedule) resolve() (StepSchedule, error) {
 	if !(st.Power >= 0 && st.Power <= 1) {
 		return st, fmt.Errorf("step power %v outside [0, 1]: %w", st.Power, ErrConfig)
 	}
-	if !(st.Alpha >= 0 && st.Alpha <= 1) {
-		return st, fmt.Errorf("step %v outside [0, 1]: %w", st.Alpha, ErrConfig)
+	if !(st.StepSize >= 0 && st.StepSize <= 1) {
+		return st, fmt.Errorf("step %v outside [0, 1]: %w", st.StepSize, ErrConfig)
 	}
-	if st.Alpha == 0 {
-		st.Alpha = 0.1
+	if st.StepSize == 0 {
+		st.StepSize = 0.1
 		if st.Power > 0 {
-			st.Alpha = 1
+			st.StepSize = 1
 		}
 	}
 	return st, nil
@@ -90,8 +90,8 @@ type schedule struct {
 	visits       []float64 // per pair; nil for a constant step
 }
 
-func newSchedule(st StepSize, pairs int) schedule {
-	sc := schedule{alpha: st.Alpha, power: st.Power}
+func newSchedule(st StepSchedule, pairs int) schedule {
+	sc := schedule{alpha: st.StepSize, power: st.Power}
 	if st.Power > 0 {
 		sc.visits = make([]float64, pairs)
 	}
@@ -117,9 +117,9 @@ func (sc *schedule) step(i int) float64 {
 	return sc.alpha * math.Exp(-sc.power*math.Log(n))
 }
 
-// TDSettings configures a TD learner. A nil *TDSettings means the zero value:
+// TDConfig configures a TD learner. A nil *TDConfig means the zero value:
 // the Sampled target with the constant step 0.1.
-type TDSettings struct {
+type TDConfig struct {
 	Target Target
 	// Policy is the target policy of Expected; it is read once, at every
 	// state (terminal ones included), when the learner is made. Required
@@ -128,9 +128,9 @@ type TDSettings struct {
 	// Task is the task vector w of Greedy (copied). Required for Greedy,
 	// ignored otherwise.
 	Task []float64
-	// Step is the step-size schedule; n counts the earlier updates of the
+	// Schedule is the step-size schedule; n counts the earlier updates of the
 	// same pair.
-	Step StepSize
+	Schedule StepSchedule
 }
 
 // TD is the tabular TD(0) learner for successor features. An update for the
@@ -182,9 +182,9 @@ type TD struct {
 // ErrDimension (phi.Dim() != t.D, a task or policy of the wrong size),
 // ErrConfig (a missing policy or task, an unknown target or a bad step)
 // or linalg.ErrNotStochastic (a policy that is not a distribution).
-func NewTD(t *Table, phi FeatureMap, gamma float64, s *TDSettings) (*TD, error) {
+func NewTD(t *Table, phi FeatureMap, gamma float64, s *TDConfig) (*TD, error) {
 	if s == nil {
-		s = &TDSettings{}
+		s = &TDConfig{}
 	}
 	if !(gamma >= 0 && gamma <= 1) {
 		return nil, fmt.Errorf("sf: td: gamma %v outside [0, 1]: %w", gamma, ErrDiscount)
@@ -195,7 +195,7 @@ func NewTD(t *Table, phi FeatureMap, gamma float64, s *TDSettings) (*TD, error) 
 	if len(t.Data) != t.S*t.A*t.D {
 		return nil, fmt.Errorf("sf: td: table data has length %d, want %d: %w", len(t.Data), t.S*t.A*t.D, ErrDimension)
 	}
-	st, err := s.Step.resolve()
+	st, err := s.Schedule.resolve()
 	if err != nil {
 		return nil, fmt.Errorf("sf: td: %w", err)
 	}
@@ -226,7 +226,7 @@ func NewTD(t *Table, phi FeatureMap, gamma float64, s *TDSettings) (*TD, error) 
 		l.sparse, _ = phi.(sparseMap)
 		l.rows, _ = phi.(rowMap)
 	}
-	l.step = newStep(st.Alpha, gamma)
+	l.step = newStep(st.StepSize, gamma)
 	if l.kind == kindState && t.D != t.S || l.kind == kindStateAction && t.D != t.S*t.A {
 		return nil, fmt.Errorf("sf: td: one-hot map of dimension %d does not match a table of %d states and %d actions: %w", t.D, t.S, t.A, ErrDimension)
 	}

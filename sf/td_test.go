@@ -104,7 +104,7 @@ func TestTDRandomWalk(t *testing.T) {
 	var prev float64
 	for i, budget := range []int{30000, 1000000} {
 		tb, _ := NewTable(7, 2, 7)
-		l, err := NewTD(tb, phi, 1, &TDSettings{Step: StepSize{Power: 0.7}})
+		l, err := NewTD(tb, phi, 1, &TDConfig{Schedule: StepSchedule{Power: 0.7}})
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -131,7 +131,7 @@ func TestTDGreedy(t *testing.T) {
 	compared := 0 // seeds whose psi was compared with the exact SFs
 	for seed := uint64(1); seed <= 3; seed++ {
 		rng := rand.New(rand.NewPCG(seed, 17))
-		m := randomMDP(t, seed, mdp.RandomConfig{States: 6, Actions: 2, Branching: 2, TerminalFraction: 0.2})
+		m := randomMDP(t, seed, &mdp.RandomConfig{States: 6, Actions: 2, Branching: 2, TerminalFraction: 0.2})
 		phi, _ := NewRandom(6, 3, false, rng)
 		w := []float64{1, -1, 0.5}
 		const gamma = 0.8
@@ -140,7 +140,7 @@ func TestTDGreedy(t *testing.T) {
 			t.Fatal(err)
 		}
 		tb, _ := NewTable(6, 2, 3)
-		l, err := NewTD(tb, phi, gamma, &TDSettings{Target: Greedy, Task: w, Step: StepSize{Power: 0.8}})
+		l, err := NewTD(tb, phi, gamma, &TDConfig{Target: Greedy, Task: w, Schedule: StepSchedule{Power: 0.8}})
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -193,8 +193,8 @@ func TestTDGreedy(t *testing.T) {
 // MDP; tolerance testtol.TD (0.02) of the largest entry.
 func TestTDExpected(t *testing.T) {
 	rng := rand.New(rand.NewPCG(4, 4))
-	m := randomMDP(t, 4, mdp.RandomConfig{States: 8, Actions: 3, TerminalFraction: 0.2})
-	target := mdp.RandomPolicy(rng, m)
+	m := randomMDP(t, 4, &mdp.RandomConfig{States: 8, Actions: 3, TerminalFraction: 0.2})
+	target := mdp.RandomPolicy(m, rng)
 	phi := OneHotState{N: 8}
 	const gamma = 0.7
 	ex, err := Exact(m, target, phi, gamma)
@@ -202,7 +202,7 @@ func TestTDExpected(t *testing.T) {
 		t.Fatal(err)
 	}
 	tb, _ := NewTable(8, 3, 8)
-	l, err := NewTD(tb, phi, gamma, &TDSettings{Target: Expected, Policy: target, Step: StepSize{Power: 0.7}})
+	l, err := NewTD(tb, phi, gamma, &TDConfig{Target: Expected, Policy: target, Schedule: StepSchedule{Power: 0.7}})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -221,7 +221,7 @@ func TestTDExpected(t *testing.T) {
 func TestTDOneStep(t *testing.T) {
 	tb, _ := NewTable(3, 2, 3)
 	copy(tb.Row(1, 1), []float64{1, 2, 4})
-	l, err := NewTD(tb, OneHotState{N: 3}, 0.5, &TDSettings{Step: StepSize{Alpha: 1}})
+	l, err := NewTD(tb, OneHotState{N: 3}, 0.5, &TDConfig{Schedule: StepSchedule{StepSize: 1}})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -239,20 +239,20 @@ func TestTDOneStep(t *testing.T) {
 	// The sparse paths against the dense ones, for every target.
 	lab, _ := NewLabels([]int{0, -1, 1, 2, -1}, 3, true)
 	fn := FeatureFunc{D: 4, F: lab.Features}
-	pi := mdp.RandomPolicy(rand.New(rand.NewPCG(1, 1)), randomMDP(t, 1, mdp.RandomConfig{States: 5, Actions: 2}))
+	pi := mdp.RandomPolicy(randomMDP(t, 1, &mdp.RandomConfig{States: 5, Actions: 2}), rand.New(rand.NewPCG(1, 1)))
 	w := []float64{1, -2, 0.5, 0.1}
 	for _, tc := range []struct {
 		target Target
-		step   StepSize
+		step   StepSchedule
 	}{
-		{Sampled, StepSize{Alpha: 0.3}}, // the one-row pass of update
-		{Sampled, StepSize{Power: 0.8}},
-		{Expected, StepSize{Power: 0.8}},
-		{Greedy, StepSize{Power: 0.8}},
-		{Greedy, StepSize{Alpha: 0.3}},
+		{Sampled, StepSchedule{StepSize: 0.3}}, // the one-row pass of update
+		{Sampled, StepSchedule{Power: 0.8}},
+		{Expected, StepSchedule{Power: 0.8}},
+		{Greedy, StepSchedule{Power: 0.8}},
+		{Greedy, StepSchedule{StepSize: 0.3}},
 	} {
 		target := tc.target
-		set := &TDSettings{Target: target, Policy: pi, Task: w, Step: tc.step}
+		set := &TDConfig{Target: target, Policy: pi, Task: w, Schedule: tc.step}
 		var tabs [3]*Table
 		var ls [3]*TD
 		for i, phi := range []FeatureMap{lab, fn, lab} {
@@ -286,7 +286,7 @@ func TestTDOneStep(t *testing.T) {
 func TestTDDivergence(t *testing.T) {
 	tb, _ := NewTable(1, 1, 2)
 	phi := FeatureFunc{D: 2, F: func(dst []float64, s, a, next int) { dst[0], dst[1] = 1e308, 0 }}
-	l, _ := NewTD(tb, phi, 1, &TDSettings{Step: StepSize{Alpha: 1}})
+	l, _ := NewTD(tb, phi, 1, &TDConfig{Schedule: StepSchedule{StepSize: 1}})
 	if err := l.Update(0, 0, 0, false, 0); err != nil {
 		t.Fatalf("update 1: %v", err)
 	}
@@ -307,16 +307,16 @@ func TestTDSettingsErrors(t *testing.T) {
 		name  string
 		phi   FeatureMap
 		gamma float64
-		set   *TDSettings
+		set   *TDConfig
 		want  error
 	}{
 		{"gamma", phi, 1.1, nil, ErrDiscount},
 		{"dim", OneHotState{N: 4}, 0.9, nil, ErrDimension},
-		{"no policy", phi, 0.9, &TDSettings{Target: Expected}, ErrConfig},
-		{"task length", phi, 0.9, &TDSettings{Target: Greedy, Task: []float64{1}}, ErrDimension},
-		{"step", phi, 0.9, &TDSettings{Step: StepSize{Alpha: 2}}, ErrConfig},
-		{"power", phi, 0.9, &TDSettings{Step: StepSize{Power: -1}}, ErrConfig},
-		{"target", phi, 0.9, &TDSettings{Target: 7}, ErrConfig},
+		{"no policy", phi, 0.9, &TDConfig{Target: Expected}, ErrConfig},
+		{"task length", phi, 0.9, &TDConfig{Target: Greedy, Task: []float64{1}}, ErrDimension},
+		{"step", phi, 0.9, &TDConfig{Schedule: StepSchedule{StepSize: 2}}, ErrConfig},
+		{"power", phi, 0.9, &TDConfig{Schedule: StepSchedule{Power: -1}}, ErrConfig},
+		{"target", phi, 0.9, &TDConfig{Target: 7}, ErrConfig},
 	} {
 		if _, err := NewTD(tb, tc.phi, tc.gamma, tc.set); !errors.Is(err, tc.want) {
 			t.Errorf("%s: err = %v, want %v", tc.name, err, tc.want)
@@ -334,7 +334,7 @@ func TestTDAllocs(t *testing.T) {
 	for _, phi := range []FeatureMap{lab, ns, fn} {
 		for _, target := range []Target{Sampled, Expected, Greedy} {
 			tb, _ := NewTable(4, 2, 3)
-			l, err := NewTD(tb, phi, 0.9, &TDSettings{Target: target, Policy: mdp.Uniform{N: 2}, Task: w, Step: StepSize{Power: 0.6}})
+			l, err := NewTD(tb, phi, 0.9, &TDConfig{Target: target, Policy: mdp.Uniform{N: 2}, Task: w, Schedule: StepSchedule{Power: 0.6}})
 			if err != nil {
 				t.Fatal(err)
 			}
@@ -377,7 +377,7 @@ func TestTDDepot(t *testing.T) {
 	var prev float64
 	for i, budget := range []int{100000, 1000000} {
 		tb, _ := NewTable(m.NumStates(), m.NumActions(), phi.Dim())
-		l, err := NewTD(tb, phi, gamma, &TDSettings{Target: Expected, Policy: pi, Step: StepSize{Power: 0.6}})
+		l, err := NewTD(tb, phi, gamma, &TDConfig{Target: Expected, Policy: pi, Schedule: StepSchedule{Power: 0.6}})
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -394,11 +394,11 @@ func TestTDDepot(t *testing.T) {
 	}
 }
 
-// TestSchedule checks the step sizes alpha_n = Alpha / (1 + n)^Power of
+// TestSchedule checks the step sizes alpha_n = StepSize / (1 + n)^Power of
 // the fast paths against math.Pow, per pair (derived from the definition).
 func TestSchedule(t *testing.T) {
 	for _, p := range []float64{0.5, 0.6, 0.75, 1} {
-		sc := newSchedule(StepSize{Alpha: 0.8, Power: p}, 2)
+		sc := newSchedule(StepSchedule{StepSize: 0.8, Power: p}, 2)
 		for n := 0; n < 50; n++ {
 			want := 0.8 / math.Pow(float64(n+1), p)
 			if got := sc.step(1); math.Abs(got-want) > 1e-15 {
@@ -409,7 +409,7 @@ func TestSchedule(t *testing.T) {
 			t.Errorf("power %v: first step of another pair %v, want 0.8", p, got)
 		}
 	}
-	sc := newSchedule(StepSize{Alpha: 0.3}, 2)
+	sc := newSchedule(StepSchedule{StepSize: 0.3}, 2)
 	// step is called twice on purpose: a constant schedule must not move.
 	if first, second := sc.step(0), sc.step(0); first != 0.3 || second != 0.3 {
 		t.Error("constant step changed")

@@ -12,11 +12,11 @@ func TestZeroAllocs(t *testing.T) {
 	rng := rand.New(rand.NewPCG(1, 5))
 	var ds []Discriminator
 	v, _ := NewVMF(&VMFConfig{In: ns, Dim: 8, LearnKappa: true}, rng)
-	vn, _ := NewVMF(&VMFConfig{In: ns, Dim: 8, Net: Net{Hidden: []int{16}, MaxBatch: 32}}, rng)
+	vn, _ := NewVMF(&VMFConfig{In: ns, Dim: 8, Net: NetConfig{Hidden: []int{16}, MaxBatch: 32}}, rng)
 	s, _ := NewSoftmax(&SoftmaxConfig{In: ns, K: 8}, rng)
-	sn, _ := NewSoftmax(&SoftmaxConfig{In: ns, K: 8, Net: Net{Hidden: []int{16}}}, rng)
-	vs, _ := NewVMF(&VMFConfig{In: ns, Dim: 8, Optim: Optim{Method: OptimSparseAdam, ClipNorm: 1}}, rng)
-	ss, _ := NewSoftmax(&SoftmaxConfig{In: ns, K: 8, Optim: Optim{Method: OptimSparseAdam}}, rng)
+	sn, _ := NewSoftmax(&SoftmaxConfig{In: ns, K: 8, Net: NetConfig{Hidden: []int{16}}}, rng)
+	vs, _ := NewVMF(&VMFConfig{In: ns, Dim: 8, Optim: OptimConfig{Method: OptimSparseAdam, ClipNorm: 1}}, rng)
+	ss, _ := NewSoftmax(&SoftmaxConfig{In: ns, K: 8, Optim: OptimConfig{Method: OptimSparseAdam}}, rng)
 	ds = append(ds, v, vn, s, sn, vs, ss)
 	for _, d := range ds {
 		var p Prior = Categorical{K: 8}

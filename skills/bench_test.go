@@ -40,7 +40,7 @@ func BenchmarkUpdate(b *testing.B) {
 		})
 	}
 	rng := rand.New(rand.NewPCG(1, 2))
-	v, _ := NewVMF(&VMFConfig{In: depotStates, Dim: 8, Net: Net{Hidden: []int{64, 64}}}, rng)
+	v, _ := NewVMF(&VMFConfig{In: depotStates, Dim: 8, Net: NetConfig{Hidden: []int{64, 64}}}, rng)
 	x, z := benchBatch(rng, 64, 8, UniformSphere{D: 8})
 	b.Run("vmf/mlp64x64/d=8", func(b *testing.B) {
 		b.ReportAllocs()
@@ -58,7 +58,7 @@ func BenchmarkUpdateSparse(b *testing.B) {
 	for _, batch := range []int{1, 64} {
 		for _, m := range []OptimMethod{OptimAdam, OptimSparseAdam} {
 			rng := rand.New(rand.NewPCG(1, 7))
-			v, _ := NewVMF(&VMFConfig{In: states, Dim: d, Optim: Optim{Method: m}}, rng)
+			v, _ := NewVMF(&VMFConfig{In: states, Dim: d, Optim: OptimConfig{Method: m}}, rng)
 			x, z := make([]float64, batch*states), make([]float64, batch*d)
 			for i := range batch {
 				OneHot(x[i*states:(i+1)*states], rng.IntN(states))

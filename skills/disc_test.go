@@ -5,6 +5,8 @@ import (
 	"math"
 	"math/rand/v2"
 	"testing"
+
+	"github.com/successor-go/successor/internal/vec"
 )
 
 // randBatch returns n rows of dense Gaussian observations and n skills from p.
@@ -60,10 +62,10 @@ func TestGradientVMF(t *testing.T) {
 	rng := rand.New(rand.NewPCG(1, 2))
 	for _, tc := range []struct {
 		name string
-		net  Net
+		net  NetConfig
 	}{
-		{"linear", Net{}},
-		{"tanh 6x5, chunks of 3", Net{Hidden: []int{6, 5}, Tanh: true, MaxBatch: 3}},
+		{"linear", NetConfig{}},
+		{"tanh 6x5, chunks of 3", NetConfig{Hidden: []int{6, 5}, Tanh: true, MaxBatch: 3}},
 	} {
 		v, err := NewVMF(&VMFConfig{In: 5, Dim: 4, Net: tc.net, Kappa: 2.5}, rng)
 		if err != nil {
@@ -105,12 +107,12 @@ func TestGradientSoftmax(t *testing.T) {
 	rng := rand.New(rand.NewPCG(4, 2))
 	for _, tc := range []struct {
 		name string
-		net  Net
+		net  NetConfig
 		soft bool
 	}{
-		{"linear", Net{}, false},
-		{"linear soft z", Net{}, true},
-		{"tanh 7, chunks of 4", Net{Hidden: []int{7}, Tanh: true, MaxBatch: 4}, false},
+		{"linear", NetConfig{}, false},
+		{"linear soft z", NetConfig{}, true},
+		{"tanh 7, chunks of 4", NetConfig{Hidden: []int{7}, Tanh: true, MaxBatch: 4}, false},
 	} {
 		s, err := NewSoftmax(&SoftmaxConfig{In: 5, K: 4, Net: tc.net}, rng)
 		if err != nil {
@@ -176,7 +178,7 @@ func TestSoftmaxPseudoReward(t *testing.T) {
 		// phi(x) . TaskVector(z) is the same reward.
 		s.Features(phi, x)
 		s.TaskVector(w, z)
-		if pr := dot(phi, w); math.Abs(pr-r) > 1e-13 {
+		if pr := vec.DotSeq(phi, w); math.Abs(pr-r) > 1e-13 {
 			t.Errorf("phi . w = %.15g, reward %.15g", pr, r)
 		}
 		if phi[k] != math.Log(k) || w[k] != 1 {
@@ -263,11 +265,11 @@ func TestConfigErrors(t *testing.T) {
 		{In: 2, Dim: 3, Kappa: math.Inf(1)},
 		{In: 2, Dim: 3, Kappa: 2000, LearnKappa: true},
 		{In: 2, Dim: 3, MaxKappa: -1},
-		{In: 2, Dim: 3, Optim: Optim{LearnRate: -1}},
-		{In: 2, Dim: 3, Optim: Optim{Beta1: 1}},
-		{In: 2, Dim: 3, Optim: Optim{ClipNorm: math.NaN()}},
-		{In: 2, Dim: 3, Net: Net{Hidden: []int{0}}},
-		{In: 2, Dim: 3, Net: Net{Hidden: []int{4}, MaxBatch: -1}},
+		{In: 2, Dim: 3, Optim: OptimConfig{StepSize: -1}},
+		{In: 2, Dim: 3, Optim: OptimConfig{Beta1: 1}},
+		{In: 2, Dim: 3, Optim: OptimConfig{ClipNorm: math.NaN()}},
+		{In: 2, Dim: 3, Net: NetConfig{Hidden: []int{0}}},
+		{In: 2, Dim: 3, Net: NetConfig{Hidden: []int{4}, MaxBatch: -1}},
 	} {
 		if _, err := NewVMF(c, rng); !errors.Is(err, ErrConfig) {
 			t.Errorf("NewVMF(%+v): error %v, want ErrConfig", c, err)
@@ -276,7 +278,7 @@ func TestConfigErrors(t *testing.T) {
 	if _, err := NewVMF(&VMFConfig{In: 2, Dim: 3}, nil); !errors.Is(err, ErrConfig) {
 		t.Errorf("nil rng: %v", err)
 	}
-	for _, c := range []*SoftmaxConfig{nil, {In: 2, K: 1}, {In: 0, K: 3}, {In: 2, K: 3, Optim: Optim{Eps: -1}}} {
+	for _, c := range []*SoftmaxConfig{nil, {In: 2, K: 1}, {In: 0, K: 3}, {In: 2, K: 3, Optim: OptimConfig{Eps: -1}}} {
 		if _, err := NewSoftmax(c, rng); !errors.Is(err, ErrConfig) {
 			t.Errorf("NewSoftmax(%+v): error %v, want ErrConfig", c, err)
 		}
@@ -308,7 +310,7 @@ func TestUpdateLengthPanics(t *testing.T) {
 func TestVMFZeroDirection(t *testing.T) {
 	// f(x) = 0: phi = 0 (q uniform), the loss is -log C_d(kappa), and an
 	// update moves f towards z (documented subgradient -kappa z / n).
-	v, _ := NewVMF(&VMFConfig{In: 2, Dim: 3, Kappa: 2, Optim: Optim{LearnRate: 0.01}}, rand.New(rand.NewPCG(1, 1)))
+	v, _ := NewVMF(&VMFConfig{In: 2, Dim: 3, Kappa: 2, Optim: OptimConfig{StepSize: 0.01}}, rand.New(rand.NewPCG(1, 1)))
 	clear(v.enc.params())
 	x := []float64{1, 0}
 	z := []float64{0, 0, 1}

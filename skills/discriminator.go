@@ -55,9 +55,9 @@ type Classifier interface {
 	Predict(x []float64) int
 }
 
-// Net describes the map f inside a discriminator: the vMF direction f(x)
+// NetConfig describes the map f inside a discriminator: the vMF direction f(x)
 // or the categorical logits.
-type Net struct {
+type NetConfig struct {
 	// Hidden are the widths of the hidden layers. Empty means a linear map
 	// f(x) = x W + b (tabular when x is one-hot); otherwise f is a
 	// multilayer perceptron from the internal nn package.
@@ -73,7 +73,7 @@ type Net struct {
 
 const maxHiddenLayers = 16
 
-func (n *Net) check() error {
+func (n *NetConfig) check() error {
 	if len(n.Hidden) > maxHiddenLayers {
 		return fmt.Errorf("%d hidden layers, at most %d: %w", len(n.Hidden), maxHiddenLayers, ErrConfig)
 	}
@@ -108,7 +108,7 @@ const (
 // width), so that loaders never allocate without bound.
 const maxWidth = 1 << 14
 
-func newEncoder(in, out int, net *Net, rng *rand.Rand) (encoder, error) {
+func newEncoder(in, out int, net *NetConfig, rng *rand.Rand) (encoder, error) {
 	if len(net.Hidden) == 0 {
 		return newLinear(in, out, rng), nil
 	}
@@ -118,7 +118,7 @@ func newEncoder(in, out int, net *Net, rng *rand.Rand) (encoder, error) {
 // core is the training loop shared by the discriminators.
 type core struct {
 	enc   encoder
-	opt   Optim
+	opt   OptimConfig
 	adam  *nn.Adam
 	steps int
 	dy    []float64 // dLoss/df for one chunk
@@ -132,7 +132,7 @@ type chunkLosser interface {
 	chunkLoss(dy, y, z []float64, m int, inv float64) float64
 }
 
-func newCore(enc encoder, opt Optim) core {
+func newCore(enc encoder, opt OptimConfig) core {
 	return core{enc: enc, opt: opt, adam: newAdam(len(enc.params()), &opt)}
 }
 

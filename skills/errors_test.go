@@ -33,7 +33,7 @@ func TestSharedErrors(t *testing.T) {
 			errOf(skills.NewVMF(nil, rng)),
 			skills.ErrConfig, errs.Config, sf.ErrConfig},
 		{"config: beta1 1",
-			errOf(skills.NewSoftmax(&skills.SoftmaxConfig{In: 2, K: 3, Optim: skills.Optim{Beta1: 1}}, rng)),
+			errOf(skills.NewSoftmax(&skills.SoftmaxConfig{In: 2, K: 3, Optim: skills.OptimConfig{Beta1: 1}}, rng)),
 			skills.ErrConfig, errs.Config, linalg.ErrConfig},
 		{"dimension: three observations for two skills",
 			errOf(skills.EstimateMI(soft, cat, []float64{1, 0, 0, 1, 1, 1}, []float64{1, 0, 0, 0, 1, 0})),

@@ -28,7 +28,7 @@ func ExampleSoftmax_Reward() {
 	// lives in cell k. Train the categorical discriminator, then read the
 	// pseudo-reward log q(z|s) - log p(z), which approaches log 4.
 	rng := rand.New(rand.NewPCG(1, 2))
-	d, err := skills.NewSoftmax(&skills.SoftmaxConfig{In: 4, K: 4, Optim: skills.Optim{LearnRate: 0.1}}, rng)
+	d, err := skills.NewSoftmax(&skills.SoftmaxConfig{In: 4, K: 4, Optim: skills.OptimConfig{StepSize: 0.1}}, rng)
 	if err != nil {
 		panic(err)
 	}

@@ -1,6 +1,10 @@
 package skills
 
-import "fmt"
+import (
+	"fmt"
+
+	"github.com/successor-go/successor/internal/vec"
+)
 
 // OneHot writes the one-hot observation of state s into dst: zeros and a 1
 // at index s. It panics if s is not in [0, len(dst)).
@@ -105,7 +109,7 @@ func (m *FeatureMap) TaskVector(dst, z []float64) { m.d.TaskVector(dst, z) }
 func (m *FeatureMap) Reward(z []float64, s, a, next int) float64 {
 	if m.table != nil {
 		m.d.TaskVector(m.w, z)
-		return dot(m.table[next*m.dim:(next+1)*m.dim], m.w)
+		return vec.DotSeq(m.table[next*m.dim:(next+1)*m.dim], m.w)
 	}
 	m.obs(m.x, next)
 	return m.d.Reward(m.x, z)

@@ -5,6 +5,8 @@ import (
 	"math"
 	"math/rand/v2"
 	"testing"
+
+	"github.com/successor-go/successor/internal/vec"
 )
 
 func TestFeatureMapLiveFrozen(t *testing.T) {
@@ -14,8 +16,8 @@ func TestFeatureMapLiveFrozen(t *testing.T) {
 	// phi . TaskVector(z) is the discriminator's reward.
 	const ns = 6
 	rng := rand.New(rand.NewPCG(2, 2))
-	v, _ := NewVMF(&VMFConfig{In: ns, Dim: 3, Optim: Optim{LearnRate: 0.1}}, rng)
-	s, _ := NewSoftmax(&SoftmaxConfig{In: ns, K: 3, Optim: Optim{LearnRate: 0.1}}, rng)
+	v, _ := NewVMF(&VMFConfig{In: ns, Dim: 3, Optim: OptimConfig{StepSize: 0.1}}, rng)
+	s, _ := NewSoftmax(&SoftmaxConfig{In: ns, K: 3, Optim: OptimConfig{StepSize: 0.1}}, rng)
 	for _, d := range []Discriminator{v, s} {
 		live, err := NewFeatureMap(d, nil)
 		if err != nil {
@@ -72,15 +74,15 @@ func TestFeatureMapLiveFrozen(t *testing.T) {
 			w := make([]float64, fd)
 			live.TaskVector(w, z)
 			OneHot(x, next)
-			if r, pr := d.Reward(x, z), dot(c, w); math.Abs(r-pr) > 1e-14 {
+			if r, pr := d.Reward(x, z), vec.DotSeq(c, w); math.Abs(r-pr) > 1e-14 {
 				t.Errorf("%T: phi . w = %g, reward %g", d, pr, r)
 			}
 			if r, mr := d.Reward(x, z), live.Reward(z, 1, 0, next); r != mr {
 				t.Errorf("%T: map reward %g, discriminator reward %g", d, mr, r)
 			}
 			frozen.Features(a, 0, 0, next)
-			if fr, tr := frozen.Reward(z, 0, 0, next), table.Reward(z, 0, 0, next); math.Abs(fr-dot(a, w)) > 1e-14 || math.Abs(tr-fr) > 1e-14 {
-				t.Errorf("%T: frozen reward %g, tabulated %g, phi . w %g", d, fr, tr, dot(a, w))
+			if fr, tr := frozen.Reward(z, 0, 0, next), table.Reward(z, 0, 0, next); math.Abs(fr-vec.DotSeq(a, w)) > 1e-14 || math.Abs(tr-fr) > 1e-14 {
+				t.Errorf("%T: frozen reward %g, tabulated %g, phi . w %g", d, fr, tr, vec.DotSeq(a, w))
 			}
 		}
 		if !changed {

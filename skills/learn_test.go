@@ -4,6 +4,8 @@ import (
 	"math"
 	"math/rand/v2"
 	"testing"
+
+	"github.com/successor-go/successor/internal/vec"
 )
 
 // A 5x5 grid (invented for this test); cell (r, c) is state 5r + c. Four
@@ -100,9 +102,9 @@ func TestLearnGridSoftmax(t *testing.T) {
 		skills[i][i] = 1
 	}
 	p := Categorical{K: k}
-	for _, net := range []Net{{}, {Hidden: []int{16}, MaxBatch: 32}} {
+	for _, net := range []NetConfig{{}, {Hidden: []int{16}, MaxBatch: 32}} {
 		rng := rand.New(rand.NewPCG(7, 1))
-		s, err := NewSoftmax(&SoftmaxConfig{In: ns, K: k, Net: net, Optim: Optim{LearnRate: 0.05}}, rng)
+		s, err := NewSoftmax(&SoftmaxConfig{In: ns, K: k, Net: net, Optim: OptimConfig{StepSize: 0.05}}, rng)
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -138,12 +140,12 @@ func TestLearnGridVMF(t *testing.T) {
 	ns := gridSide * gridSide
 	p := UniformSphere{D: d}
 	for _, tc := range []struct {
-		net   Net
+		net   NetConfig
 		learn bool
 	}{
-		{Net{}, false},
-		{Net{}, true},
-		{Net{Hidden: []int{16}, Tanh: true}, false},
+		{NetConfig{}, false},
+		{NetConfig{}, true},
+		{NetConfig{Hidden: []int{16}, Tanh: true}, false},
 	} {
 		rng := rand.New(rand.NewPCG(8, 1))
 		skills := make([][]float64, k)
@@ -151,7 +153,7 @@ func TestLearnGridVMF(t *testing.T) {
 			skills[i] = make([]float64, d)
 			p.Sample(skills[i], rng)
 		}
-		v, err := NewVMF(&VMFConfig{In: ns, Dim: d, Net: tc.net, Kappa: 5, LearnKappa: tc.learn, Optim: Optim{LearnRate: 0.05}}, rng)
+		v, err := NewVMF(&VMFConfig{In: ns, Dim: d, Net: tc.net, Kappa: 5, LearnKappa: tc.learn, Optim: OptimConfig{StepSize: 0.05}}, rng)
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -185,7 +187,7 @@ func TestLearnGridVMF(t *testing.T) {
 		ideal := math.Inf(1)
 		for a := range k {
 			for b := range a {
-				ideal = min(ideal, 1-dot(skills[a], skills[b]))
+				ideal = min(ideal, 1-vec.DotSeq(skills[a], skills[b]))
 			}
 		}
 		if own < 0.95 || worst < 0.9*ideal {

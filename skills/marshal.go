@@ -45,7 +45,7 @@ const (
 
 // headerSize is the payload length before the weights, for the Encoder's
 // buffer.
-func headerSize(kind uint8, net *Net) int {
+func headerSize(kind uint8, net *NetConfig) int {
 	n := 1 + 8*3 + 8*len(net.Hidden) + 1 + 8 + 8*5 + 1 + 8
 	if kind == kindVMF {
 		n += 1 + 8*2 + 8 + 8*2
@@ -53,7 +53,7 @@ func headerSize(kind uint8, net *Net) int {
 	return n
 }
 
-func newFileEncoder(kind uint8, c *core, in, zdim int, net *Net) *fileio.Encoder {
+func newFileEncoder(kind uint8, c *core, in, zdim int, net *NetConfig) *fileio.Encoder {
 	np := len(c.enc.params())
 	e := fileio.NewEncoder(fileMagic, fileVersion, headerSize(kind, net)+8*np+8+16*np)
 	e.Uint8(kind)
@@ -64,7 +64,7 @@ func newFileEncoder(kind uint8, c *core, in, zdim int, net *Net) *fileio.Encoder
 	e.Bool(net.Tanh)
 	e.Int(net.MaxBatch)
 	o := c.opt
-	e.Float64(o.LearnRate)
+	e.Float64(o.StepSize)
 	e.Float64(o.Beta1)
 	e.Float64(o.Beta2)
 	e.Float64(o.Eps)
@@ -114,8 +114,8 @@ func (c *Softmax) MarshalBinary() ([]byte, error) {
 type header struct {
 	kind     uint8
 	in, zdim int
-	net      Net
-	opt      Optim
+	net      NetConfig
+	opt      OptimConfig
 	steps    int
 	learn    bool
 	maxKappa float64
@@ -141,7 +141,7 @@ func openData(what string, data []byte) (*header, error) {
 	}
 	h.net.Tanh = d.Bool("tanh")
 	h.net.MaxBatch = d.Size("max batch", 0, maxRowsNet)
-	h.opt = Optim{LearnRate: d.Float64("learn rate"), Beta1: d.Float64("beta1"), Beta2: d.Float64("beta2"),
+	h.opt = OptimConfig{StepSize: d.Float64("learn rate"), Beta1: d.Float64("beta1"), Beta2: d.Float64("beta2"),
 		Eps: d.Float64("eps"), ClipNorm: d.Float64("clip norm")}
 	h.opt.Method = OptimMethod(d.Uint8("method"))
 	h.steps = d.Size("steps", 0, math.MaxInt32)

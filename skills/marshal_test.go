@@ -23,9 +23,9 @@ func trained(t testing.TB) []Discriminator {
 	var out []Discriminator
 	for _, c := range []VMFConfig{
 		{In: 6, Dim: 3},
-		{In: 6, Dim: 4, Kappa: 3, LearnKappa: true, MaxKappa: 50, Optim: Optim{LearnRate: 0.01, ClipNorm: 5}},
-		{In: 6, Dim: 3, Net: Net{Hidden: []int{5, 4}, Tanh: true, MaxBatch: 3}},
-		{In: 6, Dim: 3, LearnKappa: true, Optim: Optim{Method: OptimSparseAdam, ClipNorm: 2}},
+		{In: 6, Dim: 4, Kappa: 3, LearnKappa: true, MaxKappa: 50, Optim: OptimConfig{StepSize: 0.01, ClipNorm: 5}},
+		{In: 6, Dim: 3, Net: NetConfig{Hidden: []int{5, 4}, Tanh: true, MaxBatch: 3}},
+		{In: 6, Dim: 3, LearnKappa: true, Optim: OptimConfig{Method: OptimSparseAdam, ClipNorm: 2}},
 	} {
 		v, err := NewVMF(&c, rng)
 		if err != nil {
@@ -34,9 +34,9 @@ func trained(t testing.TB) []Discriminator {
 		out = append(out, v)
 	}
 	for _, c := range []SoftmaxConfig{
-		{In: 6, K: 3, Optim: Optim{Beta1: 0.5}},
-		{In: 6, K: 4, Net: Net{Hidden: []int{7}}},
-		{In: 6, K: 3, Optim: Optim{Method: OptimSparseAdam}},
+		{In: 6, K: 3, Optim: OptimConfig{Beta1: 0.5}},
+		{In: 6, K: 4, Net: NetConfig{Hidden: []int{7}}},
+		{In: 6, K: 3, Optim: OptimConfig{Method: OptimSparseAdam}},
 	} {
 		s, err := NewSoftmax(&c, rng)
 		if err != nil {

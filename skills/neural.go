@@ -13,7 +13,7 @@ type neural struct {
 	net *nn.MLP
 }
 
-func newNeural(in, out int, net *Net, rng *rand.Rand) (*neural, error) {
+func newNeural(in, out int, net *NetConfig, rng *rand.Rand) (*neural, error) {
 	sizes := make([]int, 0, len(net.Hidden)+2)
 	sizes = append(sizes, in)
 	sizes = append(sizes, net.Hidden...)

@@ -62,16 +62,16 @@ func (m *OptimMethod) UnmarshalText(b []byte) error {
 	return fmt.Errorf("skills: unknown optimiser %q (want adam or sparse-adam): %w", b, ErrConfig)
 }
 
-// Optim holds the optimiser settings shared by the discriminators. Every
+// OptimConfig holds the optimiser settings shared by the discriminators. Every
 // update is one step of Adam (Kingma & Ba 2015, Algorithm 1), dense or
 // sparse (see OptimMethod), on the mean loss of a minibatch, after optional
 // global gradient-norm clipping (Pascanu et al. 2013, Algorithm 1). Zero
 // fields mean the defaults.
-type Optim struct {
+type OptimConfig struct {
 	// Method selects dense Adam (the zero value) or sparse Adam.
 	Method OptimMethod
-	// LearnRate is the Adam step size alpha. 0 means 1e-3.
-	LearnRate float64
+	// StepSize is the Adam step size alpha. 0 means 1e-3.
+	StepSize float64
 	// Beta1 and Beta2 are the moment decay rates. 0 means 0.9 and 0.999.
 	Beta1, Beta2 float64
 	// Eps is added to the root second moment. 0 means 1e-8. (The defaults
@@ -83,16 +83,16 @@ type Optim struct {
 }
 
 // resolve returns o with defaults filled in, or an error wrapping ErrConfig.
-func (o Optim) resolve() (Optim, error) {
-	c := nn.AdamConfig{LR: o.LearnRate, Beta1: o.Beta1, Beta2: o.Beta2, Eps: o.Eps}.WithDefaults()
-	o.LearnRate, o.Beta1, o.Beta2, o.Eps = c.LR, c.Beta1, c.Beta2, c.Eps
+func (o OptimConfig) resolve() (OptimConfig, error) {
+	c := nn.AdamConfig{StepSize: o.StepSize, Beta1: o.Beta1, Beta2: o.Beta2, Eps: o.Eps}.WithDefaults()
+	o.StepSize, o.Beta1, o.Beta2, o.Eps = c.StepSize, c.Beta1, c.Beta2, c.Eps
 	return o, o.check()
 }
 
-func (o Optim) check() error {
+func (o OptimConfig) check() error {
 	switch {
-	case !(o.LearnRate > 0) || math.IsInf(o.LearnRate, 0):
-		return fmt.Errorf("learn rate %g: %w", o.LearnRate, ErrConfig)
+	case !(o.StepSize > 0) || math.IsInf(o.StepSize, 0):
+		return fmt.Errorf("learn rate %g: %w", o.StepSize, ErrConfig)
 	case !(o.Beta1 >= 0 && o.Beta1 < 1):
 		return fmt.Errorf("beta1 %g not in [0, 1): %w", o.Beta1, ErrConfig)
 	case !(o.Beta2 >= 0 && o.Beta2 < 1):
@@ -110,15 +110,15 @@ func (o Optim) check() error {
 // newAdam returns an Adam optimiser (internal/nn) for n parameters with the
 // hyperparameters of o, taken as they are: o is resolved or checked already,
 // and a zero Beta1 read from a file stays zero.
-func newAdam(n int, o *Optim) *nn.Adam {
+func newAdam(n int, o *OptimConfig) *nn.Adam {
 	a := nn.NewAdam(n, nil)
-	a.LR, a.Beta1, a.Beta2, a.Eps = o.LearnRate, o.Beta1, o.Beta2, o.Eps
+	a.StepSize, a.Beta1, a.Beta2, a.Eps = o.StepSize, o.Beta1, o.Beta2, o.Eps
 	return a
 }
 
 // checkNet reports an error wrapping ErrConfig if o cannot train the map
 // described by net: sparse Adam needs a linear f.
-func (o Optim) checkNet(net *Net) error {
+func (o OptimConfig) checkNet(net *NetConfig) error {
 	if o.Method == OptimSparseAdam && len(net.Hidden) > 0 {
 		return fmt.Errorf("optimiser %v needs a linear net, have %d hidden layers: %w", o.Method, len(net.Hidden), ErrConfig)
 	}
@@ -143,7 +143,7 @@ func sparseAdamStep(a *nn.Adam, p, g []float64, rows []int, out int) {
 			v[i] = b2*v[i] + (1-b2)*gi*gi
 			mh := m[i] / c1
 			vh := v[i] / c2
-			p[i] -= a.LR * mh / (math.Sqrt(vh) + a.Eps)
+			p[i] -= a.StepSize * mh / (math.Sqrt(vh) + a.Eps)
 		}
 	}
 	for _, j := range rows {
@@ -183,19 +183,6 @@ func sparseClipNorm(g []float64, rows []int, out int, c float64) float64 {
 		}
 	}
 	return norm
-}
-
-// dot returns a . b summed left to right. It is not vec.Dot (four
-// interleaved partial sums): the discriminators' features and rewards were
-// defined with this order, and results such as the depot demo's depend on
-// its bits.
-func dot(a, b []float64) float64 {
-	b = b[:len(a)]
-	var s float64
-	for i, v := range a {
-		s += v * b[i]
-	}
-	return s
 }
 
 func isFinite(v float64) bool { return !math.IsNaN(v) && !math.IsInf(v, 0) }

@@ -4,6 +4,8 @@ import (
 	"math"
 	"math/rand/v2"
 	"testing"
+
+	"github.com/successor-go/successor/internal/vec"
 )
 
 func TestUniformSphereMoments(t *testing.T) {
@@ -21,7 +23,7 @@ func TestUniformSphereMoments(t *testing.T) {
 		second := make([]float64, d*d)
 		for range n {
 			p.Sample(z, rng)
-			if nrm := math.Sqrt(dot(z, z)); math.Abs(nrm-1) > 1e-15 {
+			if nrm := math.Sqrt(vec.DotSeq(z, z)); math.Abs(nrm-1) > 1e-15 {
 				t.Fatalf("d=%d: ||z|| = %.17g", d, nrm)
 			}
 			for i, zi := range z {

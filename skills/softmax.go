@@ -16,9 +16,9 @@ type SoftmaxConfig struct {
 	// K is the number of skills (required, >= 2); skills are one-hot z.
 	K int
 	// Net describes the logits; the zero value is linear.
-	Net Net
+	Net NetConfig
 	// Optim sets the optimiser.
-	Optim Optim
+	Optim OptimConfig
 }
 
 // Softmax is the categorical discriminator over K one-hot skills
@@ -41,7 +41,7 @@ type Softmax struct {
 	core
 	k    int
 	logK float64
-	net  Net
+	net  NetConfig
 	lq   []float64 // log q(. | x) scratch, len K
 }
 
@@ -90,7 +90,7 @@ func buildSoftmax(c *SoftmaxConfig, rng *rand.Rand) (*Softmax, error) {
 	return newSoftmax(enc, c.Optim, c.Net), nil
 }
 
-func newSoftmax(enc encoder, opt Optim, net Net) *Softmax {
+func newSoftmax(enc encoder, opt OptimConfig, net NetConfig) *Softmax {
 	k := enc.outDim()
 	return &Softmax{core: newCore(enc, opt), k: k, logK: math.Log(float64(k)), net: net, lq: make([]float64, k)}
 }
@@ -118,7 +118,7 @@ func (c *Softmax) FeatureDim() int { return c.k + 1 }
 func (c *Softmax) Steps() int { return c.steps }
 
 // Optim returns the optimiser settings, defaults filled in.
-func (c *Softmax) Optim() Optim { return c.opt }
+func (c *Softmax) Optim() OptimConfig { return c.opt }
 
 // logSoftmax writes log softmax(l) into dst and returns the index of the
 // largest logit (the first one on ties).
@@ -171,7 +171,7 @@ func (c *Softmax) LogProb(x, z []float64) float64 {
 		panic(fmt.Sprintf("skills: softmax: len(z) = %d, want %d", len(z), c.k))
 	}
 	c.logProbs(x)
-	return dot(c.lq, z)
+	return vec.DotSeq(c.lq, z)
 }
 
 // Reward returns the pseudo-reward log q(z | x) - log p(z) =

@@ -25,7 +25,7 @@ func TestSparseAdamTwoSteps(t *testing.T) {
 	//   so the second delta is again -lr g/(|g| + eps).
 	// Step 1 touches row 0, step 2 touches row 2; row 1 never.
 	const lr, b1, b2, eps = 0.1, 0.9, 0.999, 1e-8
-	a := nn.NewAdam(8, &nn.AdamConfig{LR: lr, Beta1: b1, Beta2: b2, Eps: eps})
+	a := nn.NewAdam(8, &nn.AdamConfig{StepSize: lr, Beta1: b1, Beta2: b2, Eps: eps})
 	p := make([]float64, 8)
 	g1 := []float64{0.5, -2, 0, 0, 0, 0, 1, 0}  // row 0 and bias (1, 0)
 	g2 := []float64{0, 0, 0, 0, 3, -0.25, 1, 4} // row 2 and bias (1, 4)
@@ -52,7 +52,7 @@ func TestSparseAdamTwoSteps(t *testing.T) {
 	// Dense Adam on the same gradients moves row 0 again at step 2, by
 	// -lr (b1/(1+b1)) g / (|g| sqrt(b2/(1+b2)) + eps) (derived by hand
 	// as above): the two optimisers differ.
-	d := nn.NewAdam(8, &nn.AdamConfig{LR: lr, Beta1: b1, Beta2: b2, Eps: eps})
+	d := nn.NewAdam(8, &nn.AdamConfig{StepSize: lr, Beta1: b1, Beta2: b2, Eps: eps})
 	q := make([]float64, 8)
 	d.Step(q, g1)
 	d.Step(q, g2)
@@ -64,7 +64,7 @@ func TestSparseAdamTwoSteps(t *testing.T) {
 
 // sparsePair returns the same discriminator built with dense and with
 // sparse Adam, from the same seed.
-func sparsePair(t *testing.T, kind string, opt Optim) (dense, sparse Discriminator) {
+func sparsePair(t *testing.T, kind string, opt OptimConfig) (dense, sparse Discriminator) {
 	t.Helper()
 	build := func(m OptimMethod) Discriminator {
 		o := opt
@@ -113,7 +113,7 @@ func TestSparseAdamMatchesDense(t *testing.T) {
 	for _, kind := range []string{"vmf", "softmax"} {
 		for _, clip := range []float64{0, 0.05} {
 			for _, oneHot := range []bool{true, false} {
-				de, sp := sparsePair(t, kind, Optim{LearnRate: 0.05, ClipNorm: clip})
+				de, sp := sparsePair(t, kind, OptimConfig{StepSize: 0.05, ClipNorm: clip})
 				rng := rand.New(rand.NewPCG(5, 5))
 				var p Prior = Categorical{K: 3}
 				if kind == "vmf" {
@@ -154,7 +154,7 @@ func TestSparseAdamSkipsUntouched(t *testing.T) {
 	// and keep zero moments, while dense Adam keeps moving the rows it
 	// touched earlier even when a later batch misses them.
 	for _, kind := range []string{"vmf", "softmax"} {
-		de, sp := sparsePair(t, kind, Optim{LearnRate: 0.05})
+		de, sp := sparsePair(t, kind, OptimConfig{StepSize: 0.05})
 		c1, c2 := discCore(de), discCore(sp)
 		init := append([]float64(nil), c2.enc.params()...)
 		rng := rand.New(rand.NewPCG(6, 6))
@@ -194,7 +194,7 @@ func TestSparseGradient(t *testing.T) {
 	// (only the touched rows are cleared between updates) still matches
 	// central differences on every parameter (common practice).
 	for _, kind := range []string{"vmf", "softmax"} {
-		_, sp := sparsePair(t, kind, Optim{LearnRate: 0.05})
+		_, sp := sparsePair(t, kind, OptimConfig{StepSize: 0.05})
 		rng := rand.New(rand.NewPCG(7, 7))
 		var p Prior = Categorical{K: 3}
 		if kind == "vmf" {
@@ -221,15 +221,15 @@ func TestSparseGradient(t *testing.T) {
 
 func TestSparseConfigAndFormat(t *testing.T) {
 	rng := rand.New(rand.NewPCG(8, 8))
-	if _, err := NewVMF(&VMFConfig{In: 4, Dim: 3, Net: Net{Hidden: []int{4}}, Optim: Optim{Method: OptimSparseAdam}}, rng); !errors.Is(err, ErrConfig) {
+	if _, err := NewVMF(&VMFConfig{In: 4, Dim: 3, Net: NetConfig{Hidden: []int{4}}, Optim: OptimConfig{Method: OptimSparseAdam}}, rng); !errors.Is(err, ErrConfig) {
 		t.Errorf("sparse adam with a hidden layer: %v, want ErrConfig", err)
 	}
-	if _, err := NewSoftmax(&SoftmaxConfig{In: 4, K: 3, Optim: Optim{Method: 7}}, rng); !errors.Is(err, ErrConfig) {
+	if _, err := NewSoftmax(&SoftmaxConfig{In: 4, K: 3, Optim: OptimConfig{Method: 7}}, rng); !errors.Is(err, ErrConfig) {
 		t.Errorf("optimiser 7: %v, want ErrConfig", err)
 	}
 	// Both optimisers are written as format version 3 with the method
 	// byte; each round-trips.
-	de, sp := sparsePair(t, "softmax", Optim{})
+	de, sp := sparsePair(t, "softmax", OptimConfig{})
 	bd, _ := Marshal(de)
 	bs, _ := Marshal(sp)
 	for _, b := range [][]byte{bd, bs} {
@@ -281,8 +281,8 @@ func TestOptimMethodText(t *testing.T) {
 	if _, err := OptimMethod(5).MarshalText(); !errors.Is(err, ErrConfig) {
 		t.Errorf("method 5: %v, want ErrConfig", err)
 	}
-	_, sp := sparsePair(t, "vmf", Optim{})
-	if o := sp.(*VMF).Optim(); o.Method != OptimSparseAdam || o.LearnRate != 1e-3 {
+	_, sp := sparsePair(t, "vmf", OptimConfig{})
+	if o := sp.(*VMF).Optim(); o.Method != OptimSparseAdam || o.StepSize != 1e-3 {
 		t.Errorf("Optim() = %+v, want sparse adam with the default learn rate 1e-3", o)
 	}
 }

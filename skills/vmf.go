@@ -6,6 +6,7 @@ import (
 	"math/rand/v2"
 
 	"github.com/successor-go/successor/internal/nn"
+	"github.com/successor-go/successor/internal/vec"
 )
 
 // VMFConfig configures a von Mises–Fisher discriminator. Zero fields other
@@ -16,7 +17,7 @@ type VMFConfig struct {
 	// Dim is d, the length of a skill z on the sphere S^{d-1} (required, >= 2).
 	Dim int
 	// Net describes f; the zero value is linear.
-	Net Net
+	Net NetConfig
 	// Kappa is the concentration kappa, or its starting value when
 	// LearnKappa is set. 0 means 1.
 	Kappa float64
@@ -27,7 +28,7 @@ type VMFConfig struct {
 	// MaxKappa caps a learned kappa. 0 means 1000.
 	MaxKappa float64
 	// Optim sets the optimiser.
-	Optim Optim
+	Optim OptimConfig
 }
 
 // minKappa is the smallest learned kappa.
@@ -48,7 +49,7 @@ const minNorm = 1e-100
 type VMF struct {
 	core
 	dim      int
-	net      Net
+	net      NetConfig
 	learn    bool
 	maxKappa float64
 	kappa    float64
@@ -159,7 +160,7 @@ func (v *VMF) LogNorm() float64 { return v.logNorm }
 func (v *VMF) Steps() int { return v.steps }
 
 // Optim returns the optimiser settings, defaults filled in.
-func (v *VMF) Optim() Optim { return v.opt }
+func (v *VMF) Optim() OptimConfig { return v.opt }
 
 // Features writes phi(x) = f(x)/||f(x)|| into dst. It panics if
 // len(dst) != d or len(x) != InDim().
@@ -173,7 +174,7 @@ func (v *VMF) Features(dst, x []float64) {
 // unit writes f/||f|| into dst, or zeros if ||f|| < minNorm, and returns
 // ||f||.
 func unit(dst, f []float64) float64 {
-	n := math.Sqrt(dot(f, f))
+	n := math.Sqrt(vec.DotSeq(f, f))
 	if n < minNorm {
 		clear(dst)
 		return n
@@ -197,7 +198,7 @@ func (v *VMF) Reward(x, z []float64) float64 {
 		panic(fmt.Sprintf("skills: vmf: len(z) = %d, want %d", len(z), v.dim))
 	}
 	v.Features(v.phi, x)
-	return dot(v.phi, z)
+	return vec.DotSeq(v.phi, z)
 }
 
 // TaskVector copies z into dst: the task vector of a vMF skill is the
@@ -241,7 +242,7 @@ func (v *VMF) chunkLoss(dy, y, z []float64, m int, inv float64) float64 {
 	var loss float64
 	for i := 0; i < m; i++ {
 		fi, zi, di := y[i*d:(i+1)*d], z[i*d:(i+1)*d], dy[i*d:(i+1)*d]
-		nrm := math.Sqrt(dot(fi, fi))
+		nrm := math.Sqrt(vec.DotSeq(fi, fi))
 		if nrm < minNorm {
 			for j, zj := range zi {
 				di[j] = -v.kappa * inv * zj
@@ -251,7 +252,7 @@ func (v *VMF) chunkLoss(dy, y, z []float64, m int, inv float64) float64 {
 		}
 		// phi = f/|f|; c = phi.z; d(phi.z)/df = (z - c phi)/|f|.
 		s := 1 / nrm
-		c := dot(fi, zi) * s
+		c := vec.DotSeq(fi, zi) * s
 		v.csum += c
 		loss -= v.kappa*c + v.logNorm
 		a := -v.kappa * inv * s

@@ -8,13 +8,14 @@ import (
 	"slices"
 
 	"github.com/successor-go/successor/gpi"
+	"github.com/successor-go/successor/internal/vec"
 	"github.com/successor-go/successor/mdp"
 	"github.com/successor-go/successor/sf"
 	"gonum.org/v1/gonum/mat"
 )
 
-// Transition is one reward-labelled transition.
-type Transition struct {
+// Labelled is one reward-labelled transition.
+type Labelled struct {
 	S, A, Next int
 	Reward     float64
 	Terminal   bool
@@ -40,10 +41,13 @@ type Transition struct {
 //
 // The labelled transitions are the whole budget: nothing else about the
 // task is revealed. The rules never look ahead at k, so the first j
-// transitions of a collection of k are a collection of j. seed determines
-// the draws.
-func Collect(env mdp.Env, ag *Agent, reward mdp.Reward, k int, cfg AdaptConfig, seed uint64) ([]Transition, error) {
-	c, err := cfg.Resolve()
+// transitions of a collection of k are a collection of j. Every random
+// draw (env's and the rules') comes from rng, which it advances. It
+// returns an error wrapping ErrConfig for a nil rng, a negative k, an
+// invalid cfg (nil means the defaults) or skill exploration without an
+// agent.
+func Collect(env mdp.Env, ag *Agent, reward mdp.Reward, k int, cfg *AdaptConfig, rng *rand.Rand) ([]Labelled, error) {
+	c, err := orZero(cfg).Resolve()
 	if err != nil {
 		return nil, err
 	}
@@ -53,9 +57,11 @@ func Collect(env mdp.Env, ag *Agent, reward mdp.Reward, k int, cfg AdaptConfig, 
 	if c.Explore != ExploreUniform && ag == nil {
 		return nil, fmt.Errorf("transfer: collect: skill exploration needs an agent: %w", ErrConfig)
 	}
-	rng := rand.New(rand.NewPCG(seed, streamCollect))
+	if rng == nil {
+		return nil, fmt.Errorf("transfer: collect: nil rng: %w", ErrConfig)
+	}
 	na := env.NumActions()
-	out := make([]Transition, 0, k)
+	out := make([]Labelled, 0, k)
 	var order []int
 	nextSkill := func() int {
 		if len(order) == 0 {
@@ -83,9 +89,9 @@ func Collect(env mdp.Env, ag *Agent, reward mdp.Reward, k int, cfg AdaptConfig, 
 		for t := 0; t < c.EpisodeSteps && len(out) < k; t++ {
 			greedy := c.Explore == ExploreGreedy && len(out) >= c.Warmup
 			if greedy && (len(out)-c.Warmup)%c.SwitchEvery == 0 {
-				inf, err := Infer(ag, out, c)
+				inf, err := Infer(ag, out, &c)
 				if err == nil {
-					pol, err = ag.Policy(inf, c)
+					pol, err = ag.Policy(inf, &c)
 				}
 				if err != nil {
 					return nil, fmt.Errorf("transfer: collect: %w", err)
@@ -103,12 +109,12 @@ func Collect(env mdp.Env, ag *Agent, reward mdp.Reward, k int, cfg AdaptConfig, 
 			default:
 				a = ag.actSkill(skill, s, rng)
 			}
-			next, term, trunc := env.Step(a, rng)
-			out = append(out, Transition{S: s, A: a, Next: next, Reward: reward(s, a, next), Terminal: term})
-			if term || trunc {
+			step := env.Step(a, rng)
+			out = append(out, Labelled{S: s, A: a, Next: step.Next, Reward: reward(s, a, step.Next), Terminal: step.Terminal()})
+			if step.Done() {
 				break
 			}
-			s = next
+			s = step.Next
 		}
 	}
 	return out, nil
@@ -127,24 +133,16 @@ type Inference struct {
 	// no variance to explain and RSquared is 0.
 	Residual, RSquared float64
 	// Lambda is the ridge penalty used, and CV the mean squared
-	// leave-one-state-out error when InferTaskCV chose it (0 otherwise).
+	// leave-one-state-out error when cross-validation chose it (RidgeCV; 0
+	// otherwise).
 	Lambda, CV float64
 	// Rewarded is the number of labelled transitions with a non-zero
 	// reward.
 	Rewarded int
 }
 
-// InferTask returns the task vector w minimising
-//
-//	sum_j (r_j - phi(s'_j) . w)^2 + lambda ||w||^2
-//
-// over the labelled transitions (ridge regression on the agent's features of
-// the next state, sf.InferTask), normalised to unit length for
-// sphere-valued skills. It returns an error wrapping ErrNoData if there are
-// no transitions, ErrConfig for a bad penalty, and ErrDiverged if the
-// regression fails (for example rank-deficient features with lambda = 0, or
-// a zero w to normalise).
-func InferTask(ag *Agent, labelled []Transition, lambda float64) (*Inference, error) {
+// inferRidge is Infer with the penalty lambda (RidgeFixed).
+func inferRidge(ag *Agent, labelled []Labelled, lambda float64) (*Inference, error) {
 	if lambda < 0 || math.IsNaN(lambda) || math.IsInf(lambda, 0) {
 		return nil, fmt.Errorf("transfer: infer task: penalty %v: %w", lambda, ErrConfig)
 	}
@@ -184,23 +182,9 @@ func InferTask(ag *Agent, labelled []Transition, lambda float64) (*Inference, er
 	return inf, nil
 }
 
-// InferTaskCV is InferTask with the penalty lambda chosen from grid (nil
-// means DefaultRidgeGrid) by leave-one-state-out cross-validation on the
-// labelled transitions themselves: the features depend on the next state
-// only, so the labelled transitions form groups, one per distinct next
-// state c (in order of first appearance), with count m_c and reward sum,
-// and sf.RidgeCV scores every penalty in closed form,
-//
-//	CV(lambda) = sum_c ((rbar_c - phi_c . w) / (1 - m_c phi_c' A^-1 phi_c))^2,
-//	A = sum_c m_c phi_c phi_c' + lambda I.
-//
-// This scores how well the fit predicts a place it has not seen, the error
-// that misleads the agent (Hastie, Tibshirani & Friedman, The Elements of
-// Statistical Learning, 2nd ed., section 7.10, with the held-out unit a
-// state). The smallest CV wins; ties go to the later grid entry. The chosen
-// penalty is in Inference.Lambda and the mean CV per state in
-// Inference.CV; w is then fitted by InferTask on the transitions.
-func InferTaskCV(ag *Agent, labelled []Transition, grid []float64) (*Inference, error) {
+// inferCV is Infer with the penalty chosen from grid by cross-validation
+// (RidgeCV; nil grid means DefaultRidgeGrid).
+func inferCV(ag *Agent, labelled []Labelled, grid []float64) (*Inference, error) {
 	if len(labelled) == 0 {
 		return nil, fmt.Errorf("transfer: infer task: %w", ErrNoData)
 	}
@@ -231,7 +215,7 @@ func InferTaskCV(ag *Agent, labelled []Transition, grid []float64) (*Inference, 
 	if err != nil {
 		return nil, fmt.Errorf("transfer: infer task: %w: %w", ErrConfig, err)
 	}
-	inf, err := InferTask(ag, labelled, lam)
+	inf, err := inferRidge(ag, labelled, lam)
 	if err != nil {
 		return nil, err
 	}
@@ -239,19 +223,44 @@ func InferTaskCV(ag *Agent, labelled []Transition, grid []float64) (*Inference, 
 	return inf, nil
 }
 
-// Infer runs task inference with the penalty rule of cfg: InferTaskCV over
-// cfg.RidgeGrid for RidgeCV (the default), InferTask with cfg.Lambda for
-// RidgeFixed. It returns the errors of those, or one wrapping ErrConfig for
-// an invalid cfg.
-func Infer(ag *Agent, labelled []Transition, cfg AdaptConfig) (*Inference, error) {
-	c, err := cfg.Resolve()
+// Infer is the agent's task inference: it returns the task vector w
+// minimising
+//
+//	sum_j (r_j - phi(s'_j) . w)^2 + lambda ||w||^2
+//
+// over the labelled transitions (ridge regression on the agent's features
+// of the next state, sf.InferTask), normalised to unit length for
+// sphere-valued skills. The penalty follows cfg.Ridge: RidgeFixed uses
+// cfg.Lambda; RidgeCV (the default) chooses lambda from cfg.RidgeGrid (nil
+// means DefaultRidgeGrid) by leave-one-state-out cross-validation on the
+// labelled transitions themselves: the features depend on the next state
+// only, so the labelled transitions form groups, one per distinct next
+// state c (in order of first appearance), with count m_c and reward sum,
+// and sf.RidgeCV scores every penalty in closed form,
+//
+//	CV(lambda) = sum_c ((rbar_c - phi_c . w) / (1 - m_c phi_c' A^-1 phi_c))^2,
+//	A = sum_c m_c phi_c phi_c' + lambda I.
+//
+// This scores how well the fit predicts a place it has not seen, the error
+// that misleads the agent (Hastie, Tibshirani & Friedman, The Elements of
+// Statistical Learning, 2nd ed., section 7.10, with the held-out unit a
+// state). The smallest CV wins; ties go to the later grid entry. The chosen
+// penalty is in Inference.Lambda and the mean CV per state in
+// Inference.CV; w is then fitted with it on the transitions.
+//
+// It returns an error wrapping ErrNoData if there are no transitions,
+// ErrConfig for an invalid cfg or penalty, and ErrDiverged if the
+// regression fails (for example rank-deficient features with lambda = 0,
+// or a zero w to normalise).
+func Infer(ag *Agent, labelled []Labelled, cfg *AdaptConfig) (*Inference, error) {
+	c, err := orZero(cfg).Resolve()
 	if err != nil {
 		return nil, err
 	}
 	if c.Ridge == RidgeCV {
-		return InferTaskCV(ag, labelled, c.RidgeGrid)
+		return inferCV(ag, labelled, c.RidgeGrid)
 	}
-	return InferTask(ag, labelled, c.Lambda)
+	return inferRidge(ag, labelled, c.Lambda)
 }
 
 // Policy is the acting policy after adaptation: GPI with the inferred w over
@@ -282,8 +291,8 @@ func (p *Policy) Probs(dst []float64, s int) { p.Actions.Probs(dst, s) }
 // Act returns the policy's action in s.
 func (p *Policy) Act(s int) int { return p.Actions[s] }
 
-// Adapt infers the task from the labelled transitions (Infer: InferTaskCV
-// by default, InferTask with RidgeFixed) and returns the acting policy
+// Adapt infers the task from the labelled transitions (Infer) and returns
+// the acting policy
 // (Agent.Policy).
 //
 // By default (FitNone) this is successor-feature transfer proper: GPI over
@@ -299,16 +308,16 @@ func (p *Policy) Act(s int) int { return p.Actions[s] }
 // label, but it is model-based evaluation of the inferred task, not
 // successor-feature transfer; state-action pairs never tried have no
 // fitted value and are left to the skills.
-func Adapt(ag *Agent, labelled []Transition, cfg AdaptConfig) (*Policy, error) {
-	c, err := cfg.Resolve()
+func Adapt(ag *Agent, labelled []Labelled, cfg *AdaptConfig) (*Policy, error) {
+	c, err := orZero(cfg).Resolve()
 	if err != nil {
 		return nil, err
 	}
-	inf, err := Infer(ag, labelled, c)
+	inf, err := Infer(ag, labelled, &c)
 	if err != nil {
 		return nil, err
 	}
-	return ag.Policy(inf, c)
+	return ag.Policy(inf, &c)
 }
 
 // Policy returns the acting policy for an inferred task,
@@ -322,8 +331,8 @@ func Adapt(ag *Agent, labelled []Transition, cfg AdaptConfig) (*Policy, error) {
 // similar skill, then to the lowest action. It returns an error wrapping
 // ErrNoData if a fit is asked for and there are no reward-free transitions,
 // ErrDiverged, or ErrConfig.
-func (ag *Agent) Policy(inf *Inference, cfg AdaptConfig) (*Policy, error) {
-	c, err := cfg.Resolve()
+func (ag *Agent) Policy(inf *Inference, cfg *AdaptConfig) (*Policy, error) {
+	c, err := orZero(cfg).Resolve()
 	if err != nil {
 		return nil, err
 	}
@@ -334,7 +343,7 @@ func (ag *Agent) Policy(inf *Inference, cfg AdaptConfig) (*Policy, error) {
 	sims := make([]sim, ag.k)
 	for k := range ag.k {
 		zk := ag.Skill(k)
-		sims[k] = sim{k, dot(zk, inf.W) / math.Sqrt(dot(zk, zk))}
+		sims[k] = sim{k, vec.DotSeq(zk, inf.W) / math.Sqrt(vec.DotSeq(zk, zk))}
 	}
 	slices.SortStableFunc(sims, func(x, y sim) int { return cmp.Compare(y.c, x.c) })
 	pol := &Policy{Inference: *inf}
@@ -398,7 +407,7 @@ func (ag *Agent) fitQ(w []float64, sweeps int) ([]float64, int, error) {
 	n, na, d := ag.n, ag.a, ag.d
 	r := make([]float64, n)
 	for s := range n {
-		r[s] = dot(ag.phiTab[s*d:(s+1)*d], w)
+		r[s] = vec.DotSeq(ag.phiTab[s*d:(s+1)*d], w)
 	}
 	q := make([]float64, n*na)
 	v := make([]float64, n)

@@ -7,6 +7,7 @@ import (
 	"sync"
 
 	"github.com/successor-go/successor/gpi"
+	"github.com/successor-go/successor/internal/vec"
 	"github.com/successor-go/successor/mdp"
 	"github.com/successor-go/successor/sf"
 	"github.com/successor-go/successor/skills"
@@ -75,7 +76,7 @@ type Agent struct {
 	skillK []int      // their skill indices
 	x, z   []float64  // discriminator minibatch
 	obs    []float64  // one-hot observation
-	tr     usf.Transition
+	tr     usf.Entry
 
 	// phi of every state, tabulated when training stops, for the read
 	// methods.
@@ -146,7 +147,7 @@ func (ag *Agent) Nearest(w []float64) int {
 	best, arg := math.Inf(-1), 0
 	for k := range ag.k {
 		zk := ag.Skill(k)
-		c := dot(zk, w) / math.Sqrt(dot(zk, zk))
+		c := vec.DotSeq(zk, w) / math.Sqrt(vec.DotSeq(zk, zk))
 		if c > best {
 			best, arg = c, k
 		}
@@ -176,7 +177,7 @@ func (ag *Agent) Q(dst []float64, s int, z, w []float64) {
 	}
 	psi := ag.SkillState(ag.Nearest(z), s)
 	for a := range ag.a {
-		dst[a] = dot(psi[a*ag.d:(a+1)*ag.d], w)
+		dst[a] = vec.DotSeq(psi[a*ag.d:(a+1)*ag.d], w)
 	}
 }
 
@@ -188,34 +189,7 @@ func (ag *Agent) Source(k int) gpi.Source { return ag.usf.Tables[k] }
 // values of the USF, ties broken uniformly at random with rng (nil rng:
 // the lowest action).
 func (ag *Agent) actSkill(k, s int, rng *rand.Rand) int {
-	return argmaxRand(ag.usf.Values(k, s), rng)
-}
-
-// argmaxRand returns the index of the largest value, ties broken uniformly
-// at random with rng (the lowest index if rng is nil).
-func argmaxRand(q []float64, rng *rand.Rand) int {
-	best, arg, ties := math.Inf(-1), 0, 0
-	for i, v := range q {
-		switch {
-		case v > best:
-			best, arg, ties = v, i, 1
-		case v == best && rng != nil:
-			ties++
-			if rng.IntN(ties) == 0 {
-				arg = i
-			}
-		}
-	}
-	return arg
-}
-
-func dot(x, y []float64) float64 {
-	var s float64
-	y = y[:len(x)]
-	for i, v := range x {
-		s += v * y[i]
-	}
-	return s
+	return vec.ArgmaxReservoir(ag.usf.Values(k, s), rng)
 }
 
 // newAgent allocates an agent for the resolved configuration c and
@@ -228,7 +202,7 @@ func newAgent(n, na int, c PretrainConfig) (*Agent, error) {
 	ag.pcg = rand.NewPCG(c.Seed, streamPretrain)
 	ag.rng = rand.New(ag.pcg)
 	var err error
-	opt := skills.Optim{LearnRate: c.DiscRate, Method: c.DiscOptim}
+	opt := skills.OptimConfig{StepSize: c.DiscStepSize, Method: c.DiscOptim}
 	switch c.Method {
 	case VMF:
 		ag.disc, err = skills.NewVMF(&skills.VMFConfig{In: n, Dim: c.Dim, Kappa: c.Kappa, Optim: opt}, ag.rng)
@@ -290,7 +264,7 @@ func (ag *Agent) init(n, na, capacity int, tab *usf.Tabular, buf *usf.Replay) er
 			ag.taskVector(ws[k], z)
 		}
 		var err error
-		tab, err = usf.NewTabular(n, na, ws, ag.cfg.SkillGamma, &usf.TabularConfig{Step: sf.StepSize{Alpha: ag.cfg.LearnRate}})
+		tab, err = usf.NewTabular(n, na, ws, ag.cfg.SkillGamma, &usf.TabularConfig{Schedule: sf.StepSchedule{StepSize: ag.cfg.StepSize}})
 		if err != nil {
 			return fmt.Errorf("transfer: %w: %w", ErrConfig, err)
 		}
@@ -313,7 +287,7 @@ func (ag *Agent) init(n, na, capacity int, tab *usf.Tabular, buf *usf.Replay) er
 	ag.x = make([]float64, b*n)
 	ag.z = make([]float64, b*len(ag.zs[0]))
 	ag.obs = make([]float64, n)
-	ag.tr = usf.Transition{Phi: make([]float64, d), Z: make([]float64, d), NextA: -1}
+	ag.tr = usf.Entry{Phi: make([]float64, d), Z: make([]float64, d), NextA: -1}
 	ag.tabulatePhi()
 	return nil
 }
@@ -358,11 +332,8 @@ func (ag *Agent) modelKey(s, a, next int, term bool) uint64 {
 	return k
 }
 
-// Stream identifiers of the generators derived from one seed (3 and 4
-// were used by adaptation and the from-scratch baselines, which now live in
-// package experiment; 4 keeps its meaning there).
-const (
-	streamPretrain = 1
-	streamCollect  = 2
-	streamEval     = 5
-)
+// streamPretrain is the PCG stream of a pretraining run's generator,
+// seeded with PretrainConfig.Seed. (Collect and MonteCarlo, which took
+// seeds with streams 2 and 5, now take a *rand.Rand; package experiment
+// makes its generators with the streams the figures were defined with.)
+const streamPretrain = 1

@@ -1,6 +1,7 @@
 package transfer
 
 import (
+	"math/rand/v2"
 	"testing"
 
 	"github.com/successor-go/successor/mdp"
@@ -20,7 +21,7 @@ func depotAgent(tb testing.TB, d, k int) (*Agent, *mdp.Sampler) {
 		tb.Fatal(err)
 	}
 	env := mdp.NewSampler(explore, 0)
-	ag, err := Pretrain(env, PretrainConfig{Dim: d, Skills: k, Kappa: 10, SkillGamma: 0.99, Steps: 2000, EpisodeSteps: 50, Seed: 1})
+	ag, err := Pretrain(env, &PretrainConfig{Dim: d, Skills: k, Kappa: 10, SkillGamma: 0.99, Steps: 2000, EpisodeSteps: 50, Seed: 1})
 	if err != nil {
 		tb.Fatal(err)
 	}
@@ -75,7 +76,7 @@ func BenchmarkPretrain(b *testing.B) {
 		b.Run("disc="+m.String(), func(b *testing.B) {
 			b.ReportAllocs()
 			for b.Loop() {
-				_, err := Pretrain(mdp.NewSampler(explore, 0), PretrainConfig{Dim: 64, Skills: 128, Kappa: 10, SkillGamma: 0.99, Steps: steps, EpisodeSteps: 50, Seed: 1, DiscOptim: m})
+				_, err := Pretrain(mdp.NewSampler(explore, 0), &PretrainConfig{Dim: 64, Skills: 128, Kappa: 10, SkillGamma: 0.99, Steps: steps, EpisodeSteps: 50, Seed: 1, DiscOptim: m})
 				if err != nil {
 					b.Fatal(err)
 				}
@@ -94,7 +95,7 @@ func BenchmarkAdapt(b *testing.B) {
 	g, _ := mdp.Depot()
 	w, _ := g.Weights(map[string]float64{"bench": 1})
 	r, _ := g.PlaceReward(w)
-	lab, err := Collect(env, ag, r, 1000, AdaptConfig{}, 1)
+	lab, err := Collect(env, ag, r, 1000, &AdaptConfig{}, rand.New(rand.NewPCG(1, 2)))
 	if err != nil {
 		b.Fatal(err)
 	}
@@ -102,7 +103,7 @@ func BenchmarkAdapt(b *testing.B) {
 		b.Run("fit="+fit.String(), func(b *testing.B) {
 			b.ReportAllocs()
 			for b.Loop() {
-				if _, err := Adapt(ag, lab, AdaptConfig{Fit: fit}); err != nil {
+				if _, err := Adapt(ag, lab, &AdaptConfig{Fit: fit}); err != nil {
 					b.Fatal(err)
 				}
 			}

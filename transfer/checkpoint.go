@@ -231,7 +231,7 @@ func Unmarshal(data []byte) (*Agent, error) {
 		if c.Method == Categorical {
 			zd = c.Skills
 		}
-		var opt skills.Optim
+		var opt skills.OptimConfig
 		switch d := disc.(type) {
 		case *skills.VMF:
 			opt = d.Optim()
@@ -292,7 +292,7 @@ func Unmarshal(data []byte) (*Agent, error) {
 	}
 	ag.rng = rand.New(ag.pcg)
 	fd := c.Dim
-	if ts, ta, td := tab.Shape(); ts != ns || ta != na || td != fd || len(tab.Z) != nk {
+	if ta, td := tab.Shape(); tab.ObsDim() != ns || ta != na || td != fd || len(tab.Z) != nk {
 		return nil, bad("successor feature sizes")
 	}
 	w := make([]float64, fd)
@@ -302,7 +302,7 @@ func Unmarshal(data []byte) (*Agent, error) {
 			return nil, bad("successor features of another skill set")
 		}
 	}
-	if bo, bd := buf.Shape(); bo != 0 || bd != fd || buf.Cap() != c.Replay {
+	if bo, bd := buf.ObsDim(), buf.Dim(); bo != 0 || bd != fd || buf.Cap() != c.Replay {
 		return nil, bad("replay sizes")
 	}
 	nc := d.i()

@@ -172,12 +172,12 @@ type PretrainConfig struct {
 	// Replay is the replay buffer capacity in transitions. 0 means 50000;
 	// at most MaxReplay.
 	Replay int `json:"replay"`
-	// LearnRate is the TD step size of the successor features, in (0, 1].
+	// StepSize is the TD step size of the successor features, in (0, 1].
 	// 0 means 0.2.
-	LearnRate float64 `json:"learn_rate"`
-	// DiscRate is the Adam step size of the discriminator (skills.Optim
-	// LearnRate). 0 means 0.03.
-	DiscRate float64 `json:"disc_rate"`
+	StepSize float64 `json:"step_size"`
+	// DiscStepSize is the Adam step size of the discriminator (skills.OptimConfig
+	// StepSize). 0 means 0.03.
+	DiscStepSize float64 `json:"disc_step_size"`
 	// DiscOptim is the discriminator's optimiser. The zero value is dense
 	// Adam (skills.OptimAdam). skills.OptimSparseAdam updates only the
 	// minibatch's states and the bias (observations are one-hot): on the
@@ -263,8 +263,8 @@ func (cfg PretrainConfig) Resolve() (PretrainConfig, error) {
 	}
 	setI(&c.Batch, 16)
 	setI(&c.Replay, 50000)
-	setF(&c.LearnRate, 0.2)
-	setF(&c.DiscRate, 0.03)
+	setF(&c.StepSize, 0.2)
+	setF(&c.DiscStepSize, 0.03)
 	if c.ProgressEvery == 0 && c.Steps > 0 {
 		c.ProgressEvery = max(c.Steps/100, 1)
 	}
@@ -291,8 +291,8 @@ func (c PretrainConfig) validate() error {
 		return fmt.Errorf("transfer: skill gamma %v outside (0, 1): %w", c.SkillGamma, ErrConfig)
 	case !(c.Epsilon == -1 || c.Epsilon >= 0 && c.Epsilon <= 1):
 		return fmt.Errorf("transfer: epsilon %v: %w", c.Epsilon, ErrConfig)
-	case !(c.LearnRate > 0 && c.LearnRate <= 1) || !(c.DiscRate > 0) || math.IsInf(c.DiscRate, 0):
-		return fmt.Errorf("transfer: step sizes %v, %v: %w", c.LearnRate, c.DiscRate, ErrConfig)
+	case !(c.StepSize > 0 && c.StepSize <= 1) || !(c.DiscStepSize > 0) || math.IsInf(c.DiscStepSize, 0):
+		return fmt.Errorf("transfer: step sizes %v, %v: %w", c.StepSize, c.DiscStepSize, ErrConfig)
 	case c.DiscOptim < skills.OptimAdam || c.DiscOptim > skills.OptimSparseAdam:
 		return fmt.Errorf("transfer: discriminator optimiser %v: %w", c.DiscOptim, ErrConfig)
 	case c.CheckpointEvery < 0 || c.ProgressEvery < 1:
@@ -392,9 +392,9 @@ type RidgeRule int
 const (
 	// RidgeCV chooses lambda from AdaptConfig.RidgeGrid by
 	// leave-one-state-out cross-validation on the labelled transitions
-	// (InferTaskCV). The zero value.
+	// (see Infer). The zero value.
 	RidgeCV RidgeRule = iota
-	// RidgeFixed uses AdaptConfig.Lambda (InferTask); 0 is plain least
+	// RidgeFixed uses AdaptConfig.Lambda (see Infer); 0 is plain least
 	// squares.
 	RidgeFixed
 )
@@ -557,4 +557,13 @@ func setI(p *int, def int) {
 	if *p == 0 {
 		*p = def
 	}
+}
+
+// orZero returns *p, or the zero value (every default) for a nil p.
+func orZero[T any](p *T) T {
+	if p == nil {
+		var z T
+		return z
+	}
+	return *p
 }

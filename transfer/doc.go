@@ -65,22 +65,22 @@
 // psi(s, a, w_k) . w_k. The policy of a skill (acting, Collect) reads the
 // same cache. GPI reads the skills' sf.Tables as gpi sources.
 //
-// We first tried the linear approximator psi(s, a, z) = M_{s,a} z
-// (+ b_{s,a}) over the joint feature x(s) outer z (usf.Linear); on the depot
-// it could not represent the policies of distant skills (it failed even
-// with the given place features), so the tabular form is used.
+// A universal form linear in z, psi(s, a, z) = M_{s,a} z (+ b_{s,a}), was
+// tried first; on the depot it could not represent the policies of distant
+// skills (it failed even with the given place features), so the tabular
+// form is used.
 //
 // # Task inference and acting
 //
-// InferTask fits
+// Infer fits
 //
 //	w = argmin_w sum_j (r_j - phi(s'_j) . w)^2 + lambda ||w||^2
 //
 // over the n labelled transitions (sf.InferTask), then normalises w to unit
 // length for sphere skills, and reports the residual and R^2 of the fit: a
 // reward on place labels must be close to linear in the learned phi for
-// this to work. Infer applies the penalty rule of AdaptConfig.Ridge: by
-// default (RidgeCV) InferTaskCV chooses lambda from AdaptConfig.RidgeGrid
+// this to work. The penalty follows AdaptConfig.Ridge: by default
+// (RidgeCV) Infer chooses lambda from AdaptConfig.RidgeGrid
 // by leave-one-state-out cross-validation on the labelled transitions, in
 // closed form (sf.RidgeCV); with 64 learned features a nearly
 // unregularised fit extrapolated wildly to places the labelled steps never
@@ -116,8 +116,10 @@
 //
 // # Evaluation
 //
-// Evaluate and Reference score one policy exactly on a finite MDP
-// (mdp.Evaluate and mdp.Optimal) with the task's discount:
+// Evaluate and Reference evaluate one policy exactly on a finite MDP
+// (mdp.Evaluate and mdp.Optimal) with the task's discount. As in mdp and
+// gpi, Evaluate returns the exact values (an Evaluation embeds
+// mdp.Values); what it adds is the policy's normalised Score:
 //
 //	normalised = (J(pi) - J(uniform)) / (J(optimal) - J(uniform)),   J(pi) = sum_s mu(s) V^pi(s),
 //
@@ -127,8 +129,9 @@
 //
 // # Configuration
 //
-// PretrainConfig and AdaptConfig are plain structs whose zero value means
-// the documented defaults. Resolve fills them in; resolving twice gives the
+// PretrainConfig, ResumeConfig and AdaptConfig are plain structs whose zero
+// value means the documented defaults; the functions take a pointer, and
+// nil means the zero value. Resolve fills them in; resolving twice gives the
 // same configuration, and "off" is never written as "default": the ridge
 // rule (RidgeCV or RidgeFixed) and GPI (GPIOn or GPIOff) are fields of
 // their own, and "no relabelling" and "no random actions" are recorded as
@@ -140,8 +143,11 @@
 //
 // # Runs, seeds and checkpoints
 //
-// A run is fully determined by PretrainConfig.Seed (a PCG generator) and,
-// for Collect and MonteCarlo, by their seed arguments. PretrainContext,
+// A pretraining run owns its generator, a PCG generator seeded from
+// PretrainConfig.Seed, so that its checkpoint can carry the generator's
+// state; the run is fully determined by it. Every other call that draws
+// (Collect, MonteCarlo) takes a *rand.Rand as its last argument and
+// advances it. PretrainContext,
 // ResumeContext and Agent.Continue stop at the first episode end after
 // their context is done, saving a checkpoint there when a path is set.
 //

@@ -2,6 +2,7 @@ package transfer_test
 
 import (
 	"fmt"
+	"math/rand/v2"
 
 	"github.com/successor-go/successor/mdp"
 	"github.com/successor-go/successor/transfer"
@@ -16,14 +17,14 @@ func Example() {
 		#A...B#
 		#.....#
 		#..S..#
-		#######`, &mdp.GridOptions{Labels: map[rune]string{'A': "apple", 'B': "berry"}, Stay: true})
+		#######`, &mdp.GridConfig{Labels: map[rune]string{'A': "apple", 'B': "berry"}, Stay: true})
 	if err != nil {
 		fmt.Println(err)
 		return
 	}
 	// Reward-free pretraining, dropped anywhere in the room.
 	explore, _ := mdp.WithStart(g.MDP, mdp.UniformStart(g.MDP))
-	agent, err := transfer.Pretrain(mdp.NewSampler(explore, 0), transfer.PretrainConfig{
+	agent, err := transfer.Pretrain(mdp.NewSampler(explore, 0), &transfer.PretrainConfig{
 		Dim: 8, Skills: 16, Steps: 4000, EpisodeSteps: 20, SkillGamma: 0.95, Seed: 1,
 	})
 	if err != nil {
@@ -36,26 +37,26 @@ func Example() {
 	reward, _ := g.PlaceReward(w)
 	env := mdp.NewSampler(g.MDP, 0)
 	// The ridge penalty of task inference is chosen by leave-one-state-out
-	// cross-validation (InferTaskCV); the policy is GPI over the universal
+	// cross-validation (Infer); the policy is GPI over the universal
 	// SFs of the 8 skills nearest the inferred task.
 	cfg := transfer.AdaptConfig{EpisodeSteps: 50, SwitchEvery: 10}
-	labelled, err := transfer.Collect(env, agent, reward, 200, cfg, 2)
+	labelled, err := transfer.Collect(env, agent, reward, 200, &cfg, rand.New(rand.NewPCG(2, 2)))
 	if err != nil {
 		fmt.Println(err)
 		return
 	}
-	policy, err := transfer.Adapt(agent, labelled, cfg)
+	policy, err := transfer.Adapt(agent, labelled, &cfg)
 	if err != nil {
 		fmt.Println(err)
 		return
 	}
-	score, err := transfer.Evaluate(g.MDP, policy, reward, 0.95)
+	ev, err := transfer.Evaluate(g.MDP, policy, reward, 0.95)
 	if err != nil {
 		fmt.Println(err)
 		return
 	}
 	fmt.Printf("labelled steps with a reward: %d\n", policy.Rewarded)
-	fmt.Printf("normalised return: %.2f\n", score.Normalised)
+	fmt.Printf("normalised return: %.2f\n", ev.Score.Normalised)
 	// Output:
 	// labelled steps with a reward: 53
 	// normalised return: 1.00

@@ -10,8 +10,9 @@ import (
 )
 
 // Pretrain runs the reward-free phase on env and returns the trained
-// agent. It is PretrainContext with context.Background().
-func Pretrain(env Env, cfg PretrainConfig) (*Agent, error) {
+// agent. It is PretrainContext with context.Background(). A nil cfg means
+// the zero PretrainConfig (every default).
+func Pretrain(env Env, cfg *PretrainConfig) (*Agent, error) {
 	return PretrainContext(context.Background(), env, cfg)
 }
 
@@ -51,8 +52,8 @@ func Pretrain(env Env, cfg PretrainConfig) (*Agent, error) {
 // PretrainContext returns an error wrapping ErrConfig for an invalid
 // configuration, ErrDiverged (naming the step) if a value becomes
 // non-finite, ctx.Err(), or the error of writing a checkpoint.
-func PretrainContext(ctx context.Context, env Env, cfg PretrainConfig) (*Agent, error) {
-	c, err := cfg.Resolve()
+func PretrainContext(ctx context.Context, env Env, cfg *PretrainConfig) (*Agent, error) {
+	c, err := orZero(cfg).Resolve()
 	if err != nil {
 		return nil, err
 	}
@@ -64,34 +65,39 @@ func PretrainContext(ctx context.Context, env Env, cfg PretrainConfig) (*Agent, 
 }
 
 // Resume loads the checkpoint at path and continues pretraining on env as
-// cfg says (Agent.Continue); an empty cfg.CheckpointPath means path
-// itself. It is ResumeContext with context.Background().
-func Resume(env Env, path string, cfg ResumeConfig) (*Agent, error) {
+// cfg says (Agent.Continue; nil means the zero ResumeConfig); an empty
+// cfg.CheckpointPath means path itself. It is ResumeContext with
+// context.Background().
+func Resume(env Env, path string, cfg *ResumeConfig) (*Agent, error) {
 	return ResumeContext(context.Background(), env, path, cfg)
 }
 
 // ResumeContext is Resume that stops, as PretrainContext does, at the first
 // episode end after ctx is done, saving a checkpoint there.
-func ResumeContext(ctx context.Context, env Env, path string, cfg ResumeConfig) (*Agent, error) {
+func ResumeContext(ctx context.Context, env Env, path string, cfg *ResumeConfig) (*Agent, error) {
 	ag, err := Load(path)
 	if err != nil {
 		return nil, err
 	}
-	if cfg.CheckpointPath == "" {
-		cfg.CheckpointPath = path
+	c := orZero(cfg)
+	if c.CheckpointPath == "" {
+		c.CheckpointPath = path
 	}
-	return ag, ag.Continue(ctx, env, cfg)
+	return ag, ag.Continue(ctx, env, &c)
 }
 
 // Continue trains the agent further on env, with its own configuration
-// except for the settings of cfg, until cfg.Steps steps (0: the Steps of
+// except for the settings of cfg (nil: none), until cfg.Steps steps (0: the Steps of
 // its configuration) or until ctx is done (as PretrainContext). Given
 // features are not saved: they are fixed by the agent's phi table. A run
 // saved at step N and continued to 2N equals, bit for bit, a run of 2N
 // steps without interruption. It returns an error wrapping ErrConfig if
 // env's sizes differ from the agent's or a setting is negative, and
 // otherwise the errors of PretrainContext.
-func (ag *Agent) Continue(ctx context.Context, env Env, cfg ResumeConfig) error {
+func (ag *Agent) Continue(ctx context.Context, env Env, cfg *ResumeConfig) error {
+	if cfg == nil {
+		cfg = &ResumeConfig{}
+	}
 	if ag.n != env.NumStates() || ag.a != env.NumActions() {
 		return fmt.Errorf("transfer: resume: checkpoint has %d states and %d actions, environment %d and %d: %w",
 			ag.n, ag.a, env.NumStates(), env.NumActions(), ErrConfig)
@@ -146,7 +152,8 @@ func (ag *Agent) train(ctx context.Context, env Env) error {
 			} else {
 				a = ag.actSkill(k, s, ag.rng)
 			}
-			next, term, trunc := env.Step(a, ag.rng)
+			out := env.Step(a, ag.rng)
+			next, term := out.Next, out.Terminal()
 			tr.S, tr.A, tr.Next, tr.Terminal = s, a, next, term
 			ag.features(tr.Phi, next)
 			ag.buf.Add(tr)
@@ -156,7 +163,7 @@ func (ag *Agent) train(ctx context.Context, env Env) error {
 			if err := ag.update(); err != nil {
 				return err
 			}
-			if term || trunc {
+			if out.Done() {
 				break
 			}
 			s = next
@@ -274,7 +281,7 @@ func (ag *Agent) update() error {
 	for i := range nb {
 		ag.features(b.Phi[i*d:(i+1)*d], b.Next[i])
 	}
-	if err := ag.usf.UpdateRelabel(b, c.relabel(), ag.rng, &ag.td); err != nil {
+	if err := ag.usf.UpdateRelabel(b, c.relabel(), &ag.td, ag.rng); err != nil {
 		return fmt.Errorf("transfer: pretrain: successor features non-finite at step %d: %w: %w", ag.steps, ErrDiverged, err)
 	}
 	return nil

@@ -5,6 +5,7 @@ import (
 	"encoding/json"
 	"errors"
 	"fmt"
+	"math/rand/v2"
 	"os"
 	"path/filepath"
 	"reflect"
@@ -28,7 +29,7 @@ const tinyLayout = `
 
 func tinyGrid(t testing.TB) (*mdp.Grid, *sf.Labels) {
 	t.Helper()
-	g, err := mdp.ParseGrid(tinyLayout, &mdp.GridOptions{Labels: map[rune]string{'A': "apple", 'B': "berry"}, Stay: true})
+	g, err := mdp.ParseGrid(tinyLayout, &mdp.GridConfig{Labels: map[rune]string{'A': "apple", 'B': "berry"}, Stay: true})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -60,17 +61,17 @@ func TestCheckpointResume(t *testing.T) {
 				cfg.Dim = 4
 			}
 			env := mdp.NewSampler(g.MDP, 0)
-			full, err := transfer.Pretrain(env, cfg)
+			full, err := transfer.Pretrain(env, &cfg)
 			if err != nil {
 				t.Fatal(err)
 			}
 			half := cfg
 			half.Steps = 300
 			half.CheckpointPath = filepath.Join(dir, m.String()+tc.o.String()+".ckpt")
-			if _, err := transfer.Pretrain(env, half); err != nil {
+			if _, err := transfer.Pretrain(env, &half); err != nil {
 				t.Fatal(err)
 			}
-			resumed, err := transfer.Resume(env, half.CheckpointPath, transfer.ResumeConfig{Steps: 600})
+			resumed, err := transfer.Resume(env, half.CheckpointPath, &transfer.ResumeConfig{Steps: 600})
 			if err != nil {
 				t.Fatal(err)
 			}
@@ -99,7 +100,7 @@ func TestCheckpointResume(t *testing.T) {
 	}
 
 	cfg := transfer.PretrainConfig{Dim: 4, Skills: 8, Steps: 200, EpisodeSteps: 15, Seed: 3, Replay: 300}
-	ag, err := transfer.Pretrain(mdp.NewSampler(g.MDP, 0), cfg)
+	ag, err := transfer.Pretrain(mdp.NewSampler(g.MDP, 0), &cfg)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -135,7 +136,7 @@ func TestCheckpointResume(t *testing.T) {
 // whatever decodes re-encodes to the same bytes.
 func FuzzUnmarshal(f *testing.F) {
 	g, _ := tinyGrid(f)
-	ag, err := transfer.Pretrain(mdp.NewSampler(g.MDP, 0), transfer.PretrainConfig{Dim: 3, Skills: 4, Steps: 50, EpisodeSteps: 10, Replay: 64})
+	ag, err := transfer.Pretrain(mdp.NewSampler(g.MDP, 0), &transfer.PretrainConfig{Dim: 3, Skills: 4, Steps: 50, EpisodeSteps: 10, Replay: 64})
 	if err != nil {
 		f.Fatal(err)
 	}
@@ -176,25 +177,25 @@ func TestConfigErrors(t *testing.T) {
 		{Dim: 1},
 		{Steps: -5},
 		{Epsilon: 2},
-		{LearnRate: 3},
+		{StepSize: 3},
 		{Method: 9},
 		{DiscOptim: 7},
 		{Method: transfer.Categorical, Skills: 4, Dim: 4}, // categorical features have K+1 = 5 entries
 		{Skills: -1},
 		{Batch: -1},
 	} {
-		if _, err := transfer.Pretrain(env, cfg); !errors.Is(err, transfer.ErrConfig) {
+		if _, err := transfer.Pretrain(env, &cfg); !errors.Is(err, transfer.ErrConfig) {
 			t.Errorf("%+v: got %v, want ErrConfig", cfg, err)
 		}
 	}
 	if _, err := transfer.ParseMethod("nope"); !errors.Is(err, transfer.ErrConfig) {
 		t.Errorf("ParseMethod: got %v", err)
 	}
-	ag, err := transfer.Pretrain(env, transfer.PretrainConfig{Dim: 3, Skills: 4, Steps: 40, EpisodeSteps: 10})
+	ag, err := transfer.Pretrain(env, &transfer.PretrainConfig{Dim: 3, Skills: 4, Steps: 40, EpisodeSteps: 10})
 	if err != nil {
 		t.Fatal(err)
 	}
-	if _, err := transfer.Adapt(ag, nil, transfer.AdaptConfig{}); !errors.Is(err, transfer.ErrNoData) {
+	if _, err := transfer.Adapt(ag, nil, &transfer.AdaptConfig{}); !errors.Is(err, transfer.ErrNoData) {
 		t.Errorf("Adapt without data: got %v, want ErrNoData", err)
 	}
 }
@@ -207,7 +208,7 @@ func TestCollect(t *testing.T) {
 	r, _ := g.PlaceReward(w)
 	env := mdp.NewSampler(g.MDP, 0)
 	for _, k := range []int{0, 1, 37, 200} {
-		lab, err := transfer.Collect(env, nil, r, k, transfer.AdaptConfig{Explore: transfer.ExploreUniform, EpisodeSteps: 15}, 1)
+		lab, err := transfer.Collect(env, nil, r, k, &transfer.AdaptConfig{Explore: transfer.ExploreUniform, EpisodeSteps: 15}, rand.New(rand.NewPCG(1, 2)))
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -220,11 +221,17 @@ func TestCollect(t *testing.T) {
 			}
 		}
 	}
-	if _, err := transfer.Collect(env, nil, r, 5, transfer.AdaptConfig{}, 1); !errors.Is(err, transfer.ErrConfig) {
+	if _, err := transfer.Collect(env, nil, r, 5, &transfer.AdaptConfig{}, rand.New(rand.NewPCG(1, 2))); !errors.Is(err, transfer.ErrConfig) {
 		t.Errorf("skills without an agent: got %v, want ErrConfig", err)
 	}
-	if _, err := transfer.Collect(env, nil, r, -1, transfer.AdaptConfig{Explore: transfer.ExploreUniform}, 1); !errors.Is(err, transfer.ErrConfig) {
+	if _, err := transfer.Collect(env, nil, r, -1, &transfer.AdaptConfig{Explore: transfer.ExploreUniform}, rand.New(rand.NewPCG(1, 2))); !errors.Is(err, transfer.ErrConfig) {
 		t.Errorf("negative budget: got %v, want ErrConfig", err)
+	}
+	if _, err := transfer.Collect(env, nil, r, 5, &transfer.AdaptConfig{Explore: transfer.ExploreUniform}, nil); !errors.Is(err, transfer.ErrConfig) {
+		t.Errorf("nil rng: %v, want ErrConfig", err)
+	}
+	if _, _, err := transfer.MonteCarlo(env, func(int) int { return 0 }, r, 0.9, 10, 10, nil); !errors.Is(err, transfer.ErrConfig) {
+		t.Errorf("monte carlo, nil rng: %v, want ErrConfig", err)
 	}
 }
 
@@ -233,14 +240,14 @@ func TestCollect(t *testing.T) {
 func TestResumeMismatch(t *testing.T) {
 	g, _ := tinyGrid(t)
 	path := filepath.Join(t.TempDir(), "ck")
-	if _, err := transfer.Pretrain(mdp.NewSampler(g.MDP, 0), transfer.PretrainConfig{Dim: 3, Skills: 4, Steps: 50, EpisodeSteps: 10, CheckpointPath: path}); err != nil {
+	if _, err := transfer.Pretrain(mdp.NewSampler(g.MDP, 0), &transfer.PretrainConfig{Dim: 3, Skills: 4, Steps: 50, EpisodeSteps: 10, CheckpointPath: path}); err != nil {
 		t.Fatal(err)
 	}
 	d, err := mdp.Depot()
 	if err != nil {
 		t.Fatal(err)
 	}
-	if _, err := transfer.Resume(mdp.NewSampler(d.MDP, 0), path, transfer.ResumeConfig{Steps: 100}); !errors.Is(err, transfer.ErrConfig) {
+	if _, err := transfer.Resume(mdp.NewSampler(d.MDP, 0), path, &transfer.ResumeConfig{Steps: 100}); !errors.Is(err, transfer.ErrConfig) {
 		t.Errorf("got %v, want ErrConfig", err)
 	}
 }
@@ -253,17 +260,17 @@ func TestCollectPrefix(t *testing.T) {
 	w, _ := g.Weights(map[string]float64{"berry": 1})
 	r, _ := g.PlaceReward(w)
 	env := mdp.NewSampler(g.MDP, 0)
-	ag, err := transfer.Pretrain(mdp.NewSampler(g.MDP, 0), transfer.PretrainConfig{Dim: 4, Skills: 8, Steps: 500, EpisodeSteps: 15, Seed: 2})
+	ag, err := transfer.Pretrain(mdp.NewSampler(g.MDP, 0), &transfer.PretrainConfig{Dim: 4, Skills: 8, Steps: 500, EpisodeSteps: 15, Seed: 2})
 	if err != nil {
 		t.Fatal(err)
 	}
 	for _, ex := range []transfer.Explore{transfer.ExploreSkills, transfer.ExploreUniform, transfer.ExploreGreedy} {
 		cfg := transfer.AdaptConfig{Explore: ex, EpisodeSteps: 30, SwitchEvery: 10, Warmup: 40}
-		long, err := transfer.Collect(env, ag, r, 150, cfg, 3)
+		long, err := transfer.Collect(env, ag, r, 150, &cfg, rand.New(rand.NewPCG(3, 2)))
 		if err != nil {
 			t.Fatal(err)
 		}
-		short, err := transfer.Collect(env, ag, r, 77, cfg, 3)
+		short, err := transfer.Collect(env, ag, r, 77, &cfg, rand.New(rand.NewPCG(3, 2)))
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -287,7 +294,7 @@ func TestResolveIdempotent(t *testing.T) {
 		{Method: transfer.Categorical, Skills: 6, Dim: 7},
 		{Method: transfer.Given, Features: f},
 		{Method: transfer.Random, Dim: 3, Skills: 5, Kappa: 2, Relabel: 2, Steps: 70, EpisodeSteps: 9, SkillGamma: 0.5,
-			Epsilon: 0.3, Batch: 4, Replay: 99, LearnRate: 0.7, DiscRate: 0.1, DiscOptim: skills.OptimSparseAdam, Seed: 4, ProgressEvery: 3},
+			Epsilon: 0.3, Batch: 4, Replay: 99, StepSize: 0.7, DiscStepSize: 0.1, DiscOptim: skills.OptimSparseAdam, Seed: 4, ProgressEvery: 3},
 	} {
 		once, err := c.Resolve()
 		if err != nil {
@@ -322,10 +329,10 @@ func TestResolveIdempotent(t *testing.T) {
 			t.Errorf("adapt config resolved once %+v, twice %+v", once, twice)
 		}
 	}
-	if _, err := (transfer.AdaptConfig{Candidates: -1}).Resolve(); !errors.Is(err, transfer.ErrConfig) {
+	if _, err := (&transfer.AdaptConfig{Candidates: -1}).Resolve(); !errors.Is(err, transfer.ErrConfig) {
 		t.Errorf("negative candidates: %v, want ErrConfig (GPI is switched off by GPIOff)", err)
 	}
-	if _, err := (transfer.AdaptConfig{Ridge: transfer.RidgeFixed, Lambda: -1}).Resolve(); !errors.Is(err, transfer.ErrConfig) {
+	if _, err := (&transfer.AdaptConfig{Ridge: transfer.RidgeFixed, Lambda: -1}).Resolve(); !errors.Is(err, transfer.ErrConfig) {
 		t.Errorf("negative lambda: %v, want ErrConfig", err)
 	}
 }
@@ -364,7 +371,7 @@ func TestConfigJSON(t *testing.T) {
 	want := map[string]any{
 		"method": "vmf", "skills": 32.0, "dim": 8.0, "kappa": 5.0, "relabel": 4.0, "steps": 100000.0,
 		"episode_steps": 50.0, "skill_gamma": 0.95, "epsilon": 0.2, "batch": 16.0, "replay": 50000.0,
-		"learn_rate": 0.2, "disc_rate": 0.03, "disc_optim": "adam", "seed": 0.0, "progress_every": 1000.0,
+		"step_size": 0.2, "disc_step_size": 0.03, "disc_optim": "adam", "seed": 0.0, "progress_every": 1000.0,
 	}
 	if !reflect.DeepEqual(p, want) {
 		t.Errorf("pretrain config json %v,\nwant %v", p, want)
@@ -394,7 +401,7 @@ func TestConfigJSON(t *testing.T) {
 			t.Errorf("%s: %q is %v both off and by default", tc.name, tc.key, off[tc.key])
 		}
 	}
-	if b, _ := json.Marshal(transfer.PretrainConfig{Method: transfer.Categorical}); !strings.Contains(string(b), `"method":"categorical"`) {
+	if b, _ := json.Marshal(&transfer.PretrainConfig{Method: transfer.Categorical}); !strings.Contains(string(b), `"method":"categorical"`) {
 		t.Errorf("method not written as text: %s", b)
 	}
 	var back transfer.AdaptConfig
@@ -413,7 +420,7 @@ func TestPretrainContext(t *testing.T) {
 	g, _ := tinyGrid(t)
 	dir := t.TempDir()
 	cfg := transfer.PretrainConfig{Dim: 4, Skills: 8, Steps: 800, EpisodeSteps: 15, Seed: 5, Replay: 500, ProgressEvery: 100}
-	full, err := transfer.Pretrain(mdp.NewSampler(g.MDP, 0), cfg)
+	full, err := transfer.Pretrain(mdp.NewSampler(g.MDP, 0), &cfg)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -426,7 +433,7 @@ func TestPretrainContext(t *testing.T) {
 			cancel()
 		}
 	}
-	ag, err := transfer.PretrainContext(ctx, mdp.NewSampler(g.MDP, 0), stopCfg)
+	ag, err := transfer.PretrainContext(ctx, mdp.NewSampler(g.MDP, 0), &stopCfg)
 	if !errors.Is(err, context.Canceled) {
 		t.Fatalf("got %v, want context.Canceled", err)
 	}
@@ -443,7 +450,7 @@ func TestPretrainContext(t *testing.T) {
 	if saved.Steps() != ag.Steps() {
 		t.Errorf("checkpoint at step %d, stopped at %d", saved.Steps(), ag.Steps())
 	}
-	resumed, err := transfer.ResumeContext(context.Background(), mdp.NewSampler(g.MDP, 0), stopCfg.CheckpointPath, transfer.ResumeConfig{})
+	resumed, err := transfer.ResumeContext(context.Background(), mdp.NewSampler(g.MDP, 0), stopCfg.CheckpointPath, &transfer.ResumeConfig{})
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -34,9 +34,12 @@ var (
 // Approximator is a universal successor feature approximator psi(s, a, z)
 // for observations x(s) in R^obs, A actions and features in R^d (z in R^d).
 type Approximator interface {
-	// Shape returns the observation dimension, the number of actions and
-	// the feature dimension d.
-	Shape() (obs, actions, dim int)
+	// ObsDim returns the observation dimension.
+	ObsDim() int
+	// Shape returns the number of actions and the feature dimension d:
+	// psi(x, ., z) is an actions x d matrix, as for gpi sources and
+	// sf.Table.
+	Shape() (actions, dim int)
 	// Psi writes psi(s, a, z) for every action into dst, action-major:
 	// dst[a*d + k]. x is the observation of s (len obs), z has len d. It
 	// panics if a length is wrong.
@@ -58,24 +61,22 @@ type StatePsi interface {
 // Pin the implementations.
 var (
 	_ Approximator = (*Tabular)(nil)
-	_ Approximator = (*Linear)(nil)
 	_ Approximator = (*Neural)(nil)
 	_ StatePsi     = (*Tabular)(nil)
-	_ StatePsi     = (*Linear)(nil)
 )
 
 // Batch is a minibatch of n = len(A) transitions (s, a, phi, s', terminal,
 // z), row-major. Observations come either as vectors X and NextX (n rows of
 // obs values) or, for one-hot observations x(s) = e_s, as the states S and
 // Next with X and NextX nil. Tabular reads S and Next when they are set and
-// X and NextX otherwise; Linear and Neural read X and NextX when they are
+// X and NextX otherwise; Neural reads X and NextX when they are
 // set and S and Next otherwise.
 //
 // K optionally gives, instead of the vectors z, their indices into the
 // finite set of a Tabular (z_i = Tabular.Z[K[i]]): Tabular reads K when it
 // is not nil (Z is then not read and may be nil) and Z otherwise, so a
-// caller that knows the index skips the look-up. Linear and Neural ignore
-// K and always read Z. NewBatch leaves K nil.
+// caller that knows the index skips the look-up. Neural ignores K and
+// always reads Z. NewBatch leaves K nil.
 type Batch struct {
 	S, Next  []int     // states of s and s' (one-hot observations), or nil
 	X, NextX []float64 // observations of s and s', n*obs, or nil

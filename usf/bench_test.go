@@ -115,16 +115,6 @@ func BenchmarkPsi(b *testing.B) {
 			u.Psi(dst, bt.X[:128], bt.Z[:8])
 		}
 	})
-	b.Run("linear/one-hot/S=1000,A=4,d=8", func(b *testing.B) {
-		l, _ := NewLinear(1000, 4, 8, 0.95, nil)
-		z := []float64{0.5, 0.5, 0.5, 0.5, 0, 0, 0, 0}
-		src, _ := NewSource(l, z, nil)
-		dst := make([]float64, 32)
-		b.ReportAllocs()
-		for b.Loop() {
-			src.Psi(dst, 417)
-		}
-	})
 	b.Run("tabular/S=1000,A=4,d=8,K=16", func(b *testing.B) {
 		rng := rand.New(rand.NewPCG(4, 4))
 		zs := unitVectors(rng, 16, 8)
@@ -136,30 +126,4 @@ func BenchmarkPsi(b *testing.B) {
 			src.Psi(dst, 417)
 		}
 	})
-}
-
-// BenchmarkLinearUpdate is one batch of 64 online TD updates of the
-// linear USF with one-hot observations (S = 1000, A = 4, d = 8), greedy
-// next actions; reported per batch.
-func BenchmarkLinearUpdate(b *testing.B) {
-	for _, affine := range []bool{false, true} {
-		b.Run(fmt.Sprintf("affine=%v", affine), func(b *testing.B) {
-			rng := rand.New(rand.NewPCG(5, 5))
-			const ns, na, d, n = 1000, 4, 8, 64
-			l, _ := NewLinear(ns, na, d, 0.95, &LinearConfig{Alpha: 0.05, Affine: affine})
-			bt := NewBatch(n, 0, d)
-			for i := range bt.A {
-				bt.S[i], bt.Next[i], bt.A[i] = rng.IntN(ns), rng.IntN(ns), rng.IntN(na)
-				randomUnit(bt.Z[i*d:(i+1)*d], rng)
-				bt.Phi[i*d+rng.IntN(d)] = 1
-			}
-			b.ReportAllocs()
-			for b.Loop() {
-				if _, err := l.Update(bt); err != nil {
-					b.Fatal(err)
-				}
-			}
-			b.ReportMetric(float64(b.N*n)/b.Elapsed().Seconds(), "transitions/s")
-		})
-	}
 }

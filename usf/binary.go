@@ -12,10 +12,10 @@ import (
 // framing, package internal/fileio: magic, uint32 version, payload length,
 // payload, CRC-32C; payloads in the MarshalBinary doc comments, integers
 // as int64 and floats as their IEEE-754 bits, little-endian). Version 1
-// was this package's own framing.
+// was this package's own framing. The magic "USLN" belonged to a linear
+// approximator that was removed; it is not reused.
 const (
 	tabularMagic = "USTB"
-	linearMagic  = "USLN"
 	neuralMagic  = "USNN"
 	replayMagic  = "USRP"
 	binVersion   = 2
@@ -51,7 +51,8 @@ func finite(v ...float64) bool {
 // K tables (K x states x actions x d, in the order of sf.Table.Data), and,
 // when power > 0, the visit counts (K x states x actions).
 func (t *Tabular) MarshalBinary() ([]byte, error) {
-	s, a, d := t.Shape()
+	s := t.ObsDim()
+	a, d := t.Shape()
 	k := len(t.Z)
 	e := fileio.NewEncoder(tabularMagic, binVersion, 8*(8+k*d+k*s*a*d+len(t.visits)))
 	e.Int(s)
@@ -123,59 +124,6 @@ func (t *Tabular) UnmarshalBinary(data []byte) error {
 	}
 	n.alpha, n.power, n.steps, n.visits = alpha, power, steps, visits
 	*t = *n
-	return nil
-}
-
-// MarshalBinary encodes l exactly. Payload (magic "USLN"): obs, actions,
-// d, affine (one byte), gamma, Alpha, steps, W (obs x actions x d x e
-// values, e = d or d+1 with Affine).
-func (l *Linear) MarshalBinary() ([]byte, error) {
-	e := fileio.NewEncoder(linearMagic, binVersion, 8*3+1+8*3+8*len(l.W))
-	e.Int(l.obs)
-	e.Int(l.na)
-	e.Int(l.d)
-	e.Bool(l.Affine())
-	e.Float64(l.gamma)
-	e.Float64(l.Alpha)
-	e.Int(l.steps)
-	e.Float64s(l.W)
-	return seal("linear", e)
-}
-
-// UnmarshalBinary replaces l with the approximator encoded by
-// MarshalBinary. It returns an error wrapping ErrCorrupt for malformed
-// data, leaving l unchanged.
-func (l *Linear) UnmarshalBinary(data []byte) error {
-	d, err := fileio.Open("usf: load linear", data, linearMagic, binVersion)
-	if err != nil {
-		return err
-	}
-	obs, na, dim := d.Size("obs", 1, math.MaxInt), d.Size("actions", 1, math.MaxInt), d.Size("d", 1, math.MaxInt-1)
-	affine := d.Bool("affine")
-	gamma, alpha := d.Float64("gamma"), d.Float64("alpha")
-	steps := d.Size("steps", 0, math.MaxInt)
-	e := dim
-	if affine {
-		e++
-	}
-	d.Count("weights", 8, obs, na, dim, e)
-	if err := d.Err(); err != nil {
-		return err
-	}
-	if !finite(alpha) {
-		return d.Fail("alpha", "%v is not finite", alpha)
-	}
-	n, err := NewLinear(obs, na, dim, gamma, &LinearConfig{Affine: affine})
-	if err != nil {
-		return d.Fail("settings", "%v", err)
-	}
-	d.ReadFloat64s("weights", n.W)
-	if err := d.Finish(); err != nil {
-		return err
-	}
-	n.Alpha = alpha
-	n.steps = steps
-	*l = *n
 	return nil
 }
 

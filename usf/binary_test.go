@@ -46,7 +46,7 @@ func newRun(t testing.TB) *run {
 func (x *run) steps(t testing.TB, k int) {
 	for range k {
 		x.sp.fill(x.tr, x.rng)
-		x.r.Add(&Transition{S: x.tr.S[0], A: x.tr.A[0], Next: x.tr.Next[0], NextA: -1, Terminal: x.tr.Terminal[0],
+		x.r.Add(&Entry{S: x.tr.S[0], A: x.tr.A[0], Next: x.tr.Next[0], NextA: -1, Terminal: x.tr.Terminal[0],
 			X: x.tr.X, NextX: x.tr.NextX, Phi: x.tr.Phi, Z: x.tr.Z})
 		x.r.Sample(x.b, x.rng)
 		if _, err := x.u.Update(x.b); err != nil {
@@ -117,48 +117,36 @@ func TestResumeBitExact(t *testing.T) {
 	}
 }
 
-// TestTabularLinearRoundTrip saves and loads trained tabular and linear
-// USFs and checks bytes and continued training agree bit for bit.
-func TestTabularLinearRoundTrip(t *testing.T) {
+// TestTabularRoundTrip saves and loads a trained tabular USF and checks
+// bytes and continued training agree bit for bit.
+func TestTabularRoundTrip(t *testing.T) {
 	p := randomProblem(t, 13, 6, 2, 2, 0.2)
 	rng := rand.New(rand.NewPCG(13, 13))
 	zs := unitVectors(rng, 3, 2)
-	tab, _ := NewTabular(6, 2, zs, p.gamma, &TabularConfig{Step: sf.StepSize{Alpha: 0.5, Power: 0.6}})
-	lin, _ := NewLinear(6, 2, 2, p.gamma, &LinearConfig{Alpha: 0.3, Affine: true})
+	tab, _ := NewTabular(6, 2, zs, p.gamma, &TabularConfig{Schedule: sf.StepSchedule{StepSize: 0.5, Power: 0.6}})
 	sp := newSampler(p, zs)
 	b := NewBatch(8, 0, 2)
 	for range 30 {
 		sp.fill(b, rng)
 		tab.Update(b)
-		lin.Update(b)
 	}
 	var tab2 Tabular
-	var lin2 Linear
 	if err := tab2.UnmarshalBinary(mustMarshal(t, tab)); err != nil {
-		t.Fatal(err)
-	}
-	if err := lin2.UnmarshalBinary(mustMarshal(t, lin)); err != nil {
 		t.Fatal(err)
 	}
 	for range 30 {
 		sp.fill(b, rng)
 		tab.Update(b)
-		lin.Update(b)
 		tab2.Update(b)
-		lin2.Update(b)
 	}
 	if !bytes.Equal(mustMarshal(t, tab), mustMarshal(t, &tab2)) {
 		t.Error("tabular differs after round trip")
-	}
-	if !bytes.Equal(mustMarshal(t, lin), mustMarshal(t, &lin2)) {
-		t.Error("linear differs after round trip")
 	}
 }
 
 func TestLoadCorrupt(t *testing.T) {
 	x := newRun(t)
 	x.steps(t, 5)
-	lin, _ := NewLinear(3, 2, 2, 0.9, nil)
 	tab, _ := NewTabular(3, 2, [][]float64{{1, 0}}, 0.9, nil)
 	type loader interface{ UnmarshalBinary([]byte) error }
 	for _, tc := range []struct {
@@ -169,7 +157,6 @@ func TestLoadCorrupt(t *testing.T) {
 		{"neural", mustMarshal(t, x.u), func() loader { return new(Neural) }},
 		{"replay", mustMarshal(t, x.r), func() loader { return new(Replay) }},
 		{"index replay", mustMarshal(t, indexReplay(t)), func() loader { return new(Replay) }},
-		{"linear", mustMarshal(t, lin), func() loader { return new(Linear) }},
 		{"tabular", mustMarshal(t, tab), func() loader { return new(Tabular) }},
 	} {
 		if err := tc.fresh().UnmarshalBinary(tc.good); err != nil {
@@ -190,7 +177,6 @@ func TestLoadCorrupt(t *testing.T) {
 		good  []byte
 		fresh func() loader
 	}{
-		{"linear", mustMarshal(t, lin), func() loader { return new(Linear) }},
 		{"tabular", mustMarshal(t, tab), func() loader { return new(Tabular) }},
 		{"index replay", mustMarshal(t, indexReplay(t)), func() loader { return new(Replay) }},
 	} {
@@ -230,11 +216,9 @@ func putInt(b []byte, off int, v uint64) []byte {
 // checksum, are refused as corrupt: giant and overflowing sizes, and visit
 // counts that no run can produce.
 func TestLoadOutOfRange(t *testing.T) {
-	tab, _ := NewTabular(3, 2, [][]float64{{1, 0}, {0, 1}}, 0.9, &TabularConfig{Step: sf.StepSize{Power: 0.5}})
+	tab, _ := NewTabular(3, 2, [][]float64{{1, 0}, {0, 1}}, 0.9, &TabularConfig{Schedule: sf.StepSchedule{Power: 0.5}})
 	tb := mustMarshal(t, tab)
 	visits := len(tb) - fileio.TrailerLen - 8*2*3*2 // payload offset of the visit counts, in the record
-	lin, _ := NewLinear(3, 2, 2, 0.9, nil)
-	lb := mustMarshal(t, lin)
 	rep := indexReplay(t)
 	rb := mustMarshal(t, rep)
 	putFloat := func(b []byte, at int, v float64) []byte {
@@ -257,8 +241,6 @@ func TestLoadOutOfRange(t *testing.T) {
 		{"tabular NaN visits", putFloat(tb, visits, math.NaN()), new(Tabular)},
 		{"tabular infinite visits", putFloat(tb, visits, math.Inf(1)), new(Tabular)},
 		{"tabular fractional visits", putFloat(tb, visits, 0.5), new(Tabular)},
-		{"linear obs 2^31-1", putInt(lb, 0, 1<<31-1), new(Linear)},
-		{"linear d 2^62", putInt(lb, 16, 1<<62), new(Linear)},
 		{"replay capacity 2^31-1", putInt(rb, 0, 1<<31-1), new(Replay)},
 		{"replay size beyond capacity", putInt(rb, 24, 6), new(Replay)},
 		{"replay obs 2^31-1", putInt(rb, 8, 1<<31-1), new(Replay)},
@@ -268,13 +250,11 @@ func TestLoadOutOfRange(t *testing.T) {
 		}
 	}
 	// The unaltered records load.
-	for _, b := range [][]byte{tb, lb, rb} {
+	for _, b := range [][]byte{tb, rb} {
 		var err error
 		switch string(b[:4]) {
 		case tabularMagic:
 			err = new(Tabular).UnmarshalBinary(b)
-		case linearMagic:
-			err = new(Linear).UnmarshalBinary(b)
 		default:
 			err = new(Replay).UnmarshalBinary(b)
 		}
@@ -352,17 +332,8 @@ func FuzzLoadReplay(f *testing.F) {
 	f.Fuzz(fuzzRoundTrip[Replay])
 }
 
-func FuzzLoadLinear(f *testing.F) {
-	lin, _ := NewLinear(3, 2, 2, 0.9, &LinearConfig{Affine: true})
-	lin.W[3] = 1.5
-	b := mustMarshal(f, lin)
-	f.Add(b)
-	f.Add(putInt(b, 0, 1<<31-1)) // obs
-	f.Fuzz(fuzzRoundTrip[Linear])
-}
-
 func FuzzLoadTabular(f *testing.F) {
-	tab, _ := NewTabular(3, 2, [][]float64{{1, 0}, {0, 1}}, 0.9, &TabularConfig{Step: sf.StepSize{Power: 0.5}})
+	tab, _ := NewTabular(3, 2, [][]float64{{1, 0}, {0, 1}}, 0.9, &TabularConfig{Schedule: sf.StepSchedule{Power: 0.5}})
 	tab.Tables[1].Data[2] = -2
 	b := mustMarshal(f, tab)
 	f.Add(b)
@@ -379,7 +350,7 @@ func indexReplay(t testing.TB) *Replay {
 		t.Fatal(err)
 	}
 	for i := 0; i < 7; i++ {
-		r.Add(&Transition{S: i, A: i % 2, Next: i + 1, NextA: -1, Terminal: i == 3, K: i % 3,
+		r.Add(&Entry{S: i, A: i % 2, Next: i + 1, NextA: -1, Terminal: i == 3, K: i % 3,
 			X: []float64{float64(i), 1}, NextX: []float64{float64(i + 1), 1}})
 	}
 	return r

@@ -104,13 +104,9 @@ func averageHeldOut(t testing.TB, ap Approximator, p problem, zs [][]float64) he
 	return a
 }
 
-// trainDepot trains a on uniformly drawn depot transitions (s uniform,
-// a uniform, s' ~ P) paired with z uniform on the unit sphere.
-func trainDepot(t testing.TB, ap Approximator, p problem, updates, batch int, rng *rand.Rand) float64 {
-	return trainDepotAnneal(t, ap, p, updates, batch, rng, nil)
-}
-
-// trainDepotAnneal is trainDepot calling anneal(u) before update u.
+// trainDepotAnneal trains a on uniformly drawn depot transitions (s
+// uniform, a uniform, s' ~ P) paired with z uniform on the unit sphere,
+// calling anneal(u) (if not nil) before update u.
 func trainDepotAnneal(t testing.TB, ap Approximator, p problem, updates, batch int, rng *rand.Rand, anneal func(u int)) float64 {
 	t.Helper()
 	d := p.phi.Dim()
@@ -124,7 +120,7 @@ func trainDepotAnneal(t testing.TB, ap Approximator, p problem, updates, batch i
 		for i := range b.A {
 			s, a := rng.IntN(n), rng.IntN(na)
 			next, prob := p.m.Next(s, a)
-			s2 := next[mdp.SampleIndex(rng, prob)]
+			s2 := next[mdp.SampleIndex(prob, rng)]
 			b.S[i], b.A[i], b.Next[i], b.Terminal[i] = s, a, s2, p.m.Terminal(s2)
 			p.phi.Features(b.Phi[i*d:(i+1)*d], s, a, s2)
 			randomUnit(b.Z[i*d:(i+1)*d], rng)
@@ -153,33 +149,25 @@ type depotCase struct {
 // features, one-hot observations, z uniform on the unit sphere S^5,
 // transitions (s, a) uniform) and checks five held-out z (drawn from the
 // same distribution with another seed) against the exact oracle. It also
-// reports two baselines, the same network untrained and the linear USF
-// M_{s,a} z trained on as many transitions, and requires the neural USF to
-// beat both by a clear margin.
+// reports the same network untrained as a baseline, and requires the
+// trained network to beat its regret by a clear margin.
 func runDepot(t *testing.T, c depotCase) {
 	p, _ := depotProblem(t, 0.9)
 	n, na, d := p.m.NumStates(), p.m.NumActions(), p.phi.Dim()
 	held := unitVectors(rand.New(rand.NewPCG(77, 77)), 5, d)
-	u, err := NewNeural(n, na, d, p.gamma, &NeuralConfig{Hidden: c.hidden, LR: c.lr, TargetEvery: 50}, rand.New(rand.NewPCG(1, 2)))
+	u, err := NewNeural(n, na, d, p.gamma, &NeuralConfig{Hidden: c.hidden, StepSize: c.lr, TargetEvery: 50}, rand.New(rand.NewPCG(1, 2)))
 	if err != nil {
 		t.Fatal(err)
 	}
 	untrained := averageHeldOut(t, u, p, held)
 	trainDepotAnneal(t, u, p, c.updates, 64, rand.New(rand.NewPCG(3, 4)), func(k int) {
 		if k > 0 && k%(c.updates/4) == 0 {
-			u.SetLR(u.LR() / 2)
+			u.SetStepSize(u.StepSize() / 2)
 		}
 	})
 	got := averageHeldOut(t, u, p, held)
-	lin, err := NewLinear(n, na, d, p.gamma, &LinearConfig{Alpha: 0.1})
-	if err != nil {
-		t.Fatal(err)
-	}
-	trainDepot(t, lin, p, c.updates, 64, rand.New(rand.NewPCG(3, 4)))
-	linear := averageHeldOut(t, lin, p, held)
 	t.Logf("neural    %+v", got)
 	t.Logf("untrained %+v", untrained)
-	t.Logf("linear    %+v", linear)
 	if got.MeanErr > c.maxMeanErr {
 		t.Errorf("mean relative |psi.z - Q^pi_z| %.3f > %.3f", got.MeanErr, c.maxMeanErr)
 	}
@@ -188,12 +176,9 @@ func runDepot(t *testing.T, c depotCase) {
 	}
 	// The untrained network's psi is near 0 and its policy wanders, so its
 	// Q^pi is near 0 too: a small error with a bad policy. Its regret is
-	// the baseline that matters; the error is compared with the linear USF.
-	if got.MeanErr > linear.MeanErr/2 {
-		t.Errorf("mean error %.3f not below half of the linear USF's %.3f", got.MeanErr, linear.MeanErr)
-	}
-	if got.MeanRegret > untrained.MeanRegret/2 || got.MeanRegret > linear.MeanRegret/2 {
-		t.Errorf("mean regret %.3f not below half of the baselines (untrained %.3f, linear %.3f)", got.MeanRegret, untrained.MeanRegret, linear.MeanRegret)
+	// the baseline that matters.
+	if got.MeanRegret > untrained.MeanRegret/2 {
+		t.Errorf("mean regret %.3f not below half of the untrained network's %.3f", got.MeanRegret, untrained.MeanRegret)
 	}
 }
 
@@ -202,9 +187,8 @@ func runDepot(t *testing.T, c depotCase) {
 // -race): hidden 64 x 64, 3000 updates of 64 transitions, Adam step 1e-3
 // halved every 750 updates. Measured on linux/amd64: mean relative error
 // of psi . z against Q^{pi_z} 0.22 and mean relative regret 0.16 over the
-// five held-out z (untrained network: regret 0.69; linear USF: error 0.87,
-// regret 1.01). Tolerances: error 0.35, regret 0.25, and at most half of
-// the baselines. A small network on a small budget is far from exact: the
+// five held-out z (untrained network: regret 0.69). Tolerances: error
+// 0.35, regret 0.25, and at most half of the untrained network's regret. A small network on a small budget is far from exact: the
 // check is that it is close and clearly learned, not that it converged.
 func TestNeuralDepotSmall(t *testing.T) {
 	runDepot(t, depotCase{hidden: []int{64, 64}, updates: 3000, lr: 1e-3, maxMeanErr: 0.35, maxRegret: 0.25})

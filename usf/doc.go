@@ -23,23 +23,23 @@
 // the successor features of an optimal policy of r_z (SF Q-learning,
 // Barreto et al. 2017, sections 4-5), which is what every test here checks
 // against sf.Exact and mdp.Optimal. A terminal next state bootstraps
-// nothing; a time-limit truncation does: a Batch carries Terminal only, so
-// pass terminal = false for a truncated step.
+// nothing; a time limit does: a Batch carries Terminal only, so pass
+// terminal = false for a step that ended at mdp.TimeLimit.
 //
 // # Observations
 //
 // An approximator reads an observation vector x(s) in R^m. For an MDP
 // with integer states the default observation is one-hot, x(s) = e_s
 // (m = number of states); a Batch then may carry the states in S and Next
-// and leave X and NextX nil, and the approximators that can use the index
-// directly (Tabular, Linear) do so. Any other observation is given by an
-// Observer and written into X and NextX.
+// and leave X and NextX nil (Tabular reads the index, Neural builds the
+// one-hot input from it). Any other observation is given by an Observer
+// and written into X and NextX.
 //
 // # Approximators
 //
 // Tabular keeps one sf.Table per z of a finite set Z (psi(s, a, z_k) =
 // T_k[s, a]); observations must be one-hot. Update is online TD(0) with
-// the per-(z, s, a) step schedule of sf.StepSize. UpdateRelabel is the
+// the per-(z, s, a) step schedule of sf.StepSchedule. UpdateRelabel is the
 // update of skill pretraining (Hansen et al. 2020, Algorithm 1), and the
 // one package transfer runs: every transition updates the z that acted
 // and a number of other z of the set drawn at random (off-policy
@@ -55,28 +55,15 @@
 // look-up of z in the set, O(d) expected by a hash table whatever K is, or
 // none when the Batch gives the set index K; UpdateRelabel O(A + d) per
 // updated z (the greedy action from the cache, the row, and the refreshed
-// cache entry); Linear with one-hot x O(A d e) with e = d (+1 with
-// Affine), and O(nnz(x) A d e) with a dense x; Neural one forward pass of
+// cache entry); Neural one forward pass of
 // the target network and one forward and backward pass of the online
 // network per minibatch (about 2 n sum_l in_l out_l flops each).
 //
-// Linear and Neural are not used by package transfer: the tabular form is
-// exact on the finite skill set that transfer pretrains, Linear could not
-// represent the policies of the depot demo's distant skills (see package
-// transfer), and Neural is the approximator for psi over a continuous z
-// (with Candidates for GPI around an inferred task). Their tests check
-// them against the exact oracles on their own.
-//
-// Linear is linear in the joint feature x(s) (outer) z:
-//
-//	psi_k(s, a, z) = sum_{i,j} W[i, a, k, j] x_i z_j     (+ B[i, a, k] x_i with Affine)
-//
-// For one-hot x this is psi(s, a, z) = M_{s,a} z (+ b_{s,a}) with a d x d
-// matrix M_{s,a} per state-action pair: the universal SF of the tabular
-// case, exact on any set of at most d linearly independent z (with Affine,
-// d+1 affinely independent z). Its semi-gradient TD(0) step is
-//
-//	W[i, a, k, j] += alpha delta_k x_i z_j.
+// Neural is not used by package transfer: the tabular form is exact on
+// the finite skill set that transfer pretrains, and Neural is the
+// approximator for psi over a continuous z (with Candidates for GPI around
+// an inferred task). Its tests check it against the exact oracles on its
+// own.
 //
 // Neural is a multilayer perceptron (package internal/nn) on the
 // concatenation (x, z) with A*d outputs, output a*d + k being psi_k(s, a, z).
@@ -103,13 +90,13 @@
 // keeps phi and z of every transition (33 + 16 obs + 16 d bytes each), or,
 // with dimension 0, only the index of z in a set the caller holds (41 +
 // 16 obs bytes), the caller recomputing phi and z after sampling; a
-// Tabular then reads the indices from Batch.K. Transition reads the stored
+// Tabular then reads the indices from Batch.K. Entry reads the stored
 // transitions oldest first, and Validate checks them against the sizes of
 // a problem (for instance after loading a checkpoint).
 //
 // # Saving
 //
-// Tabular, Linear, Neural and Replay implement encoding.BinaryMarshaler and
+// Tabular, Neural and Replay implement encoding.BinaryMarshaler and
 // encoding.BinaryUnmarshaler. Each encoding is a record of the library's
 // framing (package internal/fileio): a four-byte magic, a format version,
 // the payload length, the payload (documented in each MarshalBinary) and a

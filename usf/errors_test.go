@@ -3,6 +3,7 @@ package usf_test
 import (
 	"errors"
 	"math"
+	"math/rand/v2"
 	"testing"
 
 	"github.com/successor-go/successor/internal/errs"
@@ -26,13 +27,13 @@ func TestSharedErrors(t *testing.T) {
 			errOf(usf.NewReplay(0, 1, 1)),
 			usf.ErrDimension, errs.Dimension, sf.ErrDimension},
 		{"discount: gamma 2",
-			errOf(usf.NewLinear(1, 1, 1, 2, nil)),
+			errOf(usf.NewTabular(1, 1, [][]float64{{1}}, 2, nil)),
 			usf.ErrDiscount, errs.Discount, linalg.ErrDiscount},
 		{"non-finite: NaN in z",
 			errOf(usf.NewTabular(1, 1, [][]float64{{math.NaN()}}, 0.9, nil)),
 			usf.ErrNonFinite, errs.NonFinite, skills.ErrNonFinite},
 		{"config: negative step",
-			errOf(usf.NewLinear(1, 1, 1, 0.9, &usf.LinearConfig{Alpha: -1})),
+			errOf(usf.NewTabular(1, 1, [][]float64{{1}}, 0.9, &usf.TabularConfig{Schedule: sf.StepSchedule{StepSize: -1}})),
 			usf.ErrConfig, errs.Config, sf.ErrConfig},
 		{"config: nil rng",
 			errOf(usf.NewNeural(1, 1, 1, 0.9, nil, nil)),
@@ -43,9 +44,9 @@ func TestSharedErrors(t *testing.T) {
 		{"corrupt: empty replay record",
 			new(usf.Replay).UnmarshalBinary(nil),
 			usf.ErrCorrupt, errs.Corrupt, sf.ErrCorrupt},
-		{"corrupt: a linear record loaded as a tabular one",
+		{"corrupt: a neural record loaded as a tabular one",
 			func() error {
-				l, _ := usf.NewLinear(1, 1, 1, 0.9, nil)
+				l, _ := usf.NewNeural(1, 1, 1, 0.9, nil, rand.New(rand.NewPCG(1, 1)))
 				b, _ := l.MarshalBinary()
 				return new(usf.Tabular).UnmarshalBinary(b)
 			}(),
@@ -63,7 +64,7 @@ func TestSharedErrors(t *testing.T) {
 // and gamma 1: psi is 1e308 after the first and phi + psi = +Inf at the
 // second (derived by hand).
 func diverge() error {
-	tab, err := usf.NewTabular(1, 1, [][]float64{{1}}, 1, &usf.TabularConfig{Step: sf.StepSize{Alpha: 1}})
+	tab, err := usf.NewTabular(1, 1, [][]float64{{1}}, 1, &usf.TabularConfig{Schedule: sf.StepSchedule{StepSize: 1}})
 	if err != nil {
 		return err
 	}

@@ -19,10 +19,9 @@ import (
 //	psi(0, move) = e_1 + 0.5 psi(1, move) = (1, 1)
 //	psi(0, stay) = e_0 + 0.5 psi(0, stay) = (2, 0)
 //
-// The linear USF psi(s, a, z) = M_{s,a} z learns them, for z = (1, 0) and
-// z = (0, 1) at once.
-func ExampleLinear() {
-	m, err := mdp.New(2, 2, []mdp.Transition{
+// A Tabular over the set {(1, 0), (0, 1)} learns them, for both z at once.
+func ExampleTabular() {
+	m, err := mdp.New(2, 2, []mdp.ProbEntry{
 		{State: 0, Action: 0, Next: 1, Prob: 1},
 		{State: 0, Action: 1, Next: 0, Prob: 1},
 		{State: 1, Action: 0, Next: 0, Prob: 1},
@@ -32,7 +31,8 @@ func ExampleLinear() {
 		fmt.Println(err)
 		return
 	}
-	lin, err := usf.NewLinear(2, 2, 2, 0.5, &usf.LinearConfig{Alpha: 0.5})
+	zs := [][]float64{{1, 0}, {0, 1}}
+	tab, err := usf.NewTabular(2, 2, zs, 0.5, &usf.TabularConfig{Schedule: sf.StepSchedule{StepSize: 0.5}})
 	if err != nil {
 		fmt.Println(err)
 		return
@@ -41,7 +41,7 @@ func ExampleLinear() {
 	// one-hot states given as indices.
 	b := usf.NewBatch(8, 0, 2)
 	i := 0
-	for _, z := range [][]float64{{1, 0}, {0, 1}} {
+	for _, z := range zs {
 		for s := 0; s < 2; s++ {
 			for a := 0; a < 2; a++ {
 				next, _ := m.Next(s, a)
@@ -53,13 +53,13 @@ func ExampleLinear() {
 		}
 	}
 	for range 200 {
-		if _, err := lin.Update(b); err != nil {
+		if _, err := tab.Update(b); err != nil {
 			fmt.Println(err)
 			return
 		}
 	}
 	psi := make([]float64, 4)
-	lin.PsiState(psi, 0, []float64{1, 0})
+	tab.PsiState(psi, 0, []float64{1, 0})
 	fmt.Printf("psi(0, move, z) = [%.3f %.3f]\n", psi[0], psi[1])
 	fmt.Printf("psi(0, stay, z) = [%.3f %.3f]\n", psi[2], psi[3])
 	// Output:
@@ -96,11 +96,11 @@ func ExampleCandidates() {
 // A replay of dimension 0 keeps, instead of phi and z, the index of z in
 // the set of a Tabular; the caller writes phi after sampling and the
 // Tabular reads the indices from Batch.K. The world and the features are
-// those of ExampleLinear (derived by hand there): the SFs of z = (1, 0)
+// those of ExampleTabular (derived by hand there): the SFs of z = (1, 0)
 // in state 0 are (1, 1) for move and (2, 0) for stay.
-func ExampleReplay_Transition() {
+func ExampleReplay_Entry() {
 	zs := [][]float64{{1, 0}, {0, 1}}
-	tab, err := usf.NewTabular(2, 2, zs, 0.5, &usf.TabularConfig{Step: sf.StepSize{Alpha: 1}})
+	tab, err := usf.NewTabular(2, 2, zs, 0.5, &usf.TabularConfig{Schedule: sf.StepSchedule{StepSize: 1}})
 	if err != nil {
 		fmt.Println(err)
 		return
@@ -117,13 +117,13 @@ func ExampleReplay_Transition() {
 				if a == 0 {
 					next = 1 - s // move
 				}
-				rep.Add(&usf.Transition{S: s, A: a, Next: next, NextA: -1, K: k})
+				rep.Add(&usf.Entry{S: s, A: a, Next: next, NextA: -1, K: k})
 			}
 		}
 	}
 	fmt.Println("stored:", rep.Len(), "valid:", rep.Validate(2, 2, len(zs)))
-	var tr usf.Transition
-	rep.Transition(&tr, rep.Len()-1)
+	var tr usf.Entry
+	rep.Entry(&tr, rep.Len()-1)
 	fmt.Printf("newest: s=%d a=%d s'=%d k=%d\n", tr.S, tr.A, tr.Next, tr.K)
 
 	b := usf.NewBatch(16, 0, 2)

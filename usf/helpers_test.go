@@ -10,12 +10,6 @@ import (
 	"github.com/successor-go/successor/sf"
 )
 
-// Tolerance tiers (the package tests of sf and mdp use the same).
-const (
-	tolExact = 1e-12 // same arithmetic, or a closed form
-	tolTD    = 2e-2  // a TD learner against the exact oracle, relative to max |psi|
-)
-
 // problem is a finite MDP with features and a discount.
 type problem struct {
 	m     *mdp.Finite
@@ -35,7 +29,7 @@ func randomProblem(t testing.TB, seed uint64, states, actions, d int, terminal f
 func randomProblemBranching(t testing.TB, seed uint64, states, actions, d, branching int, terminal float64) problem {
 	t.Helper()
 	rng := rand.New(rand.NewPCG(seed, 1))
-	m, err := mdp.RandomFinite(rng, mdp.RandomConfig{States: states, Actions: actions, Branching: branching, TerminalFraction: terminal})
+	m, err := mdp.RandomFinite(&mdp.RandomConfig{States: states, Actions: actions, Branching: branching, TerminalFraction: terminal}, rng)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -94,7 +88,7 @@ func (sp *sampler) fill(b *Batch, rng *rand.Rand) {
 		s := sp.states[rng.IntN(len(sp.states))]
 		a := rng.IntN(sp.p.m.NumActions())
 		next, prob := sp.p.m.Next(s, a)
-		s2 := next[mdp.SampleIndex(rng, prob)]
+		s2 := next[mdp.SampleIndex(prob, rng)]
 		b.S[i], b.A[i], b.Next[i] = s, a, s2
 		b.Terminal[i] = sp.p.m.Terminal(s2)
 		sp.p.phi.Features(b.Phi[i*d:(i+1)*d], s, a, s2)

@@ -166,11 +166,14 @@ func TestTabularBatchK(t *testing.T) {
 	if !panics(func() { c.Update(&bk) }) {
 		t.Error("K of the wrong length accepted")
 	}
-	// Linear ignores K and needs Z.
-	lin, _ := NewLinear(6, 2, 3, p.gamma, nil)
+	// Neural ignores K and needs Z.
+	nn, err := NewNeural(6, 2, 3, p.gamma, nil, rand.New(rand.NewPCG(1, 1)))
+	if err != nil {
+		t.Fatal(err)
+	}
 	bk.K = make([]int, 16)
-	if !panics(func() { lin.Update(&bk) }) {
-		t.Error("linear accepted a batch without Z")
+	if !panics(func() { nn.Update(&bk) }) {
+		t.Error("neural accepted a batch without Z")
 	}
 }
 

@@ -18,9 +18,9 @@ type NeuralConfig struct {
 	Tanh bool
 	// MaxBatch is the largest batch Update accepts. 0 means 64.
 	MaxBatch int
-	// LR is the Adam step size (Kingma & Ba 2015, Algorithm 1, with
+	// StepSize is the Adam step size (Kingma & Ba 2015, Algorithm 1, with
 	// beta1 0.9, beta2 0.999, eps 1e-8). 0 means 1e-3.
-	LR float64
+	StepSize float64
 	// Clip is the bound on the global gradient norm. 0 means 10; a
 	// negative value disables clipping.
 	Clip float64
@@ -86,8 +86,8 @@ func NewNeural(obs, actions, dim int, gamma float64, cfg *NeuralConfig, rng *ran
 	if c.MaxBatch == 0 {
 		c.MaxBatch = 64
 	}
-	if c.LR == 0 {
-		c.LR = 1e-3
+	if c.StepSize == 0 {
+		c.StepSize = 1e-3
 	}
 	if c.Clip == 0 {
 		c.Clip = 10
@@ -95,7 +95,7 @@ func NewNeural(obs, actions, dim int, gamma float64, cfg *NeuralConfig, rng *ran
 	if c.TargetEvery == 0 {
 		c.TargetEvery = 100
 	}
-	if !(c.LR > 0) || c.TargetEvery < 0 || !(c.Tau >= 0 && c.Tau <= 1) || math.IsNaN(c.Clip) || math.IsInf(c.LR, 0) {
+	if !(c.StepSize > 0) || c.TargetEvery < 0 || !(c.Tau >= 0 && c.Tau <= 1) || math.IsNaN(c.Clip) || math.IsInf(c.StepSize, 0) {
 		return nil, fmt.Errorf("usf: neural: config %+v: %w", c, ErrConfig)
 	}
 	if rng == nil {
@@ -118,7 +118,7 @@ func NewNeural(obs, actions, dim int, gamma float64, cfg *NeuralConfig, rng *ran
 	u := &Neural{
 		net:         net,
 		target:      net.Clone(),
-		opt:         nn.NewAdam(net.NumParams(), &nn.AdamConfig{LR: c.LR}),
+		opt:         nn.NewAdam(net.NumParams(), &nn.AdamConfig{StepSize: c.StepSize}),
 		obs:         obs,
 		na:          actions,
 		d:           dim,
@@ -142,8 +142,12 @@ func (u *Neural) alloc() {
 	u.choice = make([]int, mb)
 }
 
-// Shape returns the observation dimension, actions and features.
-func (u *Neural) Shape() (obs, actions, dim int) { return u.obs, u.na, u.d }
+// ObsDim returns the observation dimension.
+func (u *Neural) ObsDim() int { return u.obs }
+
+// Shape returns the number of actions and the feature dimension, the shape
+// of psi(x, ., z).
+func (u *Neural) Shape() (actions, dim int) { return u.na, u.d }
 
 // MaxBatch returns the largest batch Update accepts.
 func (u *Neural) MaxBatch() int { return u.net.MaxBatch() }
@@ -154,16 +158,16 @@ func (u *Neural) Updates() int { return u.updates }
 // NumParams returns the number of network parameters.
 func (u *Neural) NumParams() int { return u.net.NumParams() }
 
-// LR returns the current Adam step size.
-func (u *Neural) LR() float64 { return u.opt.LR }
+// StepSize returns the current Adam step size.
+func (u *Neural) StepSize() float64 { return u.opt.StepSize }
 
-// SetLR sets the Adam step size, for annealing it between updates. It
+// SetStepSize sets the Adam step size, for annealing it between updates. It
 // panics unless lr > 0 and finite.
-func (u *Neural) SetLR(lr float64) {
+func (u *Neural) SetStepSize(lr float64) {
 	if !(lr > 0) || math.IsInf(lr, 0) {
 		panic("usf: neural: step size must be positive and finite")
 	}
-	u.opt.LR = lr
+	u.opt.StepSize = lr
 }
 
 // Err returns the divergence error of an earlier update, or nil.

@@ -6,6 +6,7 @@ import (
 	"math/rand/v2"
 	"testing"
 
+	"github.com/successor-go/successor/internal/testtol"
 	"github.com/successor-go/successor/sf"
 )
 
@@ -69,7 +70,7 @@ func testNeuralLoss(t *testing.T, online bool) {
 			if err != nil {
 				t.Fatal(err)
 			}
-			if math.Abs(got-want) > tolExact*(1+want) {
+			if math.Abs(got-want) > testtol.Exact*(1+want) {
 				t.Fatalf("online %v one-hot %v: loss %.15g, from Psi %.15g", online, oneHot, got, want)
 			}
 		}
@@ -116,7 +117,7 @@ func TestNeuralTargetSchedule(t *testing.T) {
 	before := append([]float64(nil), v.target.Params()...)
 	v.Update(b)
 	for i, w := range v.net.Params() {
-		if want := 0.75*before[i] + 0.25*w; math.Abs(v.target.Params()[i]-want) > tolExact {
+		if want := 0.75*before[i] + 0.25*w; math.Abs(v.target.Params()[i]-want) > testtol.Exact {
 			t.Fatalf("polyak: target[%d] = %v, want %v", i, v.target.Params()[i], want)
 		}
 	}

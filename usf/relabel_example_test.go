@@ -23,7 +23,7 @@ import (
 // The cached action values are psi . z: 2 for z_0 and 0 for z_1.
 func ExampleTabular_UpdateRelabel() {
 	zs := [][]float64{{1, 0}, {0, 1}}
-	tab, err := usf.NewTabular(2, 2, zs, 0.5, &usf.TabularConfig{Step: sf.StepSize{Alpha: 1}})
+	tab, err := usf.NewTabular(2, 2, zs, 0.5, &usf.TabularConfig{Schedule: sf.StepSchedule{StepSize: 1}})
 	if err != nil {
 		fmt.Println(err)
 		return
@@ -35,7 +35,7 @@ func ExampleTabular_UpdateRelabel() {
 	rng := rand.New(rand.NewPCG(1, 2))
 	var st usf.TDStats
 	for range 60 {
-		if err := tab.UpdateRelabel(b, 1, rng, &st); err != nil {
+		if err := tab.UpdateRelabel(b, 1, &st, rng); err != nil {
 			fmt.Println(err)
 			return
 		}

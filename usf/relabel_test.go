@@ -54,14 +54,14 @@ func TestUpdateRelabelMatchesTD(t *testing.T) {
 			p := randomProblem(t, 11, 9, 3, 4, 0.25)
 			rng := rand.New(rand.NewPCG(4, 4))
 			zs := unitVectors(rng, 5, 4)
-			tab, err := NewTabular(9, 3, zs, p.gamma, &TabularConfig{Step: sf.StepSize{Alpha: alpha}})
+			tab, err := NewTabular(9, 3, zs, p.gamma, &TabularConfig{Schedule: sf.StepSchedule{StepSize: alpha}})
 			if err != nil {
 				t.Fatal(err)
 			}
 			ref := make([]*sf.TD, len(zs))
 			for k := range zs {
 				rt, _ := sf.NewTable(9, 3, 4)
-				ref[k], err = sf.NewTD(rt, p.phi, p.gamma, &sf.TDSettings{Target: sf.Sampled, Step: sf.StepSize{Alpha: alpha}})
+				ref[k], err = sf.NewTD(rt, p.phi, p.gamma, &sf.TDConfig{Target: sf.Sampled, Schedule: sf.StepSchedule{StepSize: alpha}})
 				if err != nil {
 					t.Fatal(err)
 				}
@@ -75,7 +75,7 @@ func TestUpdateRelabelMatchesTD(t *testing.T) {
 			var st TDStats
 			for range 200 {
 				sp.fillK(b, rng)
-				if err := tab.UpdateRelabel(b, extra, draws, &st); err != nil {
+				if err := tab.UpdateRelabel(b, extra, &st, draws); err != nil {
 					t.Fatal(err)
 				}
 				for i := range b.A {
@@ -118,7 +118,7 @@ func TestUpdateRelabelLearnsOptimal(t *testing.T) {
 	p := randomProblemBranching(t, 5, 8, 3, 3, 1, 0.25)
 	rng := rand.New(rand.NewPCG(5, 98))
 	zs := wellSeparated(t, p, rng, 4, 3, 0.05)
-	tab, err := NewTabular(8, 3, zs, p.gamma, &TabularConfig{Step: sf.StepSize{Alpha: 1}})
+	tab, err := NewTabular(8, 3, zs, p.gamma, &TabularConfig{Schedule: sf.StepSchedule{StepSize: 1}})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -128,7 +128,7 @@ func TestUpdateRelabelLearnsOptimal(t *testing.T) {
 	b.K = make([]int, 32)
 	for range 100_000 / 32 {
 		sp.fillK(b, rng)
-		if err := tab.UpdateRelabel(b, 3, rng, nil); err != nil {
+		if err := tab.UpdateRelabel(b, 3, nil, rng); err != nil {
 			t.Fatal(err)
 		}
 	}
@@ -154,7 +154,7 @@ func TestTabularValuesCache(t *testing.T) {
 	p := randomProblem(t, 7, 7, 3, 3, 0.2)
 	rng := rand.New(rand.NewPCG(7, 7))
 	zs := unitVectors(rng, 3, 3)
-	tab, _ := NewTabular(7, 3, zs, p.gamma, &TabularConfig{Step: sf.StepSize{Alpha: 0.5}})
+	tab, _ := NewTabular(7, 3, zs, p.gamma, &TabularConfig{Schedule: sf.StepSchedule{StepSize: 0.5}})
 	sp := newSampler(p, zs)
 	b := NewBatch(8, 0, 3)
 	b.K = make([]int, 8)
@@ -182,7 +182,7 @@ func TestTabularValuesCache(t *testing.T) {
 			if _, err := tab.Update(b); err != nil {
 				t.Fatal(err)
 			}
-		} else if err := tab.UpdateRelabel(b, 1, rng, nil); err != nil {
+		} else if err := tab.UpdateRelabel(b, 1, nil, rng); err != nil {
 			t.Fatal(err)
 		}
 	}
@@ -201,10 +201,10 @@ func TestTabularValuesCache(t *testing.T) {
 	for range 30 {
 		sp.fillK(b, r1)
 		sp.fillK(b, r2) // same batch again, keeping the two generators level
-		if err := tab.UpdateRelabel(b, 2, r1, nil); err != nil {
+		if err := tab.UpdateRelabel(b, 2, nil, r1); err != nil {
 			t.Fatal(err)
 		}
-		if err := back.UpdateRelabel(b, 2, r2, nil); err != nil {
+		if err := back.UpdateRelabel(b, 2, nil, r2); err != nil {
 			t.Fatal(err)
 		}
 	}
@@ -222,7 +222,7 @@ func TestTabularValuesCache(t *testing.T) {
 // 0.5); derived by hand, see comments.
 func TestUpdateRelabelHand(t *testing.T) {
 	z := []float64{1, 0}
-	tab, _ := NewTabular(2, 2, [][]float64{z}, 0.5, &TabularConfig{Step: sf.StepSize{Alpha: 0.5}})
+	tab, _ := NewTabular(2, 2, [][]float64{z}, 0.5, &TabularConfig{Schedule: sf.StepSchedule{StepSize: 0.5}})
 	copy(tab.Tables[0].Row(1, 0), []float64{2, 0}) // Q(1, 0) = 2
 	copy(tab.Tables[0].Row(1, 1), []float64{0, 4}) // Q(1, 1) = 0: the greedy action in 1 is 0
 	if g := tab.Greedy(0, 1); g != 0 {
@@ -235,7 +235,7 @@ func TestUpdateRelabelHand(t *testing.T) {
 	var st TDStats
 	// target = phi + 0.5 psi(1, 0) = (2, 1); delta = (2, 1);
 	// psi(0, 1) = 0.5 delta = (1, 0.5); ||delta||^2 / d = 5/2.
-	if err := tab.UpdateRelabel(b, 0, nil, &st); err != nil {
+	if err := tab.UpdateRelabel(b, 0, &st, nil); err != nil {
 		t.Fatal(err)
 	}
 	if r := tab.Tables[0].Row(0, 1); r[0] != 1 || r[1] != 0.5 {
@@ -250,7 +250,7 @@ func TestUpdateRelabelHand(t *testing.T) {
 	// A terminal next state bootstraps nothing: target = phi = (1, 1),
 	// delta = (0, 0.5), psi(0, 1) = (1, 0.75), ||delta||^2 / d = 1/8.
 	b.Terminal[0] = true
-	if err := tab.UpdateRelabel(b, 0, nil, &st); err != nil {
+	if err := tab.UpdateRelabel(b, 0, &st, nil); err != nil {
 		t.Fatal(err)
 	}
 	if r := tab.Tables[0].Row(0, 1); r[0] != 1 || r[1] != 0.75 {
@@ -297,7 +297,7 @@ func TestUpdateRelabelErrors(t *testing.T) {
 		b.K = []int{0}
 		copy(b.Z, z)
 		tc.f(b)
-		if !panics(func() { tab.UpdateRelabel(b, tc.extra, tc.rng, nil) }) {
+		if !panics(func() { tab.UpdateRelabel(b, tc.extra, nil, tc.rng) }) {
 			t.Errorf("%s: no panic", tc.name)
 		}
 	}
@@ -309,14 +309,14 @@ func TestUpdateRelabelAllocs(t *testing.T) {
 	p := randomProblem(t, 2, 10, 4, 8, 0.1)
 	rng := rand.New(rand.NewPCG(2, 2))
 	zs := unitVectors(rng, 16, 8)
-	tab, _ := NewTabular(10, 4, zs, p.gamma, &TabularConfig{Step: sf.StepSize{Alpha: 0.2}})
+	tab, _ := NewTabular(10, 4, zs, p.gamma, &TabularConfig{Schedule: sf.StepSchedule{StepSize: 0.2}})
 	b := NewBatch(16, 0, 8)
 	b.K = make([]int, 16)
 	newSampler(p, zs).fillK(b, rng)
 	var st TDStats
 	tab.Greedy(0, 0)
 	if n := testing.AllocsPerRun(100, func() {
-		if err := tab.UpdateRelabel(b, 4, rng, &st); err != nil {
+		if err := tab.UpdateRelabel(b, 4, &st, rng); err != nil {
 			t.Fatal(err)
 		}
 		_ = tab.Greedy(3, 5) + len(tab.Values(2, 1))
@@ -332,7 +332,7 @@ func BenchmarkTabularUpdateRelabel(b *testing.B) {
 	rng := rand.New(rand.NewPCG(1, 1))
 	const states, actions, d, k = 200, 5, 64, 128
 	zs := unitVectors(rng, k, d)
-	tab, err := NewTabular(states, actions, zs, 0.99, &TabularConfig{Step: sf.StepSize{Alpha: 0.2}})
+	tab, err := NewTabular(states, actions, zs, 0.99, &TabularConfig{Schedule: sf.StepSchedule{StepSize: 0.2}})
 	if err != nil {
 		b.Fatal(err)
 	}
@@ -348,7 +348,7 @@ func BenchmarkTabularUpdateRelabel(b *testing.B) {
 	tab.Greedy(0, 0)
 	b.ReportAllocs()
 	for b.Loop() {
-		if err := tab.UpdateRelabel(bt, 4, rng, &st); err != nil {
+		if err := tab.UpdateRelabel(bt, 4, &st, rng); err != nil {
 			b.Fatal(err)
 		}
 	}

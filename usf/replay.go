@@ -5,15 +5,15 @@ import (
 	"math/rand/v2"
 )
 
-// Transition is one step (s, a, phi, s', terminal, z) for a Replay. S and
-// Next are integer states (any value, e.g. -1, if there are none); X and
-// NextX are observation vectors (nil when the replay keeps no
+// Entry is one stored transition (s, a, phi, s', terminal, z) of a
+// Replay. S and Next are integer states (any value, e.g. -1, if there are
+// none); X and NextX are observation vectors (nil when the replay keeps no
 // observations); NextA is the next action to bootstrap from, or -1 for the
 // greedy action of the policy of z. K is the index of z in a set the
 // caller holds (such as Tabular.Z); a replay of feature dimension 0 keeps
 // K in place of Phi and Z (which must then be nil), other replays ignore
 // it.
-type Transition struct {
+type Entry struct {
 	S, A, Next, NextA int
 	Terminal          bool
 	X, NextX          []float64
@@ -77,14 +77,19 @@ func (r *Replay) Cap() int { return r.capacity }
 // Added returns the number of transitions ever added.
 func (r *Replay) Added() int { return r.added }
 
-// Shape returns the observation and feature dimensions.
-func (r *Replay) Shape() (obs, dim int) { return r.obs, r.d }
+// ObsDim returns the observation dimension (0 when the replay keeps
+// states instead of observation vectors).
+func (r *Replay) ObsDim() int { return r.obs }
+
+// Dim returns the feature dimension (0 when the replay keeps set indices
+// instead of phi and z).
+func (r *Replay) Dim() int { return r.d }
 
 // Add stores a copy of t, overwriting the oldest transition when full. It
 // panics if a slice has the wrong length (X and NextX must be nil when the
 // replay keeps no observations, Phi and Z when its dimension is 0). It
 // does not allocate.
-func (r *Replay) Add(t *Transition) {
+func (r *Replay) Add(t *Entry) {
 	if r.d == 0 {
 		if t.Phi != nil || t.Z != nil {
 			panic("usf: replay: features or z given to a replay that keeps set indices")
@@ -125,7 +130,7 @@ func (r *Replay) slot(i int) int {
 	return j
 }
 
-// Transition copies the i-th stored transition, oldest first (i = 0 is the
+// Entry copies the i-th stored transition, oldest first (i = 0 is the
 // oldest, Len()-1 the newest), into dst. It sets S, A, Next, NextA and
 // Terminal, and K when the replay keeps set indices; it copies the
 // observations, features and z the replay keeps into dst.X, dst.NextX,
@@ -133,7 +138,7 @@ func (r *Replay) slot(i int) int {
 // replay's lengths). Fields the replay does not keep are left as they are.
 // It panics if i is outside [0, Len()) or a slice has the wrong length. It
 // does not allocate.
-func (r *Replay) Transition(dst *Transition, i int) {
+func (r *Replay) Entry(dst *Entry, i int) {
 	if uint(i) >= uint(r.size) {
 		panic(fmt.Sprintf("usf: replay: transition %d out of range [0, %d)", i, r.size))
 	}

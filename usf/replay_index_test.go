@@ -8,10 +8,10 @@ import (
 	"testing"
 )
 
-// TestReplayTransition checks that Transition reads the stored
+// TestReplayEntry checks that Entry reads the stored
 // transitions oldest first, before and after the ring wraps, copies into
 // the slices given and leaves nil ones alone.
-func TestReplayTransition(t *testing.T) {
+func TestReplayEntry(t *testing.T) {
 	for _, tc := range []struct {
 		name  string
 		added int
@@ -27,32 +27,32 @@ func TestReplayTransition(t *testing.T) {
 			x, nx, phi, z := []float64{0, 0}, []float64{0, 0}, []float64{0}, []float64{0}
 			for i := 0; i < tc.added; i++ {
 				x[1], nx[1], phi[0], z[0] = float64(i), float64(i+1), float64(-i), float64(2*i)
-				r.Add(&Transition{S: i, A: i % 3, Next: i + 1, NextA: i%2 - 1, Terminal: i%2 == 0, X: x, NextX: nx, Phi: phi, Z: z})
+				r.Add(&Entry{S: i, A: i % 3, Next: i + 1, NextA: i%2 - 1, Terminal: i%2 == 0, X: x, NextX: nx, Phi: phi, Z: z})
 			}
 			if want := min(tc.added, 4); r.Len() != want {
 				t.Fatalf("Len %d, want %d", r.Len(), want)
 			}
-			dst := Transition{X: make([]float64, 2), NextX: make([]float64, 2), Phi: make([]float64, 1), Z: make([]float64, 1)}
+			dst := Entry{X: make([]float64, 2), NextX: make([]float64, 2), Phi: make([]float64, 1), Z: make([]float64, 1)}
 			for i := 0; i < r.Len(); i++ {
-				r.Transition(&dst, i)
+				r.Entry(&dst, i)
 				s := tc.first + i
 				if dst.S != s || dst.A != s%3 || dst.Next != s+1 || dst.NextA != s%2-1 || dst.Terminal != (s%2 == 0) ||
 					dst.X[1] != float64(s) || dst.NextX[1] != float64(s+1) || dst.Phi[0] != float64(-s) || dst.Z[0] != float64(2*s) {
 					t.Fatalf("transition %d = %+v, want the one added with S = %d", i, dst, s)
 				}
 			}
-			var bare Transition
-			r.Transition(&bare, r.Len()-1)
+			var bare Entry
+			r.Entry(&bare, r.Len()-1)
 			if bare.X != nil || bare.Phi != nil || bare.S != tc.first+r.Len()-1 {
 				t.Errorf("nil slices: got %+v", bare)
 			}
-			if !panics(func() { r.Transition(&dst, r.Len()) }) || !panics(func() { r.Transition(&dst, -1) }) {
+			if !panics(func() { r.Entry(&dst, r.Len()) }) || !panics(func() { r.Entry(&dst, -1) }) {
 				t.Error("index out of range accepted")
 			}
-			if !panics(func() { r.Transition(&Transition{Phi: make([]float64, 2)}, 0) }) {
+			if !panics(func() { r.Entry(&Entry{Phi: make([]float64, 2)}, 0) }) {
 				t.Error("wrong feature length accepted")
 			}
-			if n := testing.AllocsPerRun(10, func() { r.Transition(&dst, 0) }); n != 0 {
+			if n := testing.AllocsPerRun(10, func() { r.Entry(&dst, 0) }); n != 0 {
 				t.Errorf("%v allocs, want 0", n)
 			}
 		})
@@ -62,30 +62,30 @@ func TestReplayTransition(t *testing.T) {
 // TestReplayValidate checks each bound of Validate on a replay with one
 // bad transition, and that a zero bound skips its check.
 func TestReplayValidate(t *testing.T) {
-	good := func(i int) Transition {
-		return Transition{S: i % 5, A: i % 3, Next: (i + 1) % 5, NextA: -1, Phi: []float64{1, 0}, Z: []float64{0, 1}}
+	good := func(i int) Entry {
+		return Entry{S: i % 5, A: i % 3, Next: (i + 1) % 5, NextA: -1, Phi: []float64{1, 0}, Z: []float64{0, 1}}
 	}
 	for _, tc := range []struct {
 		name                  string
 		dim                   int
-		bad                   func(*Transition)
+		bad                   func(*Entry)
 		states, actions, sets int
 		err                   error
 	}{
-		{"good", 2, func(*Transition) {}, 5, 3, 0, nil},
-		{"next action given", 2, func(tr *Transition) { tr.NextA = 2 }, 5, 3, 0, nil},
-		{"state", 2, func(tr *Transition) { tr.S = 5 }, 5, 3, 0, ErrDimension},
-		{"negative next state", 2, func(tr *Transition) { tr.Next = -1 }, 5, 3, 0, ErrDimension},
-		{"states unchecked", 2, func(tr *Transition) { tr.Next = -1 }, 0, 3, 0, nil},
-		{"action", 2, func(tr *Transition) { tr.A = 3 }, 5, 3, 0, ErrDimension},
-		{"next action", 2, func(tr *Transition) { tr.NextA = 3 }, 5, 3, 0, ErrDimension},
-		{"actions unchecked", 2, func(tr *Transition) { tr.A = 3 }, 5, 0, 0, nil},
-		{"feature", 2, func(tr *Transition) { tr.Phi = []float64{math.NaN(), 0} }, 5, 3, 0, ErrNonFinite},
-		{"z", 2, func(tr *Transition) { tr.Z = []float64{math.Inf(-1), 0} }, 0, 0, 0, ErrNonFinite},
-		{"index", 0, func(tr *Transition) { tr.K = 4 }, 5, 3, 4, ErrDimension},
-		{"negative index", 0, func(tr *Transition) { tr.K = -1 }, 5, 3, 4, ErrDimension},
-		{"index in range", 0, func(tr *Transition) { tr.K = 3 }, 5, 3, 4, nil},
-		{"indices unchecked", 0, func(tr *Transition) { tr.K = 9 }, 5, 3, 0, nil},
+		{"good", 2, func(*Entry) {}, 5, 3, 0, nil},
+		{"next action given", 2, func(tr *Entry) { tr.NextA = 2 }, 5, 3, 0, nil},
+		{"state", 2, func(tr *Entry) { tr.S = 5 }, 5, 3, 0, ErrDimension},
+		{"negative next state", 2, func(tr *Entry) { tr.Next = -1 }, 5, 3, 0, ErrDimension},
+		{"states unchecked", 2, func(tr *Entry) { tr.Next = -1 }, 0, 3, 0, nil},
+		{"action", 2, func(tr *Entry) { tr.A = 3 }, 5, 3, 0, ErrDimension},
+		{"next action", 2, func(tr *Entry) { tr.NextA = 3 }, 5, 3, 0, ErrDimension},
+		{"actions unchecked", 2, func(tr *Entry) { tr.A = 3 }, 5, 0, 0, nil},
+		{"feature", 2, func(tr *Entry) { tr.Phi = []float64{math.NaN(), 0} }, 5, 3, 0, ErrNonFinite},
+		{"z", 2, func(tr *Entry) { tr.Z = []float64{math.Inf(-1), 0} }, 0, 0, 0, ErrNonFinite},
+		{"index", 0, func(tr *Entry) { tr.K = 4 }, 5, 3, 4, ErrDimension},
+		{"negative index", 0, func(tr *Entry) { tr.K = -1 }, 5, 3, 4, ErrDimension},
+		{"index in range", 0, func(tr *Entry) { tr.K = 3 }, 5, 3, 4, nil},
+		{"indices unchecked", 0, func(tr *Entry) { tr.K = 9 }, 5, 3, 0, nil},
 	} {
 		r, _ := NewReplay(6, 0, tc.dim)
 		for i := 0; i < 9; i++ { // wraps: the bad one (i = 7) is stored transition 4
@@ -129,7 +129,7 @@ func TestReplayIndices(t *testing.T) {
 	}
 	full, _ := NewReplay(50, 0, 3)
 	idx, _ := NewReplay(50, 0, 0)
-	tr := Transition{Phi: make([]float64, 3), Z: make([]float64, 3)}
+	tr := Entry{Phi: make([]float64, 3), Z: make([]float64, 3)}
 	add := func(n int) {
 		for range n {
 			tr.S, tr.A, tr.Next, tr.NextA = rng.IntN(6), rng.IntN(2), rng.IntN(6), -1
@@ -184,14 +184,14 @@ func TestReplayIndices(t *testing.T) {
 	if !bytes.Equal(mustMarshal(t, &loaded), saved) {
 		t.Error("index replay does not round-trip")
 	}
-	if o, d := loaded.Shape(); o != 0 || d != 0 || loaded.Len() != 50 || loaded.Added() != 70 {
+	if o, d := loaded.ObsDim(), loaded.Dim(); o != 0 || d != 0 || loaded.Len() != 50 || loaded.Added() != 70 {
 		t.Errorf("loaded shape %d %d, len %d, added %d", o, d, loaded.Len(), loaded.Added())
 	}
 	for i := 0; i < idx.Len(); i++ {
-		var u, v, w Transition
-		idx.Transition(&u, i)
-		loaded.Transition(&v, i)
-		full.Transition(&w, i)
+		var u, v, w Entry
+		idx.Entry(&u, i)
+		loaded.Entry(&v, i)
+		full.Entry(&w, i)
 		if u.S != v.S || u.A != v.A || u.Next != v.Next || u.NextA != v.NextA || u.Terminal != v.Terminal || u.K != v.K ||
 			u.S != w.S || u.Next != w.Next || u.A != w.A {
 			t.Fatalf("transition %d: %+v, loaded %+v, full replay %+v", i, u, v, w)
@@ -199,7 +199,7 @@ func TestReplayIndices(t *testing.T) {
 	}
 	// Continue both: same bits.
 	idx2 := &loaded
-	ti := Transition{S: 1, A: 1, Next: 2, NextA: -1, K: 3}
+	ti := Entry{S: 1, A: 1, Next: 2, NextA: -1, K: 3}
 	idx.Add(&ti)
 	idx2.Add(&ti)
 	if !bytes.Equal(mustMarshal(t, idx), mustMarshal(t, idx2)) {
@@ -207,7 +207,7 @@ func TestReplayIndices(t *testing.T) {
 	}
 
 	// Misuse panics.
-	if !panics(func() { idx.Add(&Transition{Phi: []float64{1, 2, 3}}) }) {
+	if !panics(func() { idx.Add(&Entry{Phi: []float64{1, 2, 3}}) }) {
 		t.Error("features given to an index replay")
 	}
 	if !panics(func() { idx.Sample(NewBatch(4, 0, 3), rng) }) {

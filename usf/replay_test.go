@@ -16,7 +16,7 @@ func TestReplayRing(t *testing.T) {
 	x, nx, phi, z := []float64{0, 0}, []float64{0, 0}, []float64{0}, []float64{1}
 	for i := 0; i < 10; i++ {
 		x[0], nx[0], phi[0] = float64(i), float64(i+1), float64(-i)
-		r.Add(&Transition{S: i, A: i % 3, Next: i + 1, NextA: -1, Terminal: i%2 == 0, X: x, NextX: nx, Phi: phi, Z: z})
+		r.Add(&Entry{S: i, A: i % 3, Next: i + 1, NextA: -1, Terminal: i%2 == 0, X: x, NextX: nx, Phi: phi, Z: z})
 	}
 	x[0] = 99 // the replay holds copies
 	if r.Len() != 4 || r.Added() != 10 || r.Cap() != 4 {
@@ -38,7 +38,7 @@ func TestReplayRing(t *testing.T) {
 	if len(seen) != 4 {
 		t.Errorf("saw %d distinct transitions in 200 draws, want 4", len(seen))
 	}
-	if !panics(func() { r.Add(&Transition{Phi: []float64{1, 2}, Z: z, X: x, NextX: nx}) }) {
+	if !panics(func() { r.Add(&Entry{Phi: []float64{1, 2}, Z: z, X: x, NextX: nx}) }) {
 		t.Error("wrong feature length accepted")
 	}
 	empty, _ := NewReplay(3, 0, 1)
@@ -54,7 +54,7 @@ func TestReplayRing(t *testing.T) {
 func TestReplayUniform(t *testing.T) {
 	r, _ := NewReplay(10, 0, 1)
 	for i := 0; i < 10; i++ {
-		r.Add(&Transition{S: i, Phi: []float64{0}, Z: []float64{0}})
+		r.Add(&Entry{S: i, Phi: []float64{0}, Z: []float64{0}})
 	}
 	b := NewBatch(20000, 0, 1)
 	r.Sample(b, rand.New(rand.NewPCG(2, 2)))
@@ -73,7 +73,7 @@ func TestReplayUniform(t *testing.T) {
 
 func TestReplayZeroAllocs(t *testing.T) {
 	r, _ := NewReplay(100, 8, 4)
-	tr := &Transition{X: make([]float64, 8), NextX: make([]float64, 8), Phi: make([]float64, 4), Z: make([]float64, 4)}
+	tr := &Entry{X: make([]float64, 8), NextX: make([]float64, 8), Phi: make([]float64, 4), Z: make([]float64, 4)}
 	b := NewBatch(32, 8, 4)
 	rng := rand.New(rand.NewPCG(3, 3))
 	if n := testing.AllocsPerRun(10, func() {

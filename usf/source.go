@@ -24,7 +24,8 @@ type Source struct {
 // z is copied. Errors wrap ErrDimension (a length mismatch) or
 // ErrNonFinite.
 func NewSource(ap Approximator, z []float64, obs Observer) (*Source, error) {
-	no, na, d := ap.Shape()
+	no := ap.ObsDim()
+	na, d := ap.Shape()
 	if len(z) != d {
 		return nil, fmt.Errorf("usf: source: z has length %d, want %d: %w", len(z), d, ErrDimension)
 	}

@@ -7,6 +7,7 @@ import (
 	"testing"
 
 	"github.com/successor-go/successor/gpi"
+	"github.com/successor-go/successor/internal/testtol"
 	"github.com/successor-go/successor/internal/vec"
 )
 
@@ -15,14 +16,16 @@ var _ gpi.Source = (*Source)(nil)
 
 // TestSourceFastAndGeneric checks that the one-hot fast path (PsiState)
 // and the generic path (an Observer writing e_s, then Psi) give the same
-// bits, for the linear USF, and that GPI over sources picks the best z.
+// bits, for the tabular USF, and that GPI over sources picks the best z.
 func TestSourceFastAndGeneric(t *testing.T) {
 	rng := rand.New(rand.NewPCG(8, 8))
-	l, _ := NewLinear(5, 3, 2, 0.9, nil)
-	for i := range l.W {
-		l.W[i] = rng.NormFloat64()
+	z, z2 := []float64{0.6, -0.8}, []float64{1, 0}
+	l, _ := NewTabular(5, 3, [][]float64{z, z2}, 0.9, nil)
+	for _, tab := range l.Tables {
+		for i := range tab.Data {
+			tab.Data[i] = rng.NormFloat64()
+		}
 	}
-	z := []float64{0.6, -0.8}
 	fast, err := NewSource(l, z, nil)
 	if err != nil {
 		t.Fatal(err)
@@ -49,7 +52,6 @@ func TestSourceFastAndGeneric(t *testing.T) {
 	}
 	// GPI over two sources: the action and source must maximise psi . w
 	// over both (checked by brute force here).
-	z2 := []float64{1, 0}
 	src2, _ := NewSource(l, z2, nil)
 	w := []float64{0.3, 0.7}
 	act, which, val := gpi.Act(w, 3, fast, src2)
@@ -62,7 +64,7 @@ func TestSourceFastAndGeneric(t *testing.T) {
 			}
 		}
 	}
-	if act != ba || which != bi || math.Abs(val-best) > tolExact {
+	if act != ba || which != bi || math.Abs(val-best) > testtol.Exact {
 		t.Fatalf("gpi.Act = (%d, %d, %v), brute force (%d, %d, %v)", act, which, val, ba, bi, best)
 	}
 	if _, err := NewSource(l, []float64{1}, nil); !errors.Is(err, ErrDimension) {
@@ -98,7 +100,7 @@ func TestCandidates(t *testing.T) {
 		}
 		var mean, sumSq float64
 		for _, z := range c[1:] {
-			if math.Abs(vec.Dot(z, z)-1) > 1e-12 {
+			if math.Abs(vec.Dot(z, z)-1) > testtol.Exact {
 				t.Fatal("candidate not on the unit sphere")
 			}
 			cos := vec.Dot(z, []float64{0.6, 0, 0.8})

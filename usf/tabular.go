@@ -5,16 +5,18 @@ import (
 	"math"
 	"math/rand/v2"
 
+	"github.com/successor-go/successor/internal/vec"
 	"github.com/successor-go/successor/sf"
 )
 
 // TabularConfig configures a Tabular approximator. A nil *TabularConfig
 // means the zero value.
 type TabularConfig struct {
-	// Step is the step-size schedule, with the meaning of sf.StepSize
-	// (alpha_n = Alpha/(1+n)^Power after n earlier updates of the same
+	// Schedule is the step-size schedule, with the meaning of
+	// sf.StepSchedule (alpha_n = StepSize/(1+n)^Power after n earlier
+	// updates of the same
 	// (z, s, a)); the zero value is the constant step 0.1.
-	Step sf.StepSize
+	Schedule sf.StepSchedule
 }
 
 // Tabular is a universal SF over a finite set of vectors z_1..z_K: one
@@ -74,7 +76,7 @@ func NewTabular(states, actions int, zs [][]float64, gamma float64, cfg *Tabular
 	if cfg != nil {
 		c = *cfg
 	}
-	alpha, power, err := resolveStep(c.Step)
+	alpha, power, err := resolveStep(c.Schedule)
 	if err != nil {
 		return nil, fmt.Errorf("usf: tabular: %w", err)
 	}
@@ -191,15 +193,15 @@ func (t *Tabular) hashZ(z []float64) uint64 {
 	return h
 }
 
-// resolveStep applies the defaults of sf.StepSize.
-func resolveStep(st sf.StepSize) (alpha, power float64, err error) {
+// resolveStep applies the defaults of sf.StepSchedule.
+func resolveStep(st sf.StepSchedule) (alpha, power float64, err error) {
 	if !(st.Power >= 0 && st.Power <= 1) {
 		return 0, 0, fmt.Errorf("step power %v outside [0, 1]: %w", st.Power, ErrConfig)
 	}
-	if !(st.Alpha >= 0 && st.Alpha <= 1) {
-		return 0, 0, fmt.Errorf("step %v outside [0, 1]: %w", st.Alpha, ErrConfig)
+	if !(st.StepSize >= 0 && st.StepSize <= 1) {
+		return 0, 0, fmt.Errorf("step %v outside [0, 1]: %w", st.StepSize, ErrConfig)
 	}
-	alpha = st.Alpha
+	alpha = st.StepSize
 	if alpha == 0 {
 		alpha = 0.1
 		if st.Power > 0 {
@@ -209,11 +211,15 @@ func resolveStep(st sf.StepSize) (alpha, power float64, err error) {
 	return alpha, st.Power, nil
 }
 
-// Shape returns the number of states (the one-hot observation dimension),
-// actions and features.
-func (t *Tabular) Shape() (obs, actions, dim int) {
+// ObsDim returns the number of states, the dimension of the one-hot
+// observations.
+func (t *Tabular) ObsDim() int { return t.Tables[0].S }
+
+// Shape returns the number of actions and the feature dimension, the shape
+// of psi(s, ., z) (as sf.Table.Shape).
+func (t *Tabular) Shape() (actions, dim int) {
 	tab := t.Tables[0]
-	return tab.S, tab.A, tab.D
+	return tab.A, tab.D
 }
 
 // Index returns the lowest k with Z[k] equal to z (every component ==),
@@ -262,7 +268,7 @@ func (t *Tabular) mustIndex(z []float64) int {
 // Psi writes psi(s, ., z) for the state s of the one-hot x. It panics if x
 // is not one-hot, z is not in the set or len(dst) != A*d.
 func (t *Tabular) Psi(dst, x, z []float64) {
-	s, _, _ := t.Shape()
+	s := t.ObsDim()
 	checkLen("tabular", "observation", x, s)
 	t.PsiState(dst, hotIndex("tabular", x), z)
 }
@@ -294,7 +300,8 @@ func (t *Tabular) Update(b *Batch) (float64, error) {
 	if t.err != nil {
 		return 0, t.err
 	}
-	ns, na, d := t.Shape()
+	ns := t.ObsDim()
+	na, d := t.Shape()
 	n := b.Len()
 	indexed := b.S != nil && b.Next != nil
 	byIndex := b.K != nil
@@ -368,7 +375,7 @@ func (t *Tabular) Update(b *Batch) (float64, error) {
 			return 0, t.err
 		}
 		if t.q != nil {
-			t.q[(k*ns+s)*na+a] = dotSeq(row, z)
+			t.q[(k*ns+s)*na+a] = vec.DotSeq(row, z)
 		}
 		loss += sq
 	}
@@ -378,31 +385,20 @@ func (t *Tabular) Update(b *Batch) (float64, error) {
 	return loss / (2 * float64(n)), nil
 }
 
-// dotSeq returns x . y summed left to right. The cache of action values
-// uses it (rather than the four-way sum of the package's other inner
-// products) so that its argmax, and the runs built on it, keep their bits.
-func dotSeq(x, y []float64) float64 {
-	var s float64
-	y = y[:len(x)]
-	for i, v := range x {
-		s += v * y[i]
-	}
-	return s
-}
-
 // values returns the cache of action values, building it from the tables
 // if it is not there (after NewTabular or UnmarshalBinary).
 func (t *Tabular) values() []float64 {
 	if t.q != nil {
 		return t.q
 	}
-	ns, na, _ := t.Shape()
+	ns := t.ObsDim()
+	na, _ := t.Shape()
 	q := make([]float64, len(t.Z)*ns*na)
 	for k, z := range t.Z {
 		tab := t.Tables[k]
 		for s := range ns {
 			for a := range na {
-				q[(k*ns+s)*na+a] = dotSeq(tab.Row(s, a), z)
+				q[(k*ns+s)*na+a] = vec.DotSeq(tab.Row(s, a), z)
 			}
 		}
 	}
@@ -418,7 +414,8 @@ func (t *Tabular) values() []float64 {
 // which Values and Greedy may be called concurrently (but not with an
 // update). It panics if k or s is out of range.
 func (t *Tabular) Values(k, s int) []float64 {
-	ns, na, _ := t.Shape()
+	ns := t.ObsDim()
+	na, _ := t.Shape()
 	if uint(k) >= uint(len(t.Z)) || uint(s) >= uint(ns) {
 		panic(fmt.Sprintf("usf: tabular: values of z %d in state %d out of range", k, s))
 	}
@@ -431,18 +428,7 @@ func (t *Tabular) Values(k, s int) []float64 {
 // action. It panics if k or s is out of range. It does not allocate once
 // the cache is built.
 func (t *Tabular) Greedy(k, s int) int {
-	return argmaxFirst(t.Values(k, s))
-}
-
-// argmaxFirst returns the index of the largest value, ties to the lowest.
-func argmaxFirst(q []float64) int {
-	best, arg := math.Inf(-1), 0
-	for i, v := range q {
-		if v > best {
-			best, arg = v, i
-		}
-	}
-	return arg
+	return vec.Argmax(t.Values(k, s))
 }
 
 // TDStats accumulates the squared TD errors of updates: SumSq is the sum
@@ -485,18 +471,19 @@ func (st TDStats) Mean() float64 {
 // nil if extra is 0). Every update adds to st, if it is not nil, the
 // squared TD error per feature, recovered from the change of the row as
 // ||change||^2 / (alpha^2 d). The step alpha follows the schedule of
-// TabularConfig.Step; each update counts as one step (Steps).
+// TabularConfig.Schedule; each update counts as one step (Steps).
 //
 // It returns an error wrapping a *sf.DivergenceError (ErrDiverged) if a
 // row becomes non-finite, naming the set index; the Tabular is then
 // unusable. It panics if b is malformed (S or Next nil), extra < 0, a
 // state, action or index is out of range, a z is not in the set, or rng
 // is nil with extra > 0. It does not allocate once the cache is built.
-func (t *Tabular) UpdateRelabel(b *Batch, extra int, rng *rand.Rand, st *TDStats) error {
+func (t *Tabular) UpdateRelabel(b *Batch, extra int, st *TDStats, rng *rand.Rand) error {
 	if t.err != nil {
 		return t.err
 	}
-	ns, na, d := t.Shape()
+	ns := t.ObsDim()
+	na, d := t.Shape()
 	n := b.Len()
 	if b.S == nil || b.Next == nil || len(b.S) != n || len(b.Next) != n {
 		panic("usf: tabular: relabel: batch needs S and Next, one entry per transition")
@@ -533,7 +520,7 @@ func (t *Tabular) UpdateRelabel(b *Batch, extra int, rng *rand.Rand, st *TDStats
 			row := tab.Row(s, a)
 			var nrow []float64
 			if !term {
-				nrow = tab.Row(next, argmaxFirst(q[(k*ns+next)*na:(k*ns+next+1)*na]))
+				nrow = tab.Row(next, vec.Argmax(q[(k*ns+next)*na:(k*ns+next+1)*na]))
 			}
 			step := t.alpha
 			if t.visits != nil {
@@ -547,7 +534,7 @@ func (t *Tabular) UpdateRelabel(b *Batch, extra int, rng *rand.Rand, st *TDStats
 				t.err = &sf.DivergenceError{Learner: "usf tabular", Step: t.steps, State: s, Action: a}
 				return fmt.Errorf("usf: tabular: relabel: z %d: %w", k, t.err)
 			}
-			q[(k*ns+s)*na+a] = dotSeq(row, t.Z[k])
+			q[(k*ns+s)*na+a] = vec.DotSeq(row, t.Z[k])
 			if st != nil {
 				st.SumSq += sq * (1 / (step * step)) / float64(d)
 				st.N++

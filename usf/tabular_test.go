@@ -26,18 +26,18 @@ func TestTabularMatchesExact(t *testing.T) {
 		seed      uint64
 		branching int
 		terminal  float64
-		step      sf.StepSize
+		step      sf.StepSchedule
 		updates   int
 		tol       float64
 	}{
-		{"deterministic", 5, 1, 0.25, sf.StepSize{Alpha: 1}, 100_000, 1e-6},
-		{"continuing", 1, 3, 0, sf.StepSize{Alpha: 1, Power: 0.7}, 1_600_000, 0.05},
+		{"deterministic", 5, 1, 0.25, sf.StepSchedule{StepSize: 1}, 100_000, 1e-6},
+		{"continuing", 1, 3, 0, sf.StepSchedule{StepSize: 1, Power: 0.7}, 1_600_000, 0.05},
 	} {
 		t.Run(tc.name, func(t *testing.T) {
 			p := randomProblemBranching(t, tc.seed, 8, 3, 3, tc.branching, tc.terminal)
 			rng := rand.New(rand.NewPCG(tc.seed, 99))
 			zs := wellSeparated(t, p, rng, 4, 3, 0.05)
-			tab, err := NewTabular(8, 3, zs, p.gamma, &TabularConfig{Step: tc.step})
+			tab, err := NewTabular(8, 3, zs, p.gamma, &TabularConfig{Schedule: tc.step})
 			if err != nil {
 				t.Fatal(err)
 			}
@@ -112,7 +112,7 @@ func TestTabularOneHotBatch(t *testing.T) {
 // gamma 0.5, step 0.5, a two-state chain; derived by hand, see comment.
 func TestTabularHandExample(t *testing.T) {
 	z := []float64{1, 0}
-	tab, _ := NewTabular(2, 2, [][]float64{z}, 0.5, &TabularConfig{Step: sf.StepSize{Alpha: 0.5}})
+	tab, _ := NewTabular(2, 2, [][]float64{z}, 0.5, &TabularConfig{Schedule: sf.StepSchedule{StepSize: 0.5}})
 	// psi(1, 0) = (2, 0), psi(1, 1) = (0, 4): greedy in psi . z picks action 0.
 	copy(tab.Tables[0].Row(1, 0), []float64{2, 0})
 	copy(tab.Tables[0].Row(1, 1), []float64{0, 4})
@@ -157,7 +157,7 @@ func TestNewTabularErrors(t *testing.T) {
 		{"ragged", ErrDimension, func() error { _, err := NewTabular(2, 2, [][]float64{{1}, {1, 2}}, 0.9, nil); return err }},
 		{"states", ErrDimension, func() error { _, err := NewTabular(0, 2, z, 0.9, nil); return err }},
 		{"step", ErrConfig, func() error {
-			_, err := NewTabular(2, 2, z, 0.9, &TabularConfig{Step: sf.StepSize{Power: 2}})
+			_, err := NewTabular(2, 2, z, 0.9, &TabularConfig{Schedule: sf.StepSchedule{Power: 2}})
 			return err
 		}},
 	} {

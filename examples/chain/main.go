@@ -98,11 +98,11 @@ func parse(args []string, stderr io.Writer) (*config, error) {
 
 // walk returns the random walk: states 0..6, 0 and 6 terminal, start 3.
 func walk() (*mdp.Finite, error) {
-	var tr []mdp.Transition
+	var tr []mdp.ProbEntry
 	for s := 1; s <= 5; s++ {
 		tr = append(tr,
-			mdp.Transition{State: s, Action: 0, Next: s - 1, Prob: 1},
-			mdp.Transition{State: s, Action: 1, Next: s + 1, Prob: 1})
+			mdp.ProbEntry{State: s, Action: 0, Next: s - 1, Prob: 1},
+			mdp.ProbEntry{State: s, Action: 1, Next: s + 1, Prob: 1})
 	}
 	return mdp.New(7, 2, tr,
 		[]bool{true, false, false, false, false, false, true},
@@ -128,7 +128,7 @@ func run(args []string, stdout, stderr io.Writer) error {
 	if err != nil {
 		return err
 	}
-	td, err := sf.NewTD(t, phi, 1, &sf.TDSettings{Target: c.target, Policy: pi, Step: sf.StepSize{Power: c.power}})
+	td, err := sf.NewTD(t, phi, 1, &sf.TDConfig{Target: c.target, Policy: pi, Schedule: sf.StepSchedule{Power: c.power}})
 	if err != nil {
 		return err
 	}
@@ -147,17 +147,17 @@ func run(args []string, stdout, stderr io.Writer) error {
 	done, episodes := 0, 0
 	for _, budget := range c.budgets {
 		for ; done < budget; done++ {
-			next, terminal, _ := env.Step(a, rng)
+			out := env.Step(a, rng)
 			a2 := rng.IntN(2)
-			if err := td.Update(s, a, next, terminal, a2); err != nil {
+			if err := td.Update(s, a, out.Next, out.Terminal(), a2); err != nil {
 				return err
 			}
-			if terminal {
+			if out.Done() {
 				episodes++
 				s, a = env.Reset(rng), rng.IntN(2)
 				continue
 			}
-			s, a = next, a2
+			s, a = out.Next, a2
 		}
 		var worst float64
 		for st := 1; st <= 5; st++ {

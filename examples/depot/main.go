@@ -66,23 +66,23 @@ import (
 
 // options are the command-line settings.
 type options struct {
-	budget     int
-	seeds      int
-	firstSeed  uint64
-	methods    []transfer.Method
-	out        string
-	quick      bool
-	workers    int
-	steps      int
-	cpuProfile string
-	noPlots    bool
-	explore    transfer.Explore
-	dim        int
-	discRate   float64
-	discOptim  skills.OptimMethod
-	skills     int
-	candidates int
-	ckptDir    string
+	budget       int
+	seeds        int
+	firstSeed    uint64
+	methods      []transfer.Method
+	out          string
+	quick        bool
+	workers      int
+	steps        int
+	cpuProfile   string
+	noPlots      bool
+	explore      transfer.Explore
+	dim          int
+	discStepSize float64
+	discOptim    skills.OptimMethod
+	skills       int
+	candidates   int
+	ckptDir      string
 }
 
 // errUsage marks a bad command line (exit status 2).
@@ -115,7 +115,7 @@ func parseFlags(args []string, stderr io.Writer) (*options, error) {
 	fs.StringVar(&o.cpuProfile, "cpuprofile", "", "write a CPU profile of the whole run to this file")
 	fs.BoolVar(&o.noPlots, "noplots", false, "skip the PNG and SVG figures (the NumPy arrays are still written)")
 	fs.IntVar(&o.dim, "dim", 0, "feature dimension d of the sphere methods vmf and random (0: the demo's default, 64); categorical's is skills+1, given's the number of place features")
-	fs.Float64Var(&o.discRate, "discrate", 0, "step size of the discriminator's Adam (0: transfer's default)")
+	fs.Float64Var(&o.discStepSize, "discrate", 0, "step size of the discriminator's Adam (0: transfer's default)")
 	fs.TextVar(&o.discOptim, "discoptim", skills.OptimAdam, "discriminator optimiser: adam, or sparse-adam (only the minibatch's states and the bias; faster, transferred worse on this depot)")
 	fs.IntVar(&o.skills, "skills", 0, "number of skills K of every method (0: the demo's default, 128 for vmf, random and given, 64 for categorical)")
 	fs.IntVar(&o.candidates, "candidates", 0, "GPI candidates: the skills nearest the inferred task (0: transfer's default)")
@@ -174,8 +174,8 @@ func parseFlags(args []string, stderr io.Writer) (*options, error) {
 		return nil, fmt.Errorf("%w: -steps %d: must be at least 1", errUsage, o.steps)
 	case o.workers < 0:
 		return nil, fmt.Errorf("%w: -workers %d: must not be negative", errUsage, o.workers)
-	case !(o.discRate >= 0) || o.discRate > 1e6:
-		return nil, fmt.Errorf("%w: -discrate %v: want 0 (default) or a positive step size", errUsage, o.discRate)
+	case !(o.discStepSize >= 0) || o.discStepSize > 1e6:
+		return nil, fmt.Errorf("%w: -discrate %v: want 0 (default) or a positive step size", errUsage, o.discStepSize)
 	case o.dim < 0 || o.dim == 1 || o.skills < 0 || o.candidates < 0:
 		return nil, fmt.Errorf("%w: -dim %d, -skills %d, -candidates %d: want 0 (default) or at least 2, 1 and 1", errUsage, o.dim, o.skills, o.candidates)
 	case o.out == "":
@@ -377,7 +377,7 @@ func methodConfigs(o *options) []transfer.PretrainConfig {
 			SkillGamma:   0.99, // skill horizon: long enough to cross the floor
 			Steps:        o.steps,
 			EpisodeSteps: 50,
-			DiscRate:     o.discRate, // 0: transfer's default
+			DiscStepSize: o.discStepSize, // 0: transfer's default
 			DiscOptim:    o.discOptim,
 		}
 		switch m {

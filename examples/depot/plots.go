@@ -59,11 +59,11 @@ func prepare(g *mdp.Grid, e *experiment.Experiment, res *experiment.Results, kep
 		}
 		budget := e.Budgets[len(e.Budgets)-1]
 		env := mdp.NewSampler(e.Task, e.Adapt.EpisodeSteps)
-		lab, err := transfer.Collect(env, ag, reward, budget, e.Adapt, experiment.DeriveSeed(o.seed, 1000))
+		lab, err := transfer.Collect(env, ag, reward, budget, &e.Adapt, experiment.CollectRand(o.seed, 0))
 		if err != nil {
 			return nil, err
 		}
-		pol, err := transfer.Adapt(ag, lab, e.Adapt)
+		pol, err := transfer.Adapt(ag, lab, &e.Adapt)
 		if err != nil {
 			return nil, err
 		}

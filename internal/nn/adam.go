@@ -6,17 +6,17 @@ import (
 )
 
 // AdamConfig holds the Adam hyperparameters. Zero fields mean the defaults
-// of Kingma & Ba 2015, Algorithm 1: LR 0.001, Beta1 0.9, Beta2 0.999,
+// of Kingma & Ba 2015, Algorithm 1: StepSize 0.001, Beta1 0.9, Beta2 0.999,
 // Eps 1e-8.
 type AdamConfig struct {
-	LR, Beta1, Beta2, Eps float64
+	StepSize, Beta1, Beta2, Eps float64
 }
 
-// WithDefaults returns c with every zero field set to its default: LR
-// 0.001, Beta1 0.9, Beta2 0.999, Eps 1e-8 (Kingma & Ba 2015, Algorithm 1).
+// WithDefaults returns c with every zero field set to its default:
+// StepSize 0.001, Beta1 0.9, Beta2 0.999, Eps 1e-8 (Kingma & Ba 2015, Algorithm 1).
 func (c AdamConfig) WithDefaults() AdamConfig {
-	if c.LR == 0 {
-		c.LR = 0.001
+	if c.StepSize == 0 {
+		c.StepSize = 0.001
 	}
 	if c.Beta1 == 0 {
 		c.Beta1 = 0.9
@@ -33,7 +33,7 @@ func (c AdamConfig) WithDefaults() AdamConfig {
 // Adam is the Adam optimiser (Kingma & Ba 2015, Algorithm 1) over a flat
 // parameter vector; see the package doc for the update.
 type Adam struct {
-	LR, Beta1, Beta2, Eps float64
+	StepSize, Beta1, Beta2, Eps float64
 	// T is the number of steps taken; the bias corrections use it.
 	T int
 	// M and V are the first and second moment estimates.
@@ -51,7 +51,7 @@ func NewAdam(n int, cfg *AdamConfig) *Adam {
 		c = *cfg
 	}
 	c = c.WithDefaults()
-	return &Adam{LR: c.LR, Beta1: c.Beta1, Beta2: c.Beta2, Eps: c.Eps, M: make([]float64, n), V: make([]float64, n)}
+	return &Adam{StepSize: c.StepSize, Beta1: c.Beta1, Beta2: c.Beta2, Eps: c.Eps, M: make([]float64, n), V: make([]float64, n)}
 }
 
 // Step applies one Adam update to params with gradient g. It panics if the
@@ -70,7 +70,7 @@ func (o *Adam) Step(params, g []float64) {
 		v[i] = b2*v[i] + (1-b2)*gi*gi
 		mh := m[i] / c1
 		vh := v[i] / c2
-		params[i] -= o.LR * mh / (math.Sqrt(vh) + o.Eps)
+		params[i] -= o.StepSize * mh / (math.Sqrt(vh) + o.Eps)
 	}
 }
 

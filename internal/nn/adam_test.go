@@ -11,7 +11,7 @@ import (
 // -lr g / (|g| + eps), about -lr sign(g) (the paper's section 2.1).
 func TestAdamStep(t *testing.T) {
 	const tol = 1e-15 // a few roundings of values near 1
-	o := NewAdam(3, &AdamConfig{LR: 0.1, Eps: 1e-8})
+	o := NewAdam(3, &AdamConfig{StepSize: 0.1, Eps: 1e-8})
 	p := []float64{1, -2, 0.5}
 	g := []float64{4, -0.25, 0}
 	o.Step(p, g)
@@ -43,7 +43,7 @@ func TestAdamStep(t *testing.T) {
 }
 
 func TestAdamClone(t *testing.T) {
-	o := NewAdam(2, &AdamConfig{LR: 0.05, Beta1: 0.8})
+	o := NewAdam(2, &AdamConfig{StepSize: 0.05, Beta1: 0.8})
 	p := []float64{1, 2}
 	o.Step(p, []float64{0.3, -0.7})
 	c := o.Clone()
@@ -61,8 +61,8 @@ func TestAdamClone(t *testing.T) {
 	if o.T != 2 || o.M[0] == 0 || o.V[1] == 0 {
 		t.Errorf("Reset of the clone changed the original: T = %d, M = %v, V = %v", o.T, o.M, o.V)
 	}
-	if c.LR != 0.05 || c.Beta1 != 0.8 {
-		t.Errorf("clone hyperparameters LR %v, Beta1 %v", c.LR, c.Beta1)
+	if c.StepSize != 0.05 || c.Beta1 != 0.8 {
+		t.Errorf("clone hyperparameters StepSize %v, Beta1 %v", c.StepSize, c.Beta1)
 	}
 }
 
@@ -70,15 +70,15 @@ func TestAdamClone(t *testing.T) {
 // caption of Algorithm 1 (alpha = 0.001, beta1 = 0.9, beta2 = 0.999,
 // eps = 1e-8), and that set fields are kept.
 func TestAdamDefaults(t *testing.T) {
-	want := AdamConfig{LR: 0.001, Beta1: 0.9, Beta2: 0.999, Eps: 1e-8}
+	want := AdamConfig{StepSize: 0.001, Beta1: 0.9, Beta2: 0.999, Eps: 1e-8}
 	if got := (AdamConfig{}).WithDefaults(); got != want {
 		t.Errorf("zero config: %+v, want %+v", got, want)
 	}
-	if o := NewAdam(1, nil); (AdamConfig{o.LR, o.Beta1, o.Beta2, o.Eps}) != want {
+	if o := NewAdam(1, nil); (AdamConfig{o.StepSize, o.Beta1, o.Beta2, o.Eps}) != want {
 		t.Errorf("NewAdam(nil): %+v", o)
 	}
-	set := AdamConfig{LR: 0.5, Beta2: 0.9}
-	want.LR, want.Beta2 = 0.5, 0.9
+	set := AdamConfig{StepSize: 0.5, Beta2: 0.9}
+	want.StepSize, want.Beta2 = 0.5, 0.9
 	if got := set.WithDefaults(); got != want {
 		t.Errorf("partial config: %+v, want %+v", got, want)
 	}

@@ -85,7 +85,7 @@ func (m *MLP) UnmarshalBinary(data []byte) error {
 func (o *Adam) MarshalBinary() ([]byte, error) {
 	e := fileio.NewEncoder(adamMagic, binVersion, 8+4*8+8+16*len(o.M))
 	e.Int(len(o.M))
-	e.Float64(o.LR)
+	e.Float64(o.StepSize)
 	e.Float64(o.Beta1)
 	e.Float64(o.Beta2)
 	e.Float64(o.Eps)
@@ -121,7 +121,7 @@ func (o *Adam) UnmarshalBinary(data []byte) error {
 	if d.Count("moments", 16, n) != n {
 		return d.Err()
 	}
-	a := &Adam{LR: lr, Beta1: b1, Beta2: b2, Eps: eps, T: t, M: d.Float64s("m", n), V: d.Float64s("v", n)}
+	a := &Adam{StepSize: lr, Beta1: b1, Beta2: b2, Eps: eps, T: t, M: d.Float64s("m", n), V: d.Float64s("v", n)}
 	if err := d.Finish(); err != nil {
 		return err
 	}

@@ -46,11 +46,11 @@ func TestSaveLoadResume(t *testing.T) {
 	target := randSlice(rng, n*3)
 
 	a, _ := New(cfg, rand.New(rand.NewPCG(1, 1)))
-	oa := NewAdam(a.NumParams(), &AdamConfig{LR: 0.01})
+	oa := NewAdam(a.NumParams(), &AdamConfig{StepSize: 0.01})
 	trainSteps(a, oa, x, target, n, 2*steps)
 
 	b, _ := New(cfg, rand.New(rand.NewPCG(1, 1)))
-	ob := NewAdam(b.NumParams(), &AdamConfig{LR: 0.01})
+	ob := NewAdam(b.NumParams(), &AdamConfig{StepSize: 0.01})
 	trainSteps(b, ob, x, target, n, steps)
 	nb, err := b.MarshalBinary()
 	if err != nil {

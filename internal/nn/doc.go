@@ -14,7 +14,7 @@
 //	loss := nn.MSE(dy, y, t, mask, n)  // or nn.SoftmaxCrossEntropy(dy, y, labels, n, out)
 //	net.Backward(dx, dy)           // writes net.Grad() (overwrites); dx may be nil
 //	nn.ClipNorm(net.Grad(), 10)    // global L2 norm clipping, returns the norm
-//	opt := nn.NewAdam(net.NumParams(), &nn.AdamConfig{LR: 1e-3})
+//	opt := nn.NewAdam(net.NumParams(), &nn.AdamConfig{StepSize: 1e-3})
 //	opt.Step(net.Params(), net.Grad())
 //	target := net.Clone()          // target network
 //	target.CopyFrom(net)           // hard refresh, or

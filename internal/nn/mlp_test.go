@@ -189,7 +189,7 @@ func TestGemmBlocks(t *testing.T) {
 //
 // The constants below are these numbers; the test allows 1e-12.
 func TestAdamTwoSteps(t *testing.T) {
-	o := NewAdam(1, &AdamConfig{LR: 0.1})
+	o := NewAdam(1, &AdamConfig{StepSize: 0.1})
 	theta := []float64{1}
 	o.Step(theta, []float64{2})
 	want1 := 1 - 0.1*2/(2+1e-8) // derived by hand, see comment

@@ -11,9 +11,11 @@
 // (s_0 + s_1) + (s_2 + s_3). The order is fixed: results are reproducible
 // bit for bit, and differ from a left-to-right sum only by rounding. Code
 // whose results were defined with another order (a left-to-right sum, say)
-// keeps its own loop, since changing the order changes the bits.
+// uses DotSeq, the plain left-to-right sum, since changing the order
+// changes the bits.
 //
 // Argmax returns the index of the largest entry, the lowest among ties;
-// ArgmaxRandom breaks ties uniformly at random. SampleSphere draws a point
+// ArgmaxRandom and ArgmaxReservoir break ties uniformly at random (one draw
+// on a final tie, or one draw per tie met on the way). SampleSphere draws a point
 // uniformly from the unit sphere.
 package vec

@@ -26,6 +26,21 @@ func Dot(x, y []float64) float64 {
 	return (s0 + s1) + (s2 + s3)
 }
 
+// DotSeq returns x . y over the len(x) entries of x, summed left to right
+// with one accumulator. It is for results that were defined with that order
+// (the skills' features and rewards, the universal SFs' cached action
+// values, the transfer agent's similarities and rewards): Dot sums in
+// another order and would change their bits. It panics if len(y) < len(x).
+// It does not allocate.
+func DotSeq(x, y []float64) float64 {
+	var s float64
+	y = y[:len(x)]
+	for i, v := range x {
+		s += v * y[i]
+	}
+	return s
+}
+
 // Argmax returns the index of the largest entry of x, the lowest index
 // among ties. Entries that are NaN are never larger than another entry, so
 // they are passed over, except that 0 is returned when x[0] is NaN and no
@@ -98,4 +113,31 @@ func SampleSphere(dst []float64, rng *rand.Rand) {
 			return
 		}
 	}
+}
+
+// ArgmaxReservoir returns an index of the largest entry of x, ties broken
+// uniformly at random by reservoir sampling in one pass: starting from
+// -Inf, an entry above the best so far takes its place, and the j-th entry
+// equal to the best so far (counting the one that set it) takes it when
+// rng.IntN(j) == 0. So it draws once for every entry equal to the running
+// best after the first, a different use of rng from ArgmaxRandom's (which
+// draws once, only on a final tie); the learners whose runs were defined
+// with this rule keep their bits. NaN entries are passed over; when no
+// entry is above -Inf (all -Inf or NaN), -Inf entries count as ties. With
+// a nil rng the lowest index among ties is returned and nothing is drawn.
+// It returns 0 for an empty x. It does not allocate.
+func ArgmaxReservoir(x []float64, rng *rand.Rand) int {
+	best, arg, ties := math.Inf(-1), 0, 0
+	for i, v := range x {
+		switch {
+		case v > best:
+			best, arg, ties = v, i, 1
+		case v == best && rng != nil:
+			ties++
+			if rng.IntN(ties) == 0 {
+				arg = i
+			}
+		}
+	}
+	return arg
 }

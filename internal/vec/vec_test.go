@@ -73,6 +73,13 @@ func TestDotAllocs(t *testing.T) {
 	if n := testing.AllocsPerRun(100, func() { Dot(x, y) }); n != 0 {
 		t.Errorf("Dot allocates %v times per call", n)
 	}
+	if n := testing.AllocsPerRun(100, func() { DotSeq(x, y) }); n != 0 {
+		t.Errorf("DotSeq allocates %v times per call", n)
+	}
+	rng := rand.New(rand.NewPCG(1, 1))
+	if n := testing.AllocsPerRun(100, func() { ArgmaxReservoir(x, rng) }); n != 0 {
+		t.Errorf("ArgmaxReservoir allocates %v times per call", n)
+	}
 }
 
 func BenchmarkDot(b *testing.B) {
@@ -209,5 +216,87 @@ func TestSampleSphere(t *testing.T) {
 				}
 			}
 		}
+	}
+}
+
+// TestDotSeq checks the left-to-right order on the cases where it differs
+// from Dot's (derived by hand, see each comment).
+func TestDotSeq(t *testing.T) {
+	t.Parallel()
+	const big = 1 << 53
+	for _, tc := range []struct {
+		name string
+		x, y []float64
+		want float64
+	}{
+		{"empty", nil, nil, 0},
+		// 1*4 + 2*5 + 3*6 = 32.
+		{"three", []float64{1, 2, 3}, []float64{4, 5, 6}, 32},
+		{"y longer", []float64{1, 1}, []float64{2, 3, 100}, 5},
+		// ((2^53 + 1) + 1) - 2^53: each 2^53 + 1 rounds back to 2^53, so 0
+		// (Dot gives 1 on the same vectors).
+		{"left to right", []float64{big, 1, 1, -big}, []float64{1, 1, 1, 1}, 0},
+		// (2^53 - 2^53) + 1 = 1 (Dot gives 0).
+		{"tail", []float64{big, -big, 0, 0, 1}, []float64{1, 1, 1, 1, 1}, 1},
+	} {
+		if got := DotSeq(tc.x, tc.y); math.Float64bits(got) != math.Float64bits(tc.want) {
+			t.Errorf("%s: DotSeq = %v, want %v", tc.name, got, tc.want)
+		}
+	}
+}
+
+// TestArgmaxReservoir checks the lowest index with a nil rng, uniform
+// choice among tied maxima, and the draws it makes: one rng.IntN(j) for
+// the j-th entry equal to the running best (j >= 2), none otherwise.
+func TestArgmaxReservoir(t *testing.T) {
+	t.Parallel()
+	nan, inf := math.NaN(), math.Inf(-1)
+	for _, tc := range []struct {
+		name string
+		x    []float64
+		want int // derived by hand: the first index of the largest value
+	}{
+		{"empty", nil, 0},
+		{"last", []float64{1, 2, 3}, 2},
+		{"tie to the lowest", []float64{0, 5, 1, 5, 5}, 1},
+		{"nan passed over", []float64{nan, 1, nan, 3}, 3},
+		{"all -Inf", []float64{inf, inf}, 0},
+	} {
+		if got := ArgmaxReservoir(tc.x, nil); got != tc.want {
+			t.Errorf("%s: ArgmaxReservoir(%v, nil) = %d, want %d", tc.name, tc.x, got, tc.want)
+		}
+	}
+	rng := rand.New(rand.NewPCG(5, 6))
+	x := []float64{1, 4, 0, 4, 4, -1}
+	const n = 30000
+	counts := make([]int, len(x))
+	for range n {
+		counts[ArgmaxReservoir(x, rng)]++
+	}
+	// As in TestArgmaxRandom: binomial counts with mean n/3 and standard
+	// deviation 81.6 (derived by hand); allow 4 of them.
+	for i, c := range counts {
+		want := 0.0
+		if x[i] == 4 {
+			want = n / 3.0
+		}
+		if math.Abs(float64(c)-want) > 4*math.Sqrt(n*(1.0/3)*(2.0/3)) {
+			t.Errorf("index %d drawn %d times of %d, want about %.0f", i, c, n, want)
+		}
+	}
+	// The draws: {3, 3, 1, 3} ties at index 1 (IntN(2)) and index 3
+	// (IntN(3)); replaying them on a twin generator gives the same choice
+	// and leaves both generators at the same point.
+	a, b := rand.New(rand.NewPCG(7, 8)), rand.New(rand.NewPCG(7, 8))
+	got := ArgmaxReservoir([]float64{3, 3, 1, 3}, a)
+	want := 0
+	if b.IntN(2) == 0 {
+		want = 1
+	}
+	if b.IntN(3) == 0 {
+		want = 3
+	}
+	if got != want || a.Uint64() != b.Uint64() {
+		t.Errorf("ArgmaxReservoir = %d, want %d with two draws", got, want)
 	}
 }

@@ -38,11 +38,11 @@ func All() []Case {
 // policy; episodes start in C; +1 on the step into the right exit; gamma
 // = 1. True values 1/6 .. 5/6.
 func RandomWalk() Case {
-	var tr []mdp.Transition
+	var tr []mdp.ProbEntry
 	for s := 1; s <= 5; s++ {
 		tr = append(tr,
-			mdp.Transition{State: s, Action: 0, Next: s - 1, Prob: 1},
-			mdp.Transition{State: s, Action: 1, Next: s + 1, Prob: 1})
+			mdp.ProbEntry{State: s, Action: 0, Next: s - 1, Prob: 1},
+			mdp.ProbEntry{State: s, Action: 1, Next: s + 1, Prob: 1})
 	}
 	m := must(mdp.New(7, 2, tr, []bool{true, false, false, false, false, false, true}, []float64{0, 0, 0, 1, 0, 0, 0}))
 	return Case{
@@ -75,7 +75,7 @@ var moves = [4][2]int{{-1, 0}, {0, 1}, {1, 0}, {0, -1}} // north, east, south, w
 // printed to one decimal (rows 2-4 of Figure 3.2 and all of Figure 3.5
 // are quoted from memory of the book and agree with an exact solve).
 func GridWorld() Case {
-	var tr []mdp.Transition
+	var tr []mdp.ProbEntry
 	for r := 0; r < 5; r++ {
 		for c := 0; c < 5; c++ {
 			s := r*5 + c
@@ -91,7 +91,7 @@ func GridWorld() Case {
 						next = nr*5 + nc
 					}
 				}
-				tr = append(tr, mdp.Transition{State: s, Action: a, Next: next, Prob: 1})
+				tr = append(tr, mdp.ProbEntry{State: s, Action: a, Next: next, Prob: 1})
 			}
 		}
 	}
@@ -141,7 +141,7 @@ func GridWorld() Case {
 // policy, k = infinity); OptimalV is minus the distance to the nearer
 // terminal corner (derived by hand).
 func CornerGrid() Case {
-	var tr []mdp.Transition
+	var tr []mdp.ProbEntry
 	term := make([]bool, 16)
 	term[0], term[15] = true, true
 	for r := 0; r < 4; r++ {
@@ -155,7 +155,7 @@ func CornerGrid() Case {
 				if nr, nc := r+d[0], c+d[1]; nr >= 0 && nr < 4 && nc >= 0 && nc < 4 {
 					next = nr*4 + nc
 				}
-				tr = append(tr, mdp.Transition{State: s, Action: a, Next: next, Prob: 1})
+				tr = append(tr, mdp.ProbEntry{State: s, Action: a, Next: next, Prob: 1})
 			}
 		}
 	}
