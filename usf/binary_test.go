@@ -332,8 +332,8 @@ func FuzzLoadReplay(f *testing.F) {
 	f.Add(b)
 	f.Add([]byte(replayMagic))
 	f.Add(mustMarshal(f, indexReplay(f)))
-	f.Add(putInt(b, 0, 1<<31-1))  // capacity
-	f.Add(putInt(b, 24, 1<<31-1)) // size
+	f.Add(putInt(b, 0, 1<<31-1))                  // capacity
+	f.Add(putInt(b, 24, 1<<31-1))                 // size
 	f.Add(putInt(putInt(b, 8, 1<<28), 16, 1<<28)) // obs and d
 	f.Fuzz(fuzzRoundTrip[Replay])
 }
