@@ -122,12 +122,16 @@ type RLS struct {
 	cost   float64
 }
 
+// MaxRLSDim bounds the number of weights of an RLS estimator: it keeps a
+// d x d matrix, 2 GiB at d = 2^14.
+const MaxRLSDim = 1 << 14
+
 // NewRLS returns an estimator of d weights with ridge strength lambda.
-// Errors wrap ErrDimension (d < 1) or ErrConfig (lambda not positive
-// and finite, with 1/lambda finite: P_0 = I/lambda).
+// Errors wrap ErrDimension (d < 1 or d > MaxRLSDim) or ErrConfig (lambda
+// not positive and finite, with 1/lambda finite: P_0 = I/lambda).
 func NewRLS(d int, lambda float64) (*RLS, error) {
-	if d < 1 {
-		return nil, fmt.Errorf("linalg: rls: %d weights: %w", d, ErrDimension)
+	if d < 1 || d > MaxRLSDim {
+		return nil, fmt.Errorf("linalg: rls: %d weights, want 1..%d: %w", d, MaxRLSDim, ErrDimension)
 	}
 	if !(lambda > 0) || math.IsInf(lambda, 1) || math.IsInf(1/lambda, 1) {
 		return nil, fmt.Errorf("linalg: rls: lambda %v must be positive and finite: %w", lambda, ErrConfig)

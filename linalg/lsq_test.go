@@ -248,3 +248,13 @@ func TestRLSUpdateAllocs(t *testing.T) {
 		t.Errorf("Update allocates %v times", a)
 	}
 }
+
+// TestRLSDimBound checks that a dimension whose d x d matrix would not fit
+// is an error (NewRLS(2^40) used to ask for 2^80 values and die).
+func TestRLSDimBound(t *testing.T) {
+	for _, d := range []int{linalg.MaxRLSDim + 1, 1 << 40, math.MaxInt} {
+		if _, err := linalg.NewRLS(d, 1); !errors.Is(err, linalg.ErrDimension) {
+			t.Errorf("NewRLS(%d): error %v, want ErrDimension", d, err)
+		}
+	}
+}

@@ -187,3 +187,17 @@ func TestRandomFiniteBounds(t *testing.T) {
 		t.Errorf("nil rng: error %v, want ErrConfig", err)
 	}
 }
+
+// TestNewTableOverflow checks that sizes whose product overflows to the
+// length given are refused (NewTable(2^32, 2^32, nil) used to pass the
+// length check, 2^64 wrapping to 0, and panic).
+func TestNewTableOverflow(t *testing.T) {
+	for _, n := range []int{1 << 32, 1 << 40} {
+		if _, err := NewTable(n, n, nil); !errors.Is(err, ErrDimension) {
+			t.Errorf("NewTable(%d, %d, nil): error %v, want ErrDimension", n, n, err)
+		}
+	}
+	if _, err := NewTable(2, 3, make([]float64, 5)); !errors.Is(err, ErrDimension) {
+		t.Errorf("5 probabilities for 2 x 3: error %v", err)
+	}
+}

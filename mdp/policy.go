@@ -118,7 +118,8 @@ const PolicyTol = 1e-9
 // PolicyTol; otherwise the error wraps ErrDimension,
 // ErrNonFinite or linalg.ErrNotStochastic.
 func NewTable(numStates, numActions int, probs []float64) (*Table, error) {
-	if numStates <= 0 || numActions <= 0 || len(probs) != numStates*numActions {
+	// The product is not formed: it may overflow.
+	if numStates <= 0 || numActions <= 0 || len(probs)%numActions != 0 || len(probs)/numActions != numStates {
 		return nil, fmt.Errorf("mdp: table policy: %d probabilities for %d states x %d actions: %w",
 			len(probs), numStates, numActions, ErrDimension)
 	}

@@ -164,10 +164,11 @@ type Labels struct {
 
 // NewLabels returns the label features for states labelled labelOf[s] in
 // [0, numLabels), or -1 for an unlabelled state. The slice is copied. It
-// returns an error wrapping ErrDimension if numLabels < 0, a label is out of
-// range, or the map would have no dimension at all.
+// returns an error wrapping ErrDimension if numLabels < 0 or above
+// MaxValues, a label is out of range, or the map would have no dimension
+// at all.
 func NewLabels(labelOf []int, numLabels int, constant bool) (*Labels, error) {
-	if numLabels < 0 || (numLabels == 0 && !constant) {
+	if numLabels < 0 || numLabels > MaxValues || (numLabels == 0 && !constant) {
 		return nil, fmt.Errorf("sf: labels: %d labels and no constant: %w", numLabels, ErrDimension)
 	}
 	of := make([]int, len(labelOf))
@@ -270,10 +271,14 @@ func NewNextState(rows [][]float64) (*NextState, error) {
 // by rng, and with unit set each row is scaled to unit Euclidean length (a
 // point on the sphere, the form skill features take). This is the ablation
 // that uses no learned features; the same seed gives the same features.
-// It returns an error wrapping ErrDimension if n or d is not positive.
+// It returns an error wrapping ErrDimension if n or d is not positive or
+// n*d exceeds MaxValues, and ErrConfig for a nil rng.
 func NewRandom(n, d int, unit bool, rng *rand.Rand) (*NextState, error) {
-	if n <= 0 || d <= 0 {
-		return nil, fmt.Errorf("sf: random features: sizes %d, %d: %w", n, d, ErrDimension)
+	if err := checkSizes("random features", n, d); err != nil {
+		return nil, err
+	}
+	if rng == nil {
+		return nil, fmt.Errorf("sf: random features: nil rng: %w", ErrConfig)
 	}
 	f := &NextState{n: n, d: d, data: make([]float64, n*d)}
 	for s := 0; s < n; s++ {

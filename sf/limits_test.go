@@ -3,6 +3,7 @@ package sf
 import (
 	"errors"
 	"math"
+	"math/rand/v2"
 	"testing"
 
 	"github.com/successor-go/successor/mdp"
@@ -158,5 +159,25 @@ func TestTaskEstimatorOverflow(t *testing.T) {
 	}
 	if w[0] != w0[0] || w[1] != w0[1] || est.Fit().Samples != 1 {
 		t.Errorf("after refused samples w = %v (was %v), %d samples", w, w0, est.Fit().Samples)
+	}
+}
+
+// TestFeatureSizes checks the bounds of the feature constructors: sizes
+// whose product overflows are an error, not a panic in the slicing.
+func TestFeatureSizes(t *testing.T) {
+	rng := rand.New(rand.NewPCG(1, 2))
+	for _, n := range []int{math.MaxInt, 1 << 40, MaxValues + 1} {
+		if _, err := NewRandom(n, n, false, rng); !errors.Is(err, ErrDimension) {
+			t.Errorf("NewRandom(%d, %d): error %v, want ErrDimension", n, n, err)
+		}
+		if _, err := NewLabels([]int{0}, n, true); !errors.Is(err, ErrDimension) {
+			t.Errorf("NewLabels with %d labels: error %v, want ErrDimension", n, err)
+		}
+		if _, err := NewTaskEstimator(n, 1, nil); !errors.Is(err, ErrDimension) {
+			t.Errorf("NewTaskEstimator(%d): error %v, want ErrDimension", n, err)
+		}
+	}
+	if _, err := NewRandom(3, 2, true, nil); !errors.Is(err, ErrConfig) {
+		t.Errorf("NewRandom with a nil rng: error %v, want ErrConfig", err)
 	}
 }

@@ -3,6 +3,7 @@ package usf
 import (
 	"errors"
 	"math"
+	"math/rand/v2"
 	"testing"
 
 	"github.com/successor-go/successor/sf"
@@ -42,5 +43,28 @@ func TestTabularSaveNonFinite(t *testing.T) {
 		if _, err := tab.MarshalBinary(); !errors.Is(err, ErrNonFinite) {
 			t.Errorf("table holding %v: error %v, want ErrNonFinite", v, err)
 		}
+	}
+}
+
+// TestConstructorBounds checks that sizes whose buffers would overflow or
+// exceed the documented bounds are errors (they used to panic in
+// makeslice).
+func TestConstructorBounds(t *testing.T) {
+	for _, c := range []struct{ capacity, obs, dim int }{
+		{1 << 30, math.MaxInt, 0},
+		{1 << 30, 0, 1 << 28},
+		{1 << 30, 1 << 10, 1 << 10},
+		{1 << 31, 1, 1},
+	} {
+		if _, err := NewReplay(c.capacity, c.obs, c.dim); !errors.Is(err, ErrDimension) {
+			t.Errorf("NewReplay(%d, %d, %d): error %v, want ErrDimension", c.capacity, c.obs, c.dim, err)
+		}
+	}
+	rng := rand.New(rand.NewPCG(1, 2))
+	if _, err := Candidates([]float64{1, 0}, &CandidateConfig{N: math.MaxInt}, rng); !errors.Is(err, ErrConfig) {
+		t.Errorf("Candidates with N = MaxInt: error %v, want ErrConfig", err)
+	}
+	if zs, err := Candidates([]float64{1, 0}, &CandidateConfig{N: 3, Kappa: 5}, rng); err != nil || len(zs) != 4 {
+		t.Errorf("Candidates with N = 3: %d vectors, %v", len(zs), err)
 	}
 }
