@@ -119,7 +119,11 @@ type Experiment struct {
 	// and Explore, which are the caller's to keep fixed within a folder.
 	// The baselines of seed s keep their rows in baselines-seed<s>.run
 	// (read back if present, so that Merge finds every run's record).
-	// Results.Resumed lists the pretraining runs read back.
+	// Results.Resumed lists the pretraining runs read back. On start the
+	// folder must be writable (checked before any work), and the temporary
+	// files that a process killed while saving left of the runs' own files
+	// (.<file>.tmp<digits>, see package internal/fileio) are removed;
+	// nothing else in the folder is touched.
 	CheckpointDir string `json:"-"`
 	// DropCheckpoints removes a run's checkpoint from CheckpointDir once
 	// its record holds the result rows, so that the folder keeps only the
@@ -133,14 +137,15 @@ type Experiment struct {
 // ResumedRun says what an experiment read back from its CheckpointDir for
 // one pretraining run.
 type ResumedRun struct {
-	Method transfer.Method
-	Seed   uint64
+	Method transfer.Method `json:"method"`
+	Seed   uint64          `json:"seed"`
 	// Steps is the number of pretraining steps in the checkpoint (or of
 	// the finished run for Adapted).
-	Steps int
+	Steps int `json:"steps"`
 	// Pretrained reports that pretraining had finished, and Adapted that
 	// the result rows were read rather than recomputed.
-	Pretrained, Adapted bool
+	Pretrained bool `json:"pretrained"`
+	Adapted    bool `json:"adapted"`
 }
 
 // Resolve returns a copy of e with every default filled in (the

@@ -79,8 +79,9 @@ func (e *MergeError) empty() bool {
 // returns the results of the whole experiment: the same figures, bit for
 // bit, as RunContext of the same experiment on one machine. Only the
 // timings differ: PretrainStats.Seconds and StepsPerSecond are those the
-// records hold, measured where each run finished. Results.Resumed is
-// empty. Merge only reads, so merging twice gives the same results.
+// records hold, measured where each run finished (the steps run there
+// only, for a run resumed there). Results.Resumed is empty: the records
+// do not say which runs were resumed. Merge only reads, so merging twice gives the same results.
 //
 // If Keep is set, Merge loads every pretrained agent from its checkpoint
 // in the folder, checks it against the configuration, and hands it to Keep
@@ -162,7 +163,10 @@ func (r *Experiment) readUnits() ([]unitOut, error) {
 		}
 		outs[ui] = unitOut{recs: rec.Records, seconds: rec.Seconds}
 		if u.method >= 0 {
-			outs[ui].steps, outs[ui].mi = rec.Steps, rec.FinalMI
+			outs[ui].steps, outs[ui].ran, outs[ui].mi = rec.Steps, rec.Steps, rec.FinalMI
+			if rec.Ran != nil { // older records: all steps taken as run in Seconds
+				outs[ui].ran = *rec.Ran
+			}
 		}
 	}
 	for _, en := range entries {

@@ -97,7 +97,11 @@ type PretrainStats struct {
 	Method transfer.Method `json:"method"`
 	// Seconds is the mean wall-clock time per run and StepsPerSecond the
 	// mean throughput (these depend on the machine, unlike every other
-	// figure).
+	// figure). Both cover only the work done in the process that ran the
+	// experiment: a run resumed from a checkpoint counts the time and the
+	// steps it ran then, and runs that took no pretraining step then (read
+	// back finished) are left out of StepsPerSecond, which is 0 if no run
+	// took any.
 	Seconds        float64 `json:"seconds"`
 	StepsPerSecond float64 `json:"steps_per_second"`
 	Steps          int     `json:"steps"`
@@ -116,9 +120,9 @@ type Results struct {
 	Variants    []string      `json:"variants"`
 	VariantInfo []VariantInfo `json:"variant_info"`
 	// Resumed lists the runs that continued from Experiment.CheckpointDir,
-	// in unit order (not in the results file: the figures do not depend
-	// on it).
-	Resumed []ResumedRun `json:"-"`
+	// in unit order (in the results file only when not empty: the figures
+	// do not depend on it).
+	Resumed []ResumedRun `json:"resumed,omitempty"`
 }
 
 // Lookup returns the summary of (variant, job, budget).
@@ -169,10 +173,12 @@ func (rep *Report) WriteJSON(path string) error {
 	return nil
 }
 
-// WriteCSV writes one line per scored policy (variant, job, budget, seed,
-// normalised return, value, R^2 and residual of the task inference, the
-// number of labelled transitions with a non-zero reward, and the ridge
-// penalty) to path atomically.
+// WriteCSV writes one line per scored policy to path atomically, with the
+// columns variant, job, budget, seed, normalised (the normalised return),
+// value, r_squared and residual (of the task inference), rewarded (the
+// number of labelled transitions with a non-zero reward) and lambda (the
+// ridge penalty of the task inference), after a header line of these
+// names.
 func (rep *Report) WriteCSV(path string) error {
 	var buf bytes.Buffer
 	w := csv.NewWriter(&buf)

@@ -23,6 +23,7 @@ import (
 type methodRun struct {
 	recs    []Record
 	steps   int
+	ran     int // steps run in this process
 	mi      float64
 	resumed *ResumedRun
 }
@@ -151,8 +152,12 @@ func (e *Experiment) runMethod(ctx context.Context, mc transfer.PretrainConfig, 
 		return out, err
 	}
 	out.resumed = resumed
+	if resumed != nil {
+		out.ran = out.steps - resumed.Steps
+	}
+	ran := out.ran
 	if err := saveRunRecord(recPath, &runRecord{Key: key, Method: &m, Seed: seed, Steps: out.steps, FinalMI: out.mi,
-		Seconds: time.Since(t0).Seconds(), Origin: origin(), Records: out.recs}); err != nil {
+		Seconds: time.Since(t0).Seconds(), Ran: &ran, Origin: origin(), Records: out.recs}); err != nil {
 		return out, err
 	}
 	if e.DropCheckpoints {
@@ -169,7 +174,7 @@ func (e *Experiment) adaptRun(ag *transfer.Agent, m transfer.Method, seed uint64
 		e.Keep(m, seed, ag)
 	}
 	recs, err := e.adaptAll(ag, seed, rewards, refs)
-	return methodRun{recs: recs, steps: ag.Steps(), mi: mi}, err
+	return methodRun{recs: recs, steps: ag.Steps(), ran: ag.Steps(), mi: mi}, err
 }
 
 // checkRun returns an error wrapping ErrCheckpoint, naming the first
@@ -286,6 +291,7 @@ type runRecord struct {
 	Steps     int              `json:"steps"`
 	FinalMI   float64          `json:"final_mi"`
 	Seconds   float64          `json:"seconds,omitempty"`
+	Ran       *int             `json:"ran,omitempty"` // pretraining steps run in Seconds; nil in older records
 	Origin    string           `json:"origin,omitempty"`
 	Records   []Record         `json:"records"`
 }

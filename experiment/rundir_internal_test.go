@@ -4,6 +4,7 @@ import (
 	"encoding/json"
 	"errors"
 	"hash/crc32"
+	"math"
 	"reflect"
 	"testing"
 
@@ -30,6 +31,11 @@ func FuzzRunRecord(f *testing.F) {
 	f.Add(base)
 	f.Add(version1Record())
 	f.Add([]byte(`{"format":"x","version":1,"crc32c":0,"body":{}}`))
+	huge, err := marshalRunRecord(&runRecord{Key: "ef56", Method: &m, Seed: 7, Steps: math.MaxInt, Records: []Record{{Variant: "v", Budget: math.MaxInt}}})
+	if err != nil {
+		f.Fatal(err)
+	}
+	f.Add(huge)
 	f.Fuzz(func(t *testing.T, data []byte) {
 		r, err := unmarshalRunRecord(data)
 		if err != nil {

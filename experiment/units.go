@@ -8,6 +8,7 @@ import (
 	"sync"
 	"time"
 
+	"github.com/successor-go/successor/internal/fileio"
 	"github.com/successor-go/successor/mdp"
 	"github.com/successor-go/successor/transfer"
 )
@@ -38,12 +39,14 @@ func (r *Experiment) units() []unit {
 }
 
 // unitOut is what one unit produced: its result rows, its wall-clock
-// seconds, and for a pretrained method its steps, its final MI estimate
-// and what was read back from the checkpoint folder.
+// seconds, and for a pretrained method its steps, the steps run in the
+// measured seconds, its final MI estimate and what was read back from the
+// checkpoint folder.
 type unitOut struct {
 	recs    []Record
 	seconds float64
 	steps   int
+	ran     int
 	mi      float64
 	resumed *ResumedRun
 }
@@ -55,11 +58,15 @@ type scoring struct {
 	refs    []*transfer.Reference
 }
 
-// prepare creates the checkpoint folder if there is one and computes the
-// references of the jobs. r is resolved.
+// prepare creates the checkpoint folder if there is one, checks that it
+// can write there, and computes the references of the jobs. r is
+// resolved.
 func (r *Experiment) prepare() (*scoring, error) {
 	if r.CheckpointDir != "" {
 		if err := os.MkdirAll(r.CheckpointDir, 0o755); err != nil {
+			return nil, fmt.Errorf("experiment: checkpoint folder: %w", err)
+		}
+		if err := fileio.CheckWritable(r.CheckpointDir); err != nil {
 			return nil, fmt.Errorf("experiment: checkpoint folder: %w", err)
 		}
 	}
@@ -92,6 +99,9 @@ type task struct {
 // is done no task starts and running ones stop (see RunContext). The
 // error is that of the first failed task in the order given.
 func runTasks(ctx context.Context, tasks []task, workers int, progress func(done, total int)) ([]unitOut, error) {
+	if err := removeOrphans(tasks); err != nil {
+		return nil, err
+	}
 	total := 0
 	for _, t := range tasks {
 		if t.u.method >= 0 {
@@ -144,6 +154,44 @@ func runTasks(ctx context.Context, tasks []task, workers int, progress func(done
 	return outs, nil
 }
 
+// unitFiles returns the names of the files unit u of the resolved r keeps
+// in its CheckpointDir.
+func (r *Experiment) unitFiles(u unit) []string {
+	seed := r.Seeds[u.seed]
+	if u.method < 0 {
+		return []string{baselineFile(seed)}
+	}
+	ck, rec := RunFiles(r.Methods[u.method].Method, seed)
+	return []string{ck, rec}
+}
+
+// removeOrphans removes from the checkpoint folders of the tasks the
+// temporary files that an earlier process, killed while saving, left of
+// the tasks' own checkpoints and records (up to 90 MB each for the depot
+// demo). Only those are removed: the temporary files of other runs may be
+// writes in progress of other shards sharing the folder.
+func removeOrphans(tasks []task) error {
+	ours := map[string]map[string]bool{} // folder -> file names
+	for _, t := range tasks {
+		dir := t.r.CheckpointDir
+		if dir == "" {
+			continue
+		}
+		if ours[dir] == nil {
+			ours[dir] = map[string]bool{}
+		}
+		for _, name := range t.r.unitFiles(t.u) {
+			ours[dir][name] = true
+		}
+	}
+	for dir, names := range ours {
+		if _, err := fileio.RemoveTemps(dir, func(dest string) bool { return names[dest] }); err != nil {
+			return fmt.Errorf("experiment: checkpoint folder: %w", err)
+		}
+	}
+	return nil
+}
+
 // run runs one task.
 func (t task) run(ctx context.Context, addSteps func(int)) (unitOut, error) {
 	r, seed := t.r, t.r.Seeds[t.u.seed]
@@ -156,7 +204,7 @@ func (t task) run(ctx context.Context, addSteps func(int)) (unitOut, error) {
 	if err != nil {
 		return unitOut{}, err
 	}
-	return unitOut{recs: res.recs, seconds: time.Since(t0).Seconds(), steps: res.steps, mi: res.mi, resumed: res.resumed}, nil
+	return unitOut{recs: res.recs, seconds: time.Since(t0).Seconds(), steps: res.steps, ran: res.ran, mi: res.mi, resumed: res.resumed}, nil
 }
 
 // assemble returns the results of the resolved experiment r from the
@@ -183,15 +231,18 @@ func (r *Experiment) assemble(outs []unitOut) *Results {
 	}
 	for mi, m := range r.Methods {
 		st := PretrainStats{Method: m.Method}
-		var n float64
+		var n, nRan float64
 		for ui, u := range us {
 			if u.method == mi {
 				o := outs[ui]
 				st.Seconds += o.seconds
 				st.Steps += o.steps
 				st.FinalMI += o.mi
-				if o.seconds > 0 {
-					st.StepsPerSecond += float64(o.steps) / o.seconds
+				// Only the steps run in the measured time count: a
+				// resumed run's earlier steps were timed elsewhere.
+				if o.ran > 0 && o.seconds > 0 {
+					st.StepsPerSecond += float64(o.ran) / o.seconds
+					nRan++
 				}
 				n++
 			}
@@ -199,7 +250,9 @@ func (r *Experiment) assemble(outs []unitOut) *Results {
 		st.Seconds /= n
 		st.Steps = int(float64(st.Steps) / n)
 		st.FinalMI /= n
-		st.StepsPerSecond /= n
+		if nRan > 0 {
+			st.StepsPerSecond /= nRan
+		}
 		res.Pretrain = append(res.Pretrain, st)
 	}
 	res.Summary = summarise(res.Records, res.Variants, r.Jobs, r.Budgets, r.Seeds)

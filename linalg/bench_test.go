@@ -250,7 +250,9 @@ func BenchmarkRLSUpdate(b *testing.B) {
 		b.Run(fmt.Sprintf("d=%d", d), func(b *testing.B) {
 			b.ReportAllocs()
 			for b.Loop() {
-				r.Update(x, 0.5)
+				if err := r.Update(x, 0.5); err != nil {
+					b.Fatal(err)
+				}
 			}
 		})
 	}

@@ -1,6 +1,7 @@
 package linalg
 
 import (
+	"errors"
 	"fmt"
 	"math"
 	"sync"
@@ -20,9 +21,19 @@ import (
 //	0x0 matrix      nil (the empty chain is trivially stochastic)
 //	tol < 0 or NaN  treated as tol = 0
 func CheckStochastic(p mat.Matrix, tol float64) error {
+	return checkRows("check stochastic", p, tol, false)
+}
+
+// SubstochasticTol is the tolerance above 1 on the row sums of the p given
+// to Successor.
+const SubstochasticTol = 1e-9
+
+// checkRows is CheckStochastic, or with sub set the same check of a
+// substochastic p (rows summing to at most 1 + tol).
+func checkRows(what string, p mat.Matrix, tol float64, sub bool) error {
 	r, c := p.Dims()
 	if r != c {
-		return fmt.Errorf("linalg: check stochastic: %dx%d not square: %w", r, c, ErrDimension)
+		return fmt.Errorf("linalg: %s: %dx%d not square: %w", what, r, c, ErrDimension)
 	}
 	if !(tol >= 0) {
 		tol = 0
@@ -37,14 +48,14 @@ func CheckStochastic(p mat.Matrix, tol float64) error {
 				v = at(j)
 			}
 			if math.IsNaN(v) || math.IsInf(v, 0) {
-				return fmt.Errorf("linalg: check stochastic: row %d: %w", i, ErrNonFinite)
+				return fmt.Errorf("linalg: %s: row %d: %w", what, i, ErrNonFinite)
 			}
 			if v < 0 {
 				return &RowSumError{Row: i, Neg: true}
 			}
 			s += v
 		}
-		if !(math.Abs(s-1) <= tol) {
+		if sub && !(s <= 1+tol) || !sub && !(math.Abs(s-1) <= tol) {
 			return &RowSumError{Row: i, Sum: s}
 		}
 		return nil
@@ -78,11 +89,14 @@ func CheckStochastic(p mat.Matrix, tol float64) error {
 //
 //	M = sum_{t>=0} gamma^t P^t = (I - gamma P)^-1
 //
-// for a square p and gamma in [0, 1). It factorises I - gamma P once and
-// solves for the identity; no general inverse routine is used. p need not be
-// stochastic (the series form holds whenever the spectral radius of gamma P is
-// below 1); call CheckStochastic first if that matters. If dst is empty it is
-// resized to n x n; otherwise it must be n x n.
+// for a square substochastic p (non-negative entries, every row summing to
+// at most 1 + SubstochasticTol: a Markov chain, whose rows may lose mass
+// where an episode ends, as the chains of terminal states do) and gamma in
+// [0, 1). A row summing to more than 1, or a negative entry, describes no
+// chain and is an error; SolveSuccessor solves with any p. It factorises
+// I - gamma P once and solves for the identity; no general inverse
+// routine is used. If dst is empty it is resized to n x n; otherwise it
+// must be n x n.
 //
 // The factorisation is chosen as in SolveSuccessor. Successor costs
 // O(n^3) for a dense p and O(n^2 (kl + ku)) for a p with lower and upper
@@ -90,12 +104,19 @@ func CheckStochastic(p mat.Matrix, tol float64) error {
 // grid width).
 //
 // Errors wrap ErrDiscount (gamma outside [0, 1) or NaN), ErrDimension (p not
-// square, dst of the wrong shape), ErrNonFinite (NaN or Inf in p) or
-// ErrSingular (I - gamma P singular to working precision).
+// square, dst of the wrong shape), ErrNonFinite (NaN or Inf in p),
+// ErrNotStochastic (a *RowSumError: a negative entry or a row summing to
+// more than 1) or ErrSingular (I - gamma P singular to working precision).
 func Successor(dst *mat.Dense, p mat.Matrix, gamma float64) error {
 	n, c := p.Dims()
 	if n != c {
 		return fmt.Errorf("linalg: successor: p is %dx%d, not square: %w", n, c, ErrDimension)
+	}
+	if err := checkRows("successor", p, SubstochasticTol, true); err != nil {
+		if errors.Is(err, ErrNotStochastic) {
+			return fmt.Errorf("linalg: successor: p is not substochastic: %w", err)
+		}
+		return err
 	}
 	if err := checkDst(dst, n, n); err != nil {
 		return fmt.Errorf("linalg: successor: %w", err)

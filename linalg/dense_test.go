@@ -122,8 +122,17 @@ func TestSolveSuccessorAgainstGonum(t *testing.T) {
 		if d := maxRelDiff(&x, want); d > testtol.Solve {
 			t.Errorf("%s: differs from gonum LU by %.3g", c.name, d)
 		}
-		// Successor on the same path, against gonum's solve for I.
+		// Successor on the same path, against gonum's solve for I. The
+		// random banded matrices have negative entries: Successor refuses
+		// them (no chain), and TestIdentitySolveAgainstGonum checks its
+		// identity solve on them.
 		var m mat.Dense
+		if linalg.CheckStochastic(c.p, 1e-12) != nil {
+			if err := linalg.Successor(&m, c.p, c.gamma); !errors.Is(err, linalg.ErrNotStochastic) {
+				t.Errorf("%s: successor of a matrix with negative entries: %v, want ErrNotStochastic", c.name, err)
+			}
+			continue
+		}
 		if err := linalg.Successor(&m, c.p, c.gamma); err != nil {
 			t.Fatalf("%s: successor: %v", c.name, err)
 		}
@@ -176,7 +185,7 @@ func TestSolveSuccessorErrors(t *testing.T) {
 		if !errors.Is(err, c.want) {
 			t.Errorf("%s: got %v, want %v", c.name, err, c.want)
 		}
-		if c.name == "gamma one" || c.name == "not square" || c.name == "NaN in p" || c.name == "singular banded" {
+		if c.name == "gamma one" || c.name == "not square" || c.name == "NaN in p" {
 			var m mat.Dense
 			if err := linalg.Successor(&m, c.p, c.gamma); !errors.Is(err, c.want) {
 				t.Errorf("Successor %s: got %v, want %v", c.name, err, c.want)
@@ -185,6 +194,56 @@ func TestSolveSuccessorErrors(t *testing.T) {
 	}
 	if err := linalg.Successor(mat.NewDense(3, 3, nil), p, 0.5); !errors.Is(err, linalg.ErrDimension) {
 		t.Errorf("Successor dst shape: got %v", err)
+	}
+}
+
+// TestSuccessorNotAChain checks that Successor refuses a p that describes
+// no Markov chain (it used to return the inverse regardless): a row
+// summing to more than 1, a negative entry, on the dense, banded and CSR
+// paths. Rows summing to less than 1 (mass lost where episodes end) stay
+// accepted.
+func TestSuccessorNotAChain(t *testing.T) {
+	over := mat.NewDense(2, 2, []float64{0.5, 0.5, 0.7, 0.6}) // row 1 sums to 1.3
+	neg := mat.NewDense(2, 2, []float64{1.2, -0.2, 0.5, 0.5}) // row 0 sums to 1
+	csrOver, err := linalg.CSRFromDense(over)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, tc := range []struct {
+		name string
+		p    mat.Matrix
+		row  int
+		neg  bool
+	}{
+		{"row sum 1.3", over, 1, false},
+		{"negative entry", neg, 0, true},
+		{"row sum 1.3, CSR", csrOver, 1, false},
+		{"twice the identity, banded", scaledEye(100, 2), 0, false},
+		{"just above the tolerance", mat.NewDense(1, 1, []float64{1 + 2*linalg.SubstochasticTol}), 0, false},
+	} {
+		var m mat.Dense
+		err := linalg.Successor(&m, tc.p, 0.5)
+		var rse *linalg.RowSumError
+		if !errors.Is(err, linalg.ErrNotStochastic) || !errors.As(err, &rse) || rse.Row != tc.row || rse.Neg != tc.neg {
+			t.Errorf("%s: error %v, want a RowSumError of row %d (negative %v)", tc.name, err, tc.row, tc.neg)
+		}
+	}
+	// Substochastic rows: the two-state chain whose state 1 ends the
+	// episode (row of zeros) and state 0 stays with probability 1/2:
+	// M = [[1/(1 - gamma/2), gamma/2/(1 - gamma/2)], [0, 1]], derived by
+	// hand from M = I + gamma P M.
+	sub := mat.NewDense(2, 2, []float64{0.5, 0.5, 0, 0})
+	var m mat.Dense
+	if err := linalg.Successor(&m, sub, 0.5); err != nil {
+		t.Fatalf("substochastic: %v", err)
+	}
+	want := mat.NewDense(2, 2, []float64{1 / 0.75, 0.25 / 0.75, 0, 1})
+	if !mat.EqualApprox(&m, want, testtol.Exact) {
+		t.Errorf("substochastic: M = %v, want %v", mat.Formatted(&m), mat.Formatted(want))
+	}
+	var m1 mat.Dense
+	if err := linalg.Successor(&m1, mat.NewDense(1, 1, []float64{1 + linalg.SubstochasticTol/2}), 0.5); err != nil {
+		t.Errorf("a row within the tolerance: %v", err)
 	}
 }
 

@@ -123,7 +123,10 @@ func ExampleRLS() {
 		x []float64
 		y float64
 	}{{[]float64{1, 0}, 2}, {[]float64{0, 1}, -1}, {[]float64{1, 1}, 1}, {[]float64{2, 1}, 3}} {
-		r.Update(s.x, s.y)
+		if err := r.Update(s.x, s.y); err != nil {
+			fmt.Println(err)
+			return
+		}
 	}
 	fmt.Printf("w = %.4f after %d samples\n", r.Weights(), r.Count())
 	// Output:

@@ -5,6 +5,11 @@ import "math"
 // defaultRestart is GMRES's restart length m when IterConfig.Restart is 0.
 const defaultRestart = 30
 
+// MaxRestart is the largest restart length of GMRES(m) (IterConfig.Restart),
+// so that a configuration cannot ask for more than MaxRestart + 1 basis
+// vectors.
+const MaxRestart = 1000
+
 // gmres runs restarted GMRES(m) (Saad & Schultz 1986, SIAM J. Sci. Stat.
 // Comput. 7(3); Saad 2003, Algorithm 6.9) on K W z = bh, y = W z, with W the
 // diagonal weights w (right preconditioning), from the current y. The

@@ -72,7 +72,9 @@ type IterConfig struct {
 	Workers int
 	// Restart is the restart length m of GMRES(m), the number of
 	// iterations between restarts; GMRES keeps m + 1 basis vectors of
-	// length n. 0 means 30; values above n mean n (full GMRES). It
+	// length n. 0 means 30; values above n mean n (full GMRES), and values
+	// above MaxRestart mean MaxRestart, which bounds the basis to
+	// MaxRestart + 1 vectors. It
 	// matters only when GMRES runs (IterGMRES, or IterAuto after BiCGSTAB
 	// broke down). Restarted GMRES can stagnate on strongly indefinite
 	// matrices, where a larger m helps.
@@ -359,7 +361,7 @@ func (s *IterSolver) Solve(dst []float64, p *CSR, gamma float64, b []float64, se
 	if restart <= 0 {
 		restart = defaultRestart
 	}
-	restart = min(restart, n)
+	restart = min(restart, n, MaxRestart)
 	warm := cfg.UseInitial
 	shadow := 0 // BiCGSTAB shadow residual: 0 is r0, k > 0 the k-th pseudo-random one
 	checks := 0 // runs whose recurrence residual met the target but the true one did not

@@ -122,14 +122,18 @@ type RLS struct {
 	cost   float64
 }
 
+// MaxRLSDim bounds the number of weights of an RLS estimator: it keeps a
+// d x d matrix, 2 GiB at d = 2^14.
+const MaxRLSDim = 1 << 14
+
 // NewRLS returns an estimator of d weights with ridge strength lambda.
-// Errors wrap ErrDimension (d < 1) or ErrConfig (lambda not positive
-// and finite: P_0 = I/lambda needs lambda > 0).
+// Errors wrap ErrDimension (d < 1 or d > MaxRLSDim) or ErrConfig (lambda
+// not positive and finite, with 1/lambda finite: P_0 = I/lambda).
 func NewRLS(d int, lambda float64) (*RLS, error) {
-	if d < 1 {
-		return nil, fmt.Errorf("linalg: rls: %d weights: %w", d, ErrDimension)
+	if d < 1 || d > MaxRLSDim {
+		return nil, fmt.Errorf("linalg: rls: %d weights, want 1..%d: %w", d, MaxRLSDim, ErrDimension)
 	}
-	if !(lambda > 0) || math.IsInf(lambda, 1) {
+	if !(lambda > 0) || math.IsInf(lambda, 1) || math.IsInf(1/lambda, 1) {
 		return nil, fmt.Errorf("linalg: rls: lambda %v must be positive and finite: %w", lambda, ErrConfig)
 	}
 	r := &RLS{d: d, lambda: lambda, w: make([]float64, d), p: make([]float64, d*d), px: make([]float64, d)}
@@ -147,10 +151,13 @@ func (r *RLS) Reset() {
 	r.n, r.cost = 0, 0
 }
 
-// Update adds the sample (x, y). It does not allocate. It panics if
-// len(x) is not the estimator's dimension, or if x or y holds NaN or Inf
-// (a programmer error that would otherwise spoil the weights silently).
-func (r *RLS) Update(x []float64, y float64) {
+// Update adds the sample (x, y). It returns an error wrapping ErrNonFinite,
+// and leaves the estimator unchanged, if x or y holds NaN or Inf or the
+// update would produce a non-finite value from finite inputs (features of
+// 1e200 overflow x^T P x; a huge residual overflows the weights or the
+// cost). It panics if len(x) is not the estimator's dimension. It does not
+// allocate.
+func (r *RLS) Update(x []float64, y float64) error {
 	d := r.d
 	if len(x) != d {
 		panic("linalg: rls: wrong sample length")
@@ -169,10 +176,24 @@ func (r *RLS) Update(x []float64, y float64) {
 	}
 	e := y - pred
 	denom := 1 + xpx
-	if math.IsNaN(e) || math.IsInf(e, 0) || math.IsNaN(denom) || math.IsInf(denom, 0) {
-		panic("linalg: rls: non-finite sample")
+	if !isFinite(e) || !isFinite(denom) {
+		return fmt.Errorf("linalg: rls: sample %d: residual %v, 1 + x'Px = %v: %w", r.n+1, e, denom, ErrNonFinite)
 	}
 	inv := 1 / denom
+	cost := r.cost + e*e*inv
+	if !isFinite(cost) {
+		return fmt.Errorf("linalg: rls: sample %d: cost overflows: %w", r.n+1, ErrNonFinite)
+	}
+	// The new weights, checked before anything changes (a defence: with
+	// the cost finite a single step cannot overflow a weight, but a sum of
+	// steps can). The downdate of P stays finite: |P x|_i |P x|_j /
+	// (1 + x'Px) <= sqrt(P_ii P_jj) for positive semi-definite P
+	// (Cauchy-Schwarz, derived by hand).
+	for i := 0; i < d; i++ {
+		if !isFinite(w[i] + px[i]*inv*e) {
+			return fmt.Errorf("linalg: rls: sample %d: weight %d overflows: %w", r.n+1, i, ErrNonFinite)
+		}
+	}
 	for i := 0; i < d; i++ {
 		ki := px[i] * inv
 		w[i] += ki * e
@@ -184,9 +205,12 @@ func (r *RLS) Update(x []float64, y float64) {
 			p[j*d+i] = v
 		}
 	}
-	r.cost += e * e * inv
+	r.cost = cost
 	r.n++
+	return nil
 }
+
+func isFinite(v float64) bool { return !math.IsNaN(v) && !math.IsInf(v, 0) }
 
 // Dim returns the number of weights d.
 func (r *RLS) Dim() int { return r.d }

@@ -134,7 +134,9 @@ func TestRLSEqualsRidge(t *testing.T) {
 			t.Fatal(err)
 		}
 		for i := 0; i < m; i++ {
-			r.Update(x.RawRowView(i), y.AtVec(i))
+			if err := r.Update(x.RawRowView(i), y.AtVec(i)); err != nil {
+				t.Fatal(err)
+			}
 		}
 		var want mat.VecDense
 		rss, err := linalg.Ridge(&want, x, y, lambda)
@@ -173,6 +175,7 @@ func TestRLSErrorsAndPanics(t *testing.T) {
 		{2, -1, linalg.ErrConfig},
 		{2, math.Inf(1), linalg.ErrConfig},
 		{2, math.NaN(), linalg.ErrConfig},
+		{2, 1e-320, linalg.ErrConfig}, // 1/lambda overflows (used to give P_0 = Inf)
 	} {
 		if _, err := linalg.NewRLS(c.d, c.lambda); !errors.Is(err, c.want) {
 			t.Errorf("NewRLS(%d, %v): got %v, want %v", c.d, c.lambda, err, c.want)
@@ -181,8 +184,6 @@ func TestRLSErrorsAndPanics(t *testing.T) {
 	r, _ := linalg.NewRLS(2, 1)
 	for name, f := range map[string]func(){
 		"short x":     func() { r.Update([]float64{1}, 1) },
-		"NaN y":       func() { r.Update([]float64{1, 2}, math.NaN()) },
-		"Inf x":       func() { r.Update([]float64{math.Inf(1), 2}, 1) },
 		"WeightsTo 3": func() { r.WeightsTo(make([]float64, 3)) },
 	} {
 		func() {
@@ -196,10 +197,64 @@ func TestRLSErrorsAndPanics(t *testing.T) {
 	}
 }
 
+// TestRLSNonFinite checks that a sample that is not finite, or whose
+// update overflows although it is finite, is an error wrapping
+// ErrNonFinite and leaves the estimator as it was (it used to panic).
+func TestRLSNonFinite(t *testing.T) {
+	for _, c := range []struct {
+		name   string
+		lambda float64
+		x      []float64
+		y      float64
+	}{
+		{"NaN y", 1, []float64{1, 2}, math.NaN()},
+		{"Inf x", 1, []float64{math.Inf(1), 2}, 1},
+		{"Inf and -Inf x", 1, []float64{math.Inf(1), math.Inf(-1)}, 0},
+		// Finite inputs whose sum is 0 (so a guard on sum(x) + y
+		// passes) but x'Px = 2e400/lambda overflows.
+		{"1e200 features", 1, []float64{1e200, -1e200}, 0},
+		// x'Px is finite; the residual 1e300 squared overflows the cost.
+		{"1e300 reward", 1, []float64{1, 0}, 1e300},
+	} {
+		t.Run(c.name, func(t *testing.T) {
+			r, err := linalg.NewRLS(2, c.lambda)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if err := r.Update([]float64{0.5, 0.25}, 1); err != nil {
+				t.Fatal(err)
+			}
+			w0, p0 := append([]float64(nil), r.Weights()...), r.Cost()
+			if err := r.Update(c.x, c.y); !errors.Is(err, linalg.ErrNonFinite) {
+				t.Fatalf("error %v, want ErrNonFinite", err)
+			}
+			if r.Count() != 1 || r.Cost() != p0 || r.Weights()[0] != w0[0] || r.Weights()[1] != w0[1] {
+				t.Errorf("refused sample changed the estimator: count %d, w %v (was %v), cost %v (was %v)",
+					r.Count(), r.Weights(), w0, r.Cost(), p0)
+			}
+			for _, v := range r.Weights() {
+				if math.IsNaN(v) || math.IsInf(v, 0) {
+					t.Errorf("weights %v not finite", r.Weights())
+				}
+			}
+		})
+	}
+}
+
 func TestRLSUpdateAllocs(t *testing.T) {
 	r, _ := linalg.NewRLS(16, 1)
 	x := randVec(16, rand.New(rand.NewPCG(1, 2)))
 	if a := testing.AllocsPerRun(100, func() { r.Update(x, 0.5) }); a != 0 {
 		t.Errorf("Update allocates %v times", a)
+	}
+}
+
+// TestRLSDimBound checks that a dimension whose d x d matrix would not fit
+// is an error (NewRLS(2^40) used to ask for 2^80 values and die).
+func TestRLSDimBound(t *testing.T) {
+	for _, d := range []int{linalg.MaxRLSDim + 1, 1 << 40, math.MaxInt} {
+		if _, err := linalg.NewRLS(d, 1); !errors.Is(err, linalg.ErrDimension) {
+			t.Errorf("NewRLS(%d): error %v, want ErrDimension", d, err)
+		}
 	}
 }

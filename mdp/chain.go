@@ -10,11 +10,18 @@ import (
 // PolicyTable returns pi(a | s) for every state as a table indexed s*A + a,
 // after checking each row of a non-terminal state is a distribution (finite,
 // non-negative, summing to 1 within PolicyTol). Rows of terminal states are
-// zero: the policy is not queried there. The error wraps
-// ErrNonFinite or linalg.ErrNotStochastic.
+// zero: the policy is not queried there. A policy that implements
+// Checker is checked first. The error wraps ErrConfig (a nil policy),
+// ErrDimension (a policy of the wrong size), ErrNonFinite or
+// linalg.ErrNotStochastic.
 func (m *Finite) PolicyTable(pi Policy) ([]float64, error) {
 	if pi == nil {
 		return nil, fmt.Errorf("mdp: policy table: nil policy: %w", ErrConfig)
+	}
+	if c, ok := pi.(Checker); ok {
+		if err := c.Check(m.n, m.a); err != nil {
+			return nil, fmt.Errorf("mdp: policy table: %w", err)
+		}
 	}
 	tab := make([]float64, m.n*m.a)
 	for s := 0; s < m.n; s++ {
@@ -48,8 +55,9 @@ func (m *Finite) Chain(pi Policy) *linalg.CSR {
 	return c
 }
 
-// ChainOf is Chain returning an error (wrapping linalg.ErrNotStochastic or
-// ErrNonFinite) when pi is not a distribution at some state.
+// ChainOf is Chain returning an error when pi is not a distribution at
+// some state (wrapping linalg.ErrNotStochastic or ErrNonFinite) or does
+// not fit m (ErrDimension, ErrConfig; see PolicyTable).
 func (m *Finite) ChainOf(pi Policy) (*linalg.CSR, error) {
 	tab, err := m.PolicyTable(pi)
 	if err != nil {
@@ -121,9 +129,10 @@ func (m *Finite) StateActionChain(pi Policy) *linalg.CSR {
 	return c
 }
 
-// StateActionChainOf is StateActionChain returning an error (wrapping
-// linalg.ErrNotStochastic or ErrNonFinite) when pi is not a
-// distribution at some state.
+// StateActionChainOf is StateActionChain returning an error when pi is
+// not a distribution at some state (wrapping linalg.ErrNotStochastic or
+// ErrNonFinite) or does not fit m (ErrDimension, ErrConfig; see
+// PolicyTable).
 func (m *Finite) StateActionChainOf(pi Policy) (*linalg.CSR, error) {
 	tab, err := m.PolicyTable(pi)
 	if err != nil {

@@ -103,7 +103,9 @@
 // order; the number of labels and each label; the number of action names
 // and each name; the number of rewards and each (state, action, next,
 // value) in increasing (state, action, next) order. Write emits canonical
-// files that Load reads back bit for bit.
+// files that Load reads back bit for bit. What Load allocates is
+// proportional to the size of the file (see Load and ImpliedRowRatio):
+// a header cannot declare more states or actions than the file describes.
 //
 // # Fixtures
 //

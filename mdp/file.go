@@ -81,7 +81,15 @@ type fileJSON struct {
 // outgoing mass, label or action-name lists of the wrong length, duplicate
 // rewards or rewards on transitions that do not exist, and a checksum that
 // does not match are all errors. They wrap ErrCorrupt, ErrConfig or the
-// linalg sentinels New uses.
+// sentinels New uses.
+//
+// What Load allocates is proportional to the size of the file: a file
+// declares at most as many states as it lists terminal states and
+// transitions (every action of a non-terminal state needs one), and the
+// self-loop rows of its terminal states are bounded by New's
+// ImpliedRowRatio; the sizes are checked before anything of their size is
+// allocated, and a header declaring more is an error wrapping
+// linalg.ErrNotStochastic or ErrDimension.
 func Load(r io.Reader) (*File, error) {
 	dec := json.NewDecoder(r)
 	dec.DisallowUnknownFields()

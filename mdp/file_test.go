@@ -318,6 +318,9 @@ func FuzzLoad(f *testing.F) {
 		f.Add(string(b))
 	}
 	f.Add(`{"format": "successor/mdp", "version": 1, "states": 1, "actions": 2, "start": [[0, 1]], "transitions": [[0, 0, 0, 1], [0, 1, 0, 1]], "rewards": [[0, 1, 0, -2.5]]}`)
+	for _, g := range giantHeaders {
+		f.Add(g.in)
+	}
 	f.Fuzz(func(t *testing.T, in string) {
 		g, err := Load(strings.NewReader(in))
 		if err != nil {

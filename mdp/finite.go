@@ -32,6 +32,15 @@ type Finite struct {
 // state-action indices fit any int and sizes cannot overflow).
 const MaxRows = 1<<31 - 1
 
+// ImpliedRowRatio bounds the rows New makes up itself: a terminal state
+// needs no transitions, and New stores a self-loop row for each of its
+// actions. Those rows may number at most ImpliedRowRatio times
+// (numStates + len(transitions)), so that what New allocates stays
+// proportional to what it is given (a one-state MDP with 2^31 - 1 actions
+// is refused rather than asking for tens of gigabytes). Every MDP with at
+// most ImpliedRowRatio actions is within the bound.
+const ImpliedRowRatio = 64
+
 // StochasticTol is the tolerance on row sums used when validating MDPs.
 const StochasticTol = 1e-9
 
@@ -45,8 +54,13 @@ const StochasticTol = 1e-9
 // omitted (a self-loop is added) or given as a self-loop with probability 1
 // (or entries with probability 0); anything else is an error.
 //
-// Errors wrap ErrDimension (sizes, or more than MaxRows state-action
-// pairs), ErrNonFinite, linalg.ErrNotStochastic (a negative
+// Sizes are checked before anything of their size is allocated: at most
+// MaxRows state-action pairs, at most ImpliedRowRatio (numStates + len(t))
+// pairs of terminal states, and at least one entry of t for every pair of
+// a non-terminal state. New's memory is thus O(numStates + len(t)).
+//
+// Errors wrap ErrDimension (sizes, more than MaxRows state-action pairs,
+// or more terminal pairs than ImpliedRowRatio allows), ErrNonFinite, linalg.ErrNotStochastic (a negative
 // probability or a row or start distribution not summing to 1; rows give a
 // *linalg.RowSumError) or ErrConfig (an index out of range, a terminal
 // state with outgoing mass, an all-zero start distribution).
@@ -65,6 +79,20 @@ func New(numStates, numActions int, t []ProbEntry, terminal []bool, start []floa
 	}
 	term := make([]bool, numStates)
 	copy(term, terminal)
+	nt := 0
+	for _, f := range term {
+		if f {
+			nt++
+		}
+	}
+	// Both products fit an int64: numStates*numActions <= MaxRows.
+	if need := int64(numStates-nt) * int64(numActions); need > int64(len(t)) {
+		return nil, fmt.Errorf("mdp: new: %d transitions cannot give each of the %d state-action pairs of non-terminal states a distribution: %w", len(t), need, linalg.ErrNotStochastic)
+	}
+	if implied := int64(nt) * int64(numActions); implied > ImpliedRowRatio*(int64(numStates)+int64(len(t))) {
+		return nil, fmt.Errorf("mdp: new: %d terminal states x %d actions exceed %d x (%d states + %d transitions) implied self-loops: %w",
+			nt, numActions, ImpliedRowRatio, numStates, len(t), ErrDimension)
+	}
 	var ssum float64
 	for s, v := range start {
 		if math.IsNaN(v) || math.IsInf(v, 0) {
@@ -81,7 +109,7 @@ func New(numStates, numActions int, t []ProbEntry, terminal []bool, start []floa
 	if math.Abs(ssum-1) > StochasticTol {
 		return nil, fmt.Errorf("mdp: new: start sums to %v: %w", ssum, linalg.ErrNotStochastic)
 	}
-	trip := make([]linalg.Triplet, 0, len(t)+numStates*numActions)
+	trip := make([]linalg.Triplet, 0, len(t)+nt*numActions)
 	for _, e := range t {
 		if e.State < 0 || e.State >= numStates || e.Next < 0 || e.Next >= numStates {
 			return nil, fmt.Errorf("mdp: new: transition %d -> %d: state out of range: %w", e.State, e.Next, ErrConfig)

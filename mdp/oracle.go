@@ -83,7 +83,9 @@ type Solver struct {
 // positive probability under pi (an absorbing chain); otherwise the error
 // wraps both ErrDiscount and linalg.ErrNotAbsorbing. Other errors
 // wrap ErrConfig (nil mdp, policy or reward), ErrDiscount (gamma
-// outside [0, 1] or NaN), ErrNonFinite (a non-finite reward or
+// outside [0, 1] or NaN), ErrDimension (a policy of the wrong size, for
+// the policies that implement Checker, as every policy of this package
+// does), ErrNonFinite (a non-finite reward or
 // result), linalg.ErrNotStochastic (pi is not a distribution),
 // linalg.ErrSingular, or linalg.ErrNotConverged (iterative solver).
 //

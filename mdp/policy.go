@@ -19,6 +19,33 @@ type Policy interface {
 	Probs(dst []float64, s int)
 }
 
+// Checker is implemented by values that know the sizes of the MDPs they
+// serve: the policies of this package and the feature maps of package sf.
+// Check returns an error if the value cannot be used with an MDP of
+// numStates states and numActions actions, in the cases where a call of
+// its methods would panic: an error wrapping ErrDimension for the wrong
+// sizes (or an action index out of range), ErrNonFinite for values that
+// make it panic (a NaN action value of Greedy), ErrConfig for a bad
+// parameter (an Epsilon outside [0, 1]).
+//
+// The oracles (Evaluate, PolicyTable, Chain, StateActionChain) and the
+// closed forms and learners of package sf call Check when the value has
+// it, so that a policy or feature map of the wrong size is an error, not
+// a panic. A Policy without Check is trusted to accept every state of the
+// MDP and a dst of its number of actions.
+type Checker interface {
+	Check(numStates, numActions int) error
+}
+
+var (
+	_ Checker = Deterministic(nil)
+	_ Checker = Uniform{}
+	_ Checker = (*Table)(nil)
+	_ Checker = Greedy{}
+	_ Checker = EpsilonGreedy{}
+	_ Checker = Softmax{}
+)
+
 var (
 	_ Policy = Deterministic(nil)
 	_ Policy = Uniform{}
@@ -38,6 +65,20 @@ func (d Deterministic) Probs(dst []float64, s int) {
 	dst[d[s]] = 1
 }
 
+// Check returns an error wrapping ErrDimension unless d has numStates
+// entries, each an action in [0, numActions).
+func (d Deterministic) Check(numStates, numActions int) error {
+	if len(d) != numStates {
+		return fmt.Errorf("mdp: deterministic policy: %d actions for %d states: %w", len(d), numStates, ErrDimension)
+	}
+	for s, a := range d {
+		if a < 0 || a >= numActions {
+			return fmt.Errorf("mdp: deterministic policy: action %d at state %d outside [0, %d): %w", a, s, numActions, ErrDimension)
+		}
+	}
+	return nil
+}
+
 // Uniform is the policy that picks each of N actions with probability 1/N.
 type Uniform struct{ N int }
 
@@ -49,6 +90,15 @@ func (u Uniform) Probs(dst []float64, s int) {
 	for i := range dst {
 		dst[i] = 1 / float64(u.N)
 	}
+}
+
+// Check returns an error wrapping ErrDimension unless u.N equals
+// numActions.
+func (u Uniform) Check(numStates, numActions int) error {
+	if u.N != numActions {
+		return fmt.Errorf("mdp: uniform: %d actions, mdp has %d: %w", u.N, numActions, ErrDimension)
+	}
+	return nil
 }
 
 // Table is a stochastic policy given by a table of probabilities,
@@ -68,7 +118,8 @@ const PolicyTol = 1e-9
 // PolicyTol; otherwise the error wraps ErrDimension,
 // ErrNonFinite or linalg.ErrNotStochastic.
 func NewTable(numStates, numActions int, probs []float64) (*Table, error) {
-	if numStates <= 0 || numActions <= 0 || len(probs) != numStates*numActions {
+	// The product is not formed: it may overflow.
+	if numStates <= 0 || numActions <= 0 || len(probs)%numActions != 0 || len(probs)/numActions != numStates {
 		return nil, fmt.Errorf("mdp: table policy: %d probabilities for %d states x %d actions: %w",
 			len(probs), numStates, numActions, ErrDimension)
 	}
@@ -94,6 +145,32 @@ func (t *Table) Probs(dst []float64, s int) {
 	copy(dst, t.p[s*t.a:(s+1)*t.a])
 }
 
+// Check returns an error wrapping ErrDimension unless t is a table of
+// numStates states and numActions actions.
+func (t *Table) Check(numStates, numActions int) error {
+	if t.a != numActions || len(t.p) != numStates*numActions {
+		return fmt.Errorf("mdp: table policy: %d probabilities of %d actions for %d states x %d actions: %w",
+			len(t.p), t.a, numStates, numActions, ErrDimension)
+	}
+	return nil
+}
+
+// checkQ returns an error unless q is a table of numStates x numActions
+// action values with A == numActions, free of NaN (and of infinities if
+// finite is set).
+func checkQ(name string, q []float64, a, numStates, numActions int, finite bool) error {
+	if a != numActions || len(q) != numStates*numActions {
+		return fmt.Errorf("mdp: %s: %d action values of %d actions for %d states x %d actions: %w",
+			name, len(q), a, numStates, numActions, ErrDimension)
+	}
+	for i, v := range q {
+		if math.IsNaN(v) || finite && math.IsInf(v, 0) {
+			return fmt.Errorf("mdp: %s: Q(%d, %d) = %v: %w", name, i/a, i%a, v, ErrNonFinite)
+		}
+	}
+	return nil
+}
+
 // Greedy is the policy greedy in a state-action table Q (indexed s*A + a,
 // as Values.Q). Ties are broken toward the lowest action index: the action
 // taken is the first a with Q[s*A+a] equal to the row maximum (exact
@@ -116,6 +193,13 @@ func (g Greedy) Probs(dst []float64, s int) {
 	a := g.Action(s)
 	clear(dst)
 	dst[a] = 1
+}
+
+// Check returns an error wrapping ErrDimension unless g.Q holds
+// numStates x numActions values and g.A is numActions, or ErrNonFinite
+// if a value is NaN.
+func (g Greedy) Check(numStates, numActions int) error {
+	return checkQ("greedy", g.Q, g.A, numStates, numActions, false)
 }
 
 // EpsilonGreedy takes a uniformly random action with probability Epsilon
@@ -144,6 +228,15 @@ func (e EpsilonGreedy) Probs(dst []float64, s int) {
 		dst[i] = u
 	}
 	dst[g] += 1 - e.Epsilon
+}
+
+// Check returns an error wrapping ErrConfig if Epsilon is outside
+// [0, 1], and otherwise errors as Greedy.Check.
+func (e EpsilonGreedy) Check(numStates, numActions int) error {
+	if !(e.Epsilon >= 0 && e.Epsilon <= 1) {
+		return fmt.Errorf("mdp: epsilon-greedy: epsilon %v outside [0, 1]: %w", e.Epsilon, ErrConfig)
+	}
+	return checkQ("epsilon-greedy", e.Q, e.A, numStates, numActions, false)
 }
 
 // Softmax is the Boltzmann policy in Q with a temperature:
@@ -181,6 +274,16 @@ func (p Softmax) Probs(dst []float64, s int) {
 	for i := range dst {
 		dst[i] /= z
 	}
+}
+
+// Check returns an error wrapping ErrConfig if the temperature is not
+// positive and finite, ErrDimension for a table of the wrong size, or
+// ErrNonFinite if an action value is NaN or infinite.
+func (p Softmax) Check(numStates, numActions int) error {
+	if !(p.Temperature > 0) || math.IsInf(p.Temperature, 1) {
+		return fmt.Errorf("mdp: softmax: temperature %v must be positive and finite: %w", p.Temperature, ErrConfig)
+	}
+	return checkQ("softmax", p.Q, p.A, numStates, numActions, true)
 }
 
 // argmax returns the first index of the maximum of q (vec.Argmax). It

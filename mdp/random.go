@@ -29,7 +29,9 @@ type RandomConfig struct {
 // from the flat Dirichlet distribution (normalised exponentials); the
 // terminal states are drawn uniformly; the start distribution is uniform
 // over the non-terminal states. The same rng state gives the same MDP.
-// The error wraps ErrDimension for negative sizes or a
+// The error wraps ErrConfig for a nil rng, or ErrDimension for negative
+// sizes, more than MaxRows state-action pairs or transition entries
+// (States x Actions x Branching, Branching capped as above), or a
 // TerminalFraction outside [0, 1).
 func RandomFinite(c *RandomConfig, rng *rand.Rand) (*Finite, error) {
 	var cfg RandomConfig
@@ -46,6 +48,9 @@ func RandomFinite(c *RandomConfig, rng *rand.Rand) (*Finite, error) {
 	if b == 0 {
 		b = 3
 	}
+	if rng == nil {
+		return nil, fmt.Errorf("mdp: random: nil rng: %w", ErrConfig)
+	}
 	if n < 0 || na < 0 || b < 0 || !(cfg.TerminalFraction >= 0 && cfg.TerminalFraction < 1) {
 		return nil, fmt.Errorf("mdp: random: bad config %+v: %w", cfg, ErrDimension)
 	}
@@ -57,6 +62,9 @@ func RandomFinite(c *RandomConfig, rng *rand.Rand) (*Finite, error) {
 		pool = n - 1
 	}
 	b = min(b, pool)
+	if int64(n)*int64(na)*int64(b) > MaxRows { // n*na <= MaxRows and b <= n: no overflow
+		return nil, fmt.Errorf("mdp: random: %d states x %d actions x %d successors exceed %d transition entries: %w", n, na, b, MaxRows, ErrDimension)
+	}
 	term := make([]bool, n)
 	nt := min(int(math.Floor(cfg.TerminalFraction*float64(n))), n-1)
 	perm := rng.Perm(n)

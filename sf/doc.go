@@ -90,9 +90,12 @@
 //	              in the order of Table.Data or Linear.W
 //	40+8n   4     CRC-32C (Castagnoli polynomial) of bytes [0, 40+8n)
 //
-// Values round-trip bit for bit, non-finite ones included (a diverged
-// table can be saved for inspection). LoadTable and LoadLinear reject a
-// file whose magic, version, length, sizes or checksum is wrong with an
-// error wrapping ErrCorrupt, never returning a wrong table; sizes are
-// checked against the bytes present before anything is allocated.
+// Values round-trip bit for bit (signed zeros included). A file holds only
+// finite values: Save refuses a table with a NaN or an infinity (a
+// diverged one) with an error wrapping ErrNonFinite, and LoadTable and
+// LoadLinear reject such a file, as they reject one whose magic, version,
+// length, sizes or checksum is wrong, with an error wrapping ErrCorrupt,
+// never returning a wrong table; sizes are checked against the bytes
+// present before anything is allocated, so a file cannot make a loader
+// allocate more than its own size.
 package sf

@@ -71,16 +71,25 @@ const policyTol = 1e-9
 // relative residual ExactIterTol; the error wraps linalg.ErrNotConverged
 // if a column fails).
 //
-// Errors wrap ErrDiscount, ErrDimension (phi or pi of the wrong size),
+// Errors wrap ErrConfig (a nil m, pi or phi), ErrDiscount, ErrDimension
+// (phi or pi of the wrong size: a feature map or policy that implements
+// mdp.Checker, as those of this package and of package mdp do, is checked
+// against m before it is called; a table of more than MaxValues values),
 // linalg.ErrNotStochastic (pi(.|s) is not a distribution), ErrNonFinite, or
 // the solver's error.
 func Exact(m *mdp.Finite, pi mdp.Policy, phi FeatureMap, gamma float64) (*Table, error) {
+	if m == nil || pi == nil || phi == nil {
+		return nil, fmt.Errorf("sf: exact: nil mdp, policy or features: %w", ErrConfig)
+	}
 	if !(gamma >= 0 && gamma <= 1) {
 		return nil, fmt.Errorf("sf: exact: gamma %v outside [0, 1]: %w", gamma, ErrDiscount)
 	}
 	n, na, d := m.NumStates(), m.NumActions(), phi.Dim()
-	if d <= 0 {
-		return nil, fmt.Errorf("sf: exact: feature dimension %d: %w", d, ErrDimension)
+	if err := checkSizes("exact", n, na, d); err != nil {
+		return nil, err
+	}
+	if err := checkFeatures(phi, n, na); err != nil {
+		return nil, fmt.Errorf("sf: exact: %w", err)
 	}
 	probs, err := m.PolicyTable(pi)
 	if err != nil {

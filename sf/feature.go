@@ -11,6 +11,12 @@ import (
 
 // FeatureMap gives transition features phi(s, a, s') in R^d. Implement it to
 // plug your own features into every learner and oracle of the library.
+//
+// A map that knows the states and actions it covers should also implement
+// mdp.Checker (Check(numStates, numActions int) error), as the maps of this
+// package do: Exact and the TD learners call it, so that a map built for
+// another MDP is an error wrapping ErrDimension rather than a panic.
+// A map without it is trusted to accept every state and action of the MDP.
 type FeatureMap interface {
 	// Dim returns d, the number of features.
 	Dim() int
@@ -44,7 +50,21 @@ var (
 	_ sparseMap  = OneHotStateAction{}
 	_ sparseMap  = (*Labels)(nil)
 	_ rowMap     = (*NextState)(nil)
+
+	_ mdp.Checker = OneHotState{}
+	_ mdp.Checker = OneHotStateAction{}
+	_ mdp.Checker = (*Labels)(nil)
+	_ mdp.Checker = (*NextState)(nil)
 )
+
+// checkFeatures calls phi's Check for an MDP of numStates states and
+// numActions actions, if phi has one.
+func checkFeatures(phi FeatureMap, numStates, numActions int) error {
+	if c, ok := phi.(mdp.Checker); ok {
+		return c.Check(numStates, numActions)
+	}
+	return nil
+}
 
 func checkLen(name string, dst []float64, d int) {
 	if len(dst) != d {
@@ -76,6 +96,14 @@ func (f OneHotState) Features(dst []float64, s, a, next int) {
 	dst[s] = 1
 }
 
+// Check returns an error wrapping ErrDimension unless N is numStates.
+func (f OneHotState) Check(numStates, numActions int) error {
+	if f.N != numStates {
+		return fmt.Errorf("sf: one-hot state: %d states, mdp has %d: %w", f.N, numStates, ErrDimension)
+	}
+	return nil
+}
+
 func (f OneHotState) hot(s, a, next int) (int, float64, int, float64) {
 	if uint(s) >= uint(f.N) {
 		panic(fmt.Sprintf("sf: one-hot state: state %d out of range [0, %d)", s, f.N))
@@ -105,6 +133,15 @@ func (f OneHotStateAction) Features(dst []float64, s, a, next int) {
 	dst[i] = 1
 }
 
+// Check returns an error wrapping ErrDimension unless N and A are
+// numStates and numActions.
+func (f OneHotStateAction) Check(numStates, numActions int) error {
+	if f.N != numStates || f.A != numActions {
+		return fmt.Errorf("sf: one-hot state-action: %d states x %d actions, mdp has %d x %d: %w", f.N, f.A, numStates, numActions, ErrDimension)
+	}
+	return nil
+}
+
 func (f OneHotStateAction) hot(s, a, next int) (int, float64, int, float64) {
 	if uint(s) >= uint(f.N) || uint(a) >= uint(f.A) {
 		panic(fmt.Sprintf("sf: one-hot state-action: pair (%d, %d) out of range", s, a))
@@ -127,10 +164,11 @@ type Labels struct {
 
 // NewLabels returns the label features for states labelled labelOf[s] in
 // [0, numLabels), or -1 for an unlabelled state. The slice is copied. It
-// returns an error wrapping ErrDimension if numLabels < 0, a label is out of
-// range, or the map would have no dimension at all.
+// returns an error wrapping ErrDimension if numLabels < 0 or above
+// MaxValues, a label is out of range, or the map would have no dimension
+// at all.
 func NewLabels(labelOf []int, numLabels int, constant bool) (*Labels, error) {
-	if numLabels < 0 || (numLabels == 0 && !constant) {
+	if numLabels < 0 || numLabels > MaxValues || (numLabels == 0 && !constant) {
 		return nil, fmt.Errorf("sf: labels: %d labels and no constant: %w", numLabels, ErrDimension)
 	}
 	of := make([]int, len(labelOf))
@@ -180,6 +218,15 @@ func (f *Labels) Features(dst []float64, s, a, next int) {
 	}
 }
 
+// Check returns an error wrapping ErrDimension unless f labels numStates
+// states.
+func (f *Labels) Check(numStates, numActions int) error {
+	if len(f.of) != numStates {
+		return fmt.Errorf("sf: labels: %d states labelled, mdp has %d: %w", len(f.of), numStates, ErrDimension)
+	}
+	return nil
+}
+
 func (f *Labels) hot(s, a, next int) (int, float64, int, float64) {
 	l := f.of[next]
 	if f.Constant {
@@ -224,10 +271,14 @@ func NewNextState(rows [][]float64) (*NextState, error) {
 // by rng, and with unit set each row is scaled to unit Euclidean length (a
 // point on the sphere, the form skill features take). This is the ablation
 // that uses no learned features; the same seed gives the same features.
-// It returns an error wrapping ErrDimension if n or d is not positive.
+// It returns an error wrapping ErrDimension if n or d is not positive or
+// n*d exceeds MaxValues, and ErrConfig for a nil rng.
 func NewRandom(n, d int, unit bool, rng *rand.Rand) (*NextState, error) {
-	if n <= 0 || d <= 0 {
-		return nil, fmt.Errorf("sf: random features: sizes %d, %d: %w", n, d, ErrDimension)
+	if err := checkSizes("random features", n, d); err != nil {
+		return nil, err
+	}
+	if rng == nil {
+		return nil, fmt.Errorf("sf: random features: nil rng: %w", ErrConfig)
 	}
 	f := &NextState{n: n, d: d, data: make([]float64, n*d)}
 	for s := 0; s < n; s++ {
@@ -256,6 +307,15 @@ func (f *NextState) Row(next int) []float64 {
 func (f *NextState) Features(dst []float64, s, a, next int) {
 	checkLen("next-state features", dst, f.d)
 	copy(dst, f.Row(next))
+}
+
+// Check returns an error wrapping ErrDimension unless f has a row for each
+// of numStates states.
+func (f *NextState) Check(numStates, numActions int) error {
+	if f.n != numStates {
+		return fmt.Errorf("sf: next-state features: %d rows, mdp has %d states: %w", f.n, numStates, ErrDimension)
+	}
+	return nil
 }
 
 func (f *NextState) row(s, a, next int) []float64 { return f.Row(next) }

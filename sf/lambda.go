@@ -81,11 +81,14 @@ type TDLambda struct {
 
 // NewTDLambda returns a TD(lambda) learner updating t in place for the
 // features phi and discount gamma in [0, 1]. Errors wrap ErrDiscount,
-// ErrDimension or ErrConfig (lambda outside [0, 1], an unknown trace, a
-// bad step).
+// ErrDimension (as for NewTD) or ErrConfig (a nil table or feature map,
+// lambda outside [0, 1], an unknown trace, a bad step).
 func NewTDLambda(t *Table, phi FeatureMap, gamma float64, s *TDLambdaConfig) (*TDLambda, error) {
 	if s == nil {
 		s = &TDLambdaConfig{}
+	}
+	if t == nil || phi == nil {
+		return nil, fmt.Errorf("sf: td lambda: nil table or feature map: %w", ErrConfig)
 	}
 	if !(gamma >= 0 && gamma <= 1) {
 		return nil, fmt.Errorf("sf: td lambda: gamma %v outside [0, 1]: %w", gamma, ErrDiscount)
@@ -96,8 +99,14 @@ func NewTDLambda(t *Table, phi FeatureMap, gamma float64, s *TDLambdaConfig) (*T
 	if s.Trace != Accumulating && s.Trace != Replacing {
 		return nil, fmt.Errorf("sf: td lambda: unknown trace %d: %w", int(s.Trace), ErrConfig)
 	}
-	if phi.Dim() != t.D || len(t.Data) != t.S*t.A*t.D {
+	if err := checkTable("td lambda", t); err != nil {
+		return nil, err
+	}
+	if phi.Dim() != t.D {
 		return nil, fmt.Errorf("sf: td lambda: features of dimension %d for a table of %d: %w", phi.Dim(), t.D, ErrDimension)
+	}
+	if err := checkFeatures(phi, t.S, t.A); err != nil {
+		return nil, fmt.Errorf("sf: td lambda: %w", err)
 	}
 	st, err := s.Schedule.resolve()
 	if err != nil {

@@ -23,10 +23,11 @@ type Linear struct {
 
 // NewLinear returns a zero approximator for the given numbers of actions,
 // features and observation entries. It returns an error wrapping
-// ErrDimension if a size is not positive.
+// ErrDimension if a size is not positive or the weights would number more
+// than MaxValues.
 func NewLinear(actions, d, m int) (*Linear, error) {
-	if actions <= 0 || d <= 0 || m <= 0 {
-		return nil, fmt.Errorf("sf: new linear: sizes %d, %d, %d must be positive: %w", actions, d, m, ErrDimension)
+	if err := checkSizes("new linear", actions, d, m); err != nil {
+		return nil, err
 	}
 	return &Linear{A: actions, D: d, M: m, W: make([]float64, actions*d*m)}, nil
 }
@@ -150,8 +151,14 @@ func NewLinearTD(l *Linear, gamma float64, s *LinearTDConfig) (*LinearTD, error)
 	if s == nil {
 		s = &LinearTDConfig{}
 	}
+	if l == nil {
+		return nil, fmt.Errorf("sf: linear td: nil model: %w", ErrConfig)
+	}
 	if !(gamma >= 0 && gamma <= 1) {
 		return nil, fmt.Errorf("sf: linear td: gamma %v outside [0, 1]: %w", gamma, ErrDiscount)
+	}
+	if err := checkSizes("linear td", l.A, l.D, l.M); err != nil {
+		return nil, err
 	}
 	if len(l.W) != l.A*l.D*l.M {
 		return nil, fmt.Errorf("sf: linear td: weights have length %d, want %d: %w", len(l.W), l.A*l.D*l.M, ErrDimension)
@@ -177,8 +184,16 @@ func NewLinearTD(l *Linear, gamma float64, s *LinearTDConfig) (*LinearTD, error)
 		}
 		lt.policy = s.Policy
 	case Greedy:
+		if s.Task == nil {
+			return nil, fmt.Errorf("sf: linear td: greedy target without a task: %w", ErrConfig)
+		}
 		if len(s.Task) != l.D {
 			return nil, fmt.Errorf("sf: linear td: task vector has length %d, want %d: %w", len(s.Task), l.D, ErrDimension)
+		}
+		for _, v := range s.Task {
+			if math.IsNaN(v) || math.IsInf(v, 0) {
+				return nil, fmt.Errorf("sf: linear td: task vector: %w", ErrNonFinite)
+			}
 		}
 		lt.task = append([]float64(nil), s.Task...)
 	default:

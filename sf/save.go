@@ -17,6 +17,11 @@ const (
 )
 
 func encode(what, magic string, sizes [3]int, vals []float64) ([]byte, error) {
+	for i, v := range vals {
+		if math.IsNaN(v) || math.IsInf(v, 0) {
+			return nil, fmt.Errorf("sf: save %s: value %d is %v: %w", what, i, v, ErrNonFinite)
+		}
+	}
 	e := fileio.NewEncoder(magic, formatVersion, 3*8+8*len(vals))
 	e.Ints(sizes[:])
 	e.Float64s(vals)
@@ -39,12 +44,18 @@ func decode(what, magic string, data []byte) (sizes [3]int, vals []float64, err 
 	if err := d.Finish(); err != nil {
 		return sizes, nil, err
 	}
+	for i, v := range vals {
+		if math.IsNaN(v) || math.IsInf(v, 0) {
+			return sizes, nil, d.Fail("values", "value %d is %v", i, v)
+		}
+	}
 	return sizes, vals, nil
 }
 
 // MarshalBinary encodes t in the format of the package doc ("Files")
 // (magic, version, length, sizes, values, CRC-32C). It returns an error
-// wrapping ErrDimension if len(t.Data) does not match the sizes.
+// wrapping ErrDimension if len(t.Data) does not match the sizes, or
+// ErrNonFinite if a value is NaN or infinite (a diverged table).
 func (t *Table) MarshalBinary() ([]byte, error) {
 	if t.S <= 0 || t.A <= 0 || t.D <= 0 || len(t.Data) != t.S*t.A*t.D {
 		return nil, fmt.Errorf("sf: save table: sizes %d, %d, %d and %d values: %w", t.S, t.A, t.D, len(t.Data), ErrDimension)
@@ -53,7 +64,8 @@ func (t *Table) MarshalBinary() ([]byte, error) {
 }
 
 // UnmarshalBinary sets t from data written by MarshalBinary. On error
-// (wrapping ErrCorrupt) t is unchanged.
+// (wrapping ErrCorrupt: a bad frame, sizes beyond the bytes present, a
+// non-finite value) t is unchanged.
 func (t *Table) UnmarshalBinary(data []byte) error {
 	sz, vals, err := decode("table", magicTable, data)
 	if err != nil {
@@ -79,8 +91,9 @@ func (t *Table) Save(path string) error {
 }
 
 // LoadTable reads a Table saved by Save. A truncated, altered or foreign
-// file, or one larger than any record can be, gives an error wrapping
-// ErrCorrupt; a file that cannot be read gives the os error.
+// file, one larger than any record can be, or one holding a NaN or an
+// infinity, gives an error wrapping ErrCorrupt; a file that cannot be read
+// gives the os error.
 func LoadTable(path string) (*Table, error) {
 	b, err := fileio.ReadFile(path)
 	if err != nil {
@@ -95,7 +108,7 @@ func LoadTable(path string) (*Table, error) {
 
 // MarshalBinary encodes l in the format of the package doc ("Files").
 // It returns an error wrapping ErrDimension if len(l.W) does not match the
-// sizes.
+// sizes, or ErrNonFinite if a weight is NaN or infinite.
 func (l *Linear) MarshalBinary() ([]byte, error) {
 	if l.A <= 0 || l.D <= 0 || l.M <= 0 || len(l.W) != l.A*l.D*l.M {
 		return nil, fmt.Errorf("sf: save linear: sizes %d, %d, %d and %d values: %w", l.A, l.D, l.M, len(l.W), ErrDimension)
@@ -104,7 +117,7 @@ func (l *Linear) MarshalBinary() ([]byte, error) {
 }
 
 // UnmarshalBinary sets l from data written by MarshalBinary. On error
-// (wrapping ErrCorrupt) l is unchanged.
+// (wrapping ErrCorrupt, as for Table.UnmarshalBinary) l is unchanged.
 func (l *Linear) UnmarshalBinary(data []byte) error {
 	sz, vals, err := decode("linear", magicLinear, data)
 	if err != nil {

@@ -16,7 +16,7 @@ import (
 
 func sampleTable() *Table {
 	t, _ := NewTable(2, 3, 2)
-	vals := []float64{0, math.Copysign(0, -1), 1.5, -2.25, math.Inf(1), math.Float64frombits(0x7ff8000000000123),
+	vals := []float64{0, math.Copysign(0, -1), 1.5, -2.25, -math.MaxFloat64, math.Float64frombits(0x000f000000000123),
 		math.SmallestNonzeroFloat64, math.MaxFloat64, 1e-300, 3, 4, 5}
 	copy(t.Data, vals)
 	return t
@@ -34,8 +34,9 @@ func sameBits(x, y []float64) bool {
 	return true
 }
 
-// TestSaveLoad checks bit-exact round trips through files (NaN payload and
-// signed zero included) and that no temporary file is left behind.
+// TestSaveLoad checks bit-exact round trips through files (subnormals,
+// extremes and signed zero included) and that no temporary file is left
+// behind.
 func TestSaveLoad(t *testing.T) {
 	dir := t.TempDir()
 	tb := sampleTable()
@@ -143,6 +144,48 @@ func TestLoadCorrupt(t *testing.T) {
 	}
 }
 
+// TestNonFiniteValues checks that NaN and infinite values are refused
+// both ways: Save with ErrNonFinite, and a file holding one (checksum
+// recomputed) with ErrCorrupt. Such files used to load and feed NaN into
+// every later use of the table.
+func TestNonFiniteValues(t *testing.T) {
+	for _, v := range []float64{math.NaN(), math.Float64frombits(0x7ff8000000000123), math.Inf(1), math.Inf(-1)} {
+		tb := sampleTable()
+		tb.Data[5] = v
+		if _, err := tb.MarshalBinary(); !errors.Is(err, ErrNonFinite) {
+			t.Errorf("save a table holding %v: error %v, want ErrNonFinite", v, err)
+		}
+		if err := tb.Save(filepath.Join(t.TempDir(), "t")); !errors.Is(err, ErrNonFinite) {
+			t.Errorf("Save a table holding %v: error %v, want ErrNonFinite", v, err)
+		}
+		lin, _ := NewLinear(1, 2, 1)
+		lin.W[1] = v
+		if _, err := lin.MarshalBinary(); !errors.Is(err, ErrNonFinite) {
+			t.Errorf("save a linear holding %v: error %v, want ErrNonFinite", v, err)
+		}
+
+		good, err := sampleTable().MarshalBinary()
+		if err != nil {
+			t.Fatal(err)
+		}
+		bad := bytes.Clone(good)
+		binary.LittleEndian.PutUint64(bad[40+8*5:], math.Float64bits(v))
+		var got Table
+		if err := got.UnmarshalBinary(fileio.Reseal(bad)); !errors.Is(err, ErrCorrupt) {
+			t.Errorf("load a table holding %v: error %v, want ErrCorrupt", v, err)
+		}
+		lb, err := (&Linear{A: 1, D: 2, M: 1, W: []float64{1, 2}}).MarshalBinary()
+		if err != nil {
+			t.Fatal(err)
+		}
+		binary.LittleEndian.PutUint64(lb[40+8:], math.Float64bits(v))
+		var l Linear
+		if err := l.UnmarshalBinary(fileio.Reseal(lb)); !errors.Is(err, ErrCorrupt) {
+			t.Errorf("load a linear holding %v: error %v, want ErrCorrupt", v, err)
+		}
+	}
+}
+
 // withSizes returns a copy of the record b with its three sizes replaced
 // and its checksum recomputed.
 func withSizes(b []byte, sizes [3]uint64) []byte {
@@ -191,7 +234,14 @@ func FuzzLoadTable(f *testing.F) {
 	small, _ := NewTable(1, 1, 1)
 	sb, _ := small.MarshalBinary()
 	f.Add(sb)
+	// Giant headers: sizes far beyond the bytes present, one whose
+	// product overflows, one with a NaN value.
 	f.Add(withSizes(b, [3]uint64{1<<31 - 1, 3, 2}))
+	f.Add(withSizes(b, [3]uint64{1 << 32, 1 << 16, 1 << 16}))
+	f.Add(withSizes(b, [3]uint64{math.MaxInt64, math.MaxInt64, 2}))
+	nan := bytes.Clone(b)
+	binary.LittleEndian.PutUint64(nan[40:], math.Float64bits(math.NaN()))
+	f.Add(fileio.Reseal(nan))
 	f.Fuzz(func(t *testing.T, data []byte) {
 		for _, data := range [][]byte{data, fileio.Reseal(data)} {
 			var tb Table
@@ -225,7 +275,17 @@ func FuzzTableRoundTrip(f *testing.F) {
 			}
 			tb.Data[i] = math.Float64frombits(u)
 		}
+		finite := true
+		for _, v := range tb.Data {
+			finite = finite && !math.IsNaN(v) && !math.IsInf(v, 0)
+		}
 		b, err := tb.MarshalBinary()
+		if !finite {
+			if !errors.Is(err, ErrNonFinite) {
+				t.Fatalf("non-finite values: error %v, want ErrNonFinite", err)
+			}
+			return
+		}
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -249,6 +309,8 @@ func FuzzLoadLinear(f *testing.F) {
 	f.Add(b)
 	f.Add(b[:len(b)-1])
 	f.Add(withSizes(b, [3]uint64{2, 2, 1<<31 - 1}))
+	f.Add(withSizes(b, [3]uint64{1 << 32, 1 << 16, 1 << 16}))
+	f.Add(withSizes(b, [3]uint64{math.MaxInt64, math.MaxInt64, 2}))
 	f.Fuzz(func(t *testing.T, data []byte) {
 		for _, data := range [][]byte{data, fileio.Reseal(data)} {
 			var l Linear

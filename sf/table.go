@@ -15,11 +15,46 @@ type Table struct {
 	Data    []float64
 }
 
+// MaxValues bounds the number of values of a Table (S*A*D) and of a
+// Linear (A*D*M): 2^32 float64s, 32 GiB. NewTable and NewLinear refuse
+// larger sizes, and sizes whose product overflows, with an error rather
+// than a failed allocation.
+const MaxValues = 1 << 32
+
+// checkSizes returns an error wrapping ErrDimension unless every size is
+// positive and their product is at most MaxValues.
+func checkSizes(what string, sizes ...int) error {
+	p := uint64(1)
+	for _, n := range sizes {
+		if n <= 0 {
+			return fmt.Errorf("sf: %s: sizes %v must be positive: %w", what, sizes, ErrDimension)
+		}
+		if uint64(n) > MaxValues/p {
+			return fmt.Errorf("sf: %s: sizes %v hold more than %d values: %w", what, sizes, uint64(MaxValues), ErrDimension)
+		}
+		p *= uint64(n)
+	}
+	return nil
+}
+
+// checkTable returns an error wrapping ErrDimension unless t's sizes are
+// valid (as NewTable checks them) and match len(t.Data).
+func checkTable(what string, t *Table) error {
+	if err := checkSizes(what, t.S, t.A, t.D); err != nil {
+		return err
+	}
+	if len(t.Data) != t.S*t.A*t.D {
+		return fmt.Errorf("sf: %s: table data has length %d, want %d: %w", what, len(t.Data), t.S*t.A*t.D, ErrDimension)
+	}
+	return nil
+}
+
 // NewTable returns a zeroed table for s states, a actions and d features.
-// It returns an error wrapping ErrDimension if a size is not positive.
+// It returns an error wrapping ErrDimension if a size is not positive or
+// the table would hold more than MaxValues values.
 func NewTable(s, a, d int) (*Table, error) {
-	if s <= 0 || a <= 0 || d <= 0 {
-		return nil, fmt.Errorf("sf: new table: sizes %d, %d, %d must be positive: %w", s, a, d, ErrDimension)
+	if err := checkSizes("new table", s, a, d); err != nil {
+		return nil, err
 	}
 	return &Table{S: s, A: a, D: d, Data: make([]float64, s*a*d)}, nil
 }

@@ -104,20 +104,16 @@ func NewTaskEstimator(d int, lambda float64, s *TaskConfig) (*TaskEstimator, err
 
 // Observe adds the labelled transition with features phi and reward r. It
 // returns an error wrapping ErrNonFinite, and ignores the sample, if phi or
-// r holds NaN or an infinity. It panics if len(phi) != d. It does not
-// allocate.
+// r holds NaN or an infinity, or if finite values would overflow the
+// update (features of 1e200, whose squared norm is not a float64; see
+// linalg.RLS.Update). It panics if len(phi) != d. It does not allocate.
 func (e *TaskEstimator) Observe(phi []float64, r float64) error {
 	if len(phi) != e.rls.Dim() {
 		panic(fmt.Sprintf("sf: task estimator: features have length %d, want %d", len(phi), e.rls.Dim()))
 	}
-	sum := r
-	for _, v := range phi {
-		sum += v
+	if err := e.rls.Update(phi, r); err != nil {
+		return fmt.Errorf("sf: task estimator: %w", err)
 	}
-	if math.IsNaN(sum) || math.IsInf(sum, 0) {
-		return fmt.Errorf("sf: task estimator: sample %d: %w", e.rls.Count()+1, ErrNonFinite)
-	}
-	e.rls.Update(phi, r)
 	return nil
 }
 

@@ -179,12 +179,17 @@ type TD struct {
 
 // NewTD returns a TD(0) learner updating t in place for the features phi and
 // discount gamma in [0, 1]. It returns an error wrapping ErrDiscount,
-// ErrDimension (phi.Dim() != t.D, a task or policy of the wrong size),
-// ErrConfig (a missing policy or task, an unknown target or a bad step)
-// or linalg.ErrNotStochastic (a policy that is not a distribution).
+// ErrDimension (phi.Dim() != t.D, a task or policy of the wrong size, a
+// feature map whose mdp.Checker refuses the table's states and actions),
+// ErrConfig (a nil table or feature map, a missing policy or task, an
+// unknown target or a bad step) or linalg.ErrNotStochastic (a policy that
+// is not a distribution).
 func NewTD(t *Table, phi FeatureMap, gamma float64, s *TDConfig) (*TD, error) {
 	if s == nil {
 		s = &TDConfig{}
+	}
+	if t == nil || phi == nil {
+		return nil, fmt.Errorf("sf: td: nil table or feature map: %w", ErrConfig)
 	}
 	if !(gamma >= 0 && gamma <= 1) {
 		return nil, fmt.Errorf("sf: td: gamma %v outside [0, 1]: %w", gamma, ErrDiscount)
@@ -192,8 +197,11 @@ func NewTD(t *Table, phi FeatureMap, gamma float64, s *TDConfig) (*TD, error) {
 	if phi.Dim() != t.D {
 		return nil, fmt.Errorf("sf: td: features have dimension %d, table %d: %w", phi.Dim(), t.D, ErrDimension)
 	}
-	if len(t.Data) != t.S*t.A*t.D {
-		return nil, fmt.Errorf("sf: td: table data has length %d, want %d: %w", len(t.Data), t.S*t.A*t.D, ErrDimension)
+	if err := checkTable("td", t); err != nil {
+		return nil, err
+	}
+	if err := checkFeatures(phi, t.S, t.A); err != nil {
+		return nil, fmt.Errorf("sf: td: %w", err)
 	}
 	st, err := s.Schedule.resolve()
 	if err != nil {
@@ -242,6 +250,9 @@ func NewTD(t *Table, phi FeatureMap, gamma float64, s *TDConfig) (*TD, error) {
 		}
 		l.probs = p
 	case Greedy:
+		if s.Task == nil {
+			return nil, fmt.Errorf("sf: td: greedy target without a task: %w", ErrConfig)
+		}
 		if err := l.SetTask(s.Task); err != nil {
 			return nil, err
 		}
@@ -459,8 +470,13 @@ const (
 )
 
 // policyProbs tabulates pi(a|s) for n states and na actions, checking that
-// every row is a distribution.
+// pi fits (mdp.Checker) and that every row is a distribution.
 func policyProbs(n, na int, pi mdp.Policy) ([]float64, error) {
+	if c, ok := pi.(mdp.Checker); ok {
+		if err := c.Check(n, na); err != nil {
+			return nil, err
+		}
+	}
 	probs := make([]float64, n*na)
 	for s := 0; s < n; s++ {
 		if err := checkDist(probs[s*na:(s+1)*na], s, pi); err != nil {

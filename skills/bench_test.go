@@ -114,3 +114,21 @@ func BenchmarkVMFLogNorm(b *testing.B) {
 		})
 	}
 }
+
+// BenchmarkVMFMeanLength measures the continued fraction of A_d(kappa)
+// across the range of kappa (the cost peaks near 1e8, where the starting
+// bounds are loose and the damping per step weak).
+func BenchmarkVMFMeanLength(b *testing.B) {
+	for _, kappa := range []float64{10, 1e3, 1e6, 1e8, 1e10} {
+		b.Run(fmt.Sprintf("d=64/kappa=%g", kappa), func(b *testing.B) {
+			b.ReportAllocs()
+			var s float64
+			for b.Loop() {
+				s += VMFMeanLength(64, kappa)
+			}
+			if s < 0 {
+				b.Fatal(s)
+			}
+		})
+	}
+}

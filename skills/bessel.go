@@ -194,6 +194,17 @@ func VMFLogNorm(d int, kappa float64) float64 {
 // S^{d-1}; it equals -d/dkappa log C_d(kappa) and increases from 0 at
 // kappa = 0 towards 1.
 //
+// The ratio is computed directly, never as a difference of logarithms
+// (which loses |log I| x 1e-16 and made A_d fail to increase above kappa
+// of about 1000): by Gauss's continued fraction for the ratio of modified
+// Bessel functions, evaluated backward from a starting order bracketed by
+// Amos's bounds (see besselRatio). Its relative error is one or two ulps:
+// at most 3.1e-16 measured for d = 3 and 1 <= kappa <= 1e12 against the
+// closed form coth kappa - 1/kappa, and 2.2e-16 for 2 <= d <= 64 and
+// 1e-9 <= kappa <= 5000 against a 256-bit series (the tests require
+// 5e-16), so A_d does not decrease in kappa wherever its increase exceeds
+// that (an increase of 0.05 at kappa = 7.8e4 raises A_3 by 8e-12).
+//
 // Special cases are:
 //
 //	VMFMeanLength(d, 0) = 0
@@ -209,10 +220,78 @@ func VMFMeanLength(d int, kappa float64) float64 {
 	if kappa == 0 {
 		return 0
 	}
-	nu := float64(d)/2 - 1
-	if kappa <= besselSeriesMax {
-		// I_{nu+1}/I_nu = (kappa/2)/(nu+1) * S_{nu+1}/S_nu.
-		return kappa / (2 * (nu + 1)) * math.Exp(besselLogSeries(nu+1, kappa)-besselLogSeries(nu, kappa))
+	return besselRatio(float64(d)/2-1, kappa)
+}
+
+// besselRatio returns r_nu(x) = I_{nu+1}(x) / I_nu(x) for nu >= 0 and
+// finite x > 0.
+//
+// The recurrence I_{k-1}(x) - I_{k+1}(x) = (2k/x) I_k(x) (Abramowitz &
+// Stegun 9.6.26) gives r_k = x / (2(k+1) + x r_{k+1}), whose repetition
+// is Gauss's continued fraction for the ratio (the name from memory; the
+// fraction is derived by hand from the recurrence)
+//
+//	r_nu(x) = x/(2(nu+1) + x^2/(2(nu+2) + x^2/(2(nu+3) + ...))).
+//
+// It is evaluated backward, r_{m-1}, ..., r_nu, from order m = nu + n,
+// twice: from the lower and from the upper of Amos's bounds (Amos 1974,
+// Math. Comp. 28, eq. (16), from memory; TestAmosBounds checks them)
+//
+//	x/(m + 1/2 + sqrt(x^2 + (m+3/2)^2)) <= r_m(x) <= x/(m + 1/2 + sqrt(x^2 + (m+1/2)^2)).
+//
+// A step is decreasing in r_{k+1}, so the two runs bracket r_nu, and it
+// shrinks their gap by r_k^2 < 1 (the recurrence is stable). n = 0, 8,
+// 16, 32, ... until the bracket is 2^-50 wide relative (a few ulps; the
+// rounding of a run), and the midpoint is returned.
+//
+// Where r_k > 1/2 the steps carry the complement u_k = 1 - r_k instead,
+//
+//	u_k = (c - x u_{k+1}) / (x + c - x u_{k+1}),   c = 2(k+1),
+//
+// (derived by hand from the step for r), so that the rounding error of a
+// step is relative to u_k, not to r_k near 1: for large x the damping
+// r_k^2 is close to 1, and steps in r add up their rounding errors (to
+// 4e-15 relative at x = 1e6) where steps in u leave A = 1 - u correct to
+// about an ulp.
+//
+// The bracket at order m is about (m+1)/x^2 wide (relative, for x much
+// larger than m) and each step at order k damps it by about
+// 1 - (2k+1)/x, so n stays 0 where x^2 is above about 1e16 (nu+1), and a
+// few steps where x is much smaller than nu; in between n grows to a few
+// sqrt(x). BenchmarkVMFMeanLength measured VMFMeanLength(64, kappa) at
+// 0.07 us for kappa = 10, 3 us at 1000 (the largest learned kappa by
+// default), 50 us at 1e6, 0.6 ms at 1e8 (about the slowest) and 0.03 us
+// at 1e10 (one run on a shared machine).
+func besselRatio(nu, x float64) float64 {
+	for n := 0; ; n = max(8, 2*n) {
+		m := nu + float64(n)
+		a := m + 0.5
+		sLo, sHi := math.Hypot(x, m+1.5), math.Hypot(x, m+0.5) // no overflow for huge x
+		lo, hi := x/(a+sLo), x/(a+sHi)
+		comp := lo > 0.5
+		var uLo, uHi float64 // 1 - hi, 1 - lo when comp
+		if comp {
+			// 1 - x/(a + S) = (a + (S - x))/(a + S), S - x = b^2/(S + x).
+			uLo = (a + (m+0.5)*(m+0.5)/(sHi+x)) / (a + sHi)
+			uHi = (a + (m+1.5)*(m+1.5)/(sLo+x)) / (a + sLo)
+		}
+		for j := n - 1; j >= 0; j-- {
+			c := 2 * (nu + float64(j) + 1)
+			if comp {
+				nLo, nHi := c-x*uHi, c-x*uLo
+				uLo, uHi = nLo/(x+nLo), nHi/(x+nHi)
+				continue
+			}
+			lo, hi = x/(c+x*hi), x/(c+x*lo)
+			if lo > 0.5 {
+				comp, uLo, uHi = true, 1-hi, 1-lo // exact: 1/2 < r < 1 (Sterbenz)
+			}
+		}
+		if comp {
+			lo, hi = 1-uHi, 1-uLo
+		}
+		if hi-lo <= 0x1p-50*hi || n >= 1<<26 {
+			return lo + 0.5*(hi-lo)
+		}
 	}
-	return math.Exp(besselLogDebye(nu+1, kappa) - besselLogDebye(nu, kappa))
 }

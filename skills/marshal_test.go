@@ -221,6 +221,11 @@ func FuzzUnmarshal(f *testing.F) {
 	b, _ := Marshal(trained(f)[0])
 	binary.LittleEndian.PutUint64(b[fileio.HeaderLen+1:], 1<<31-1) // in
 	f.Add(fileio.Reseal(b))
+	for _, off := range []int{1 + 8, 1 + 16} { // zdim, number of hidden layers
+		g, _ := Marshal(trained(f)[0])
+		binary.LittleEndian.PutUint64(g[fileio.HeaderLen+off:], 1<<62)
+		f.Add(fileio.Reseal(g))
+	}
 	f.Fuzz(func(t *testing.T, data []byte) {
 		for _, b := range [][]byte{data, fileio.Reseal(data)} {
 			d, err := Unmarshal(b)

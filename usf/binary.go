@@ -50,7 +50,19 @@ func finite(v ...float64) bool {
 // actions, d, K, gamma, alpha, power, steps, the K vectors z (K x d), the
 // K tables (K x states x actions x d, in the order of sf.Table.Data), and,
 // when power > 0, the visit counts (K x states x actions).
+//
+// A diverged t (Err not nil) is not encoded: the error wraps ErrDiverged,
+// since a loaded copy would not know it diverged. A table value that is
+// NaN or infinite is an error wrapping ErrNonFinite.
 func (t *Tabular) MarshalBinary() ([]byte, error) {
+	if t.err != nil {
+		return nil, fmt.Errorf("usf: save tabular: %w", t.err)
+	}
+	for k, tab := range t.Tables {
+		if !finite(tab.Data...) {
+			return nil, fmt.Errorf("usf: save tabular: table of z %d: %w", k, ErrNonFinite)
+		}
+	}
 	s := t.ObsDim()
 	a, d := t.Shape()
 	k := len(t.Z)
@@ -74,10 +86,11 @@ func (t *Tabular) MarshalBinary() ([]byte, error) {
 }
 
 // UnmarshalBinary replaces t with the approximator encoded by
-// MarshalBinary. A divergence error is not saved. It returns an error
-// wrapping ErrCorrupt for malformed data (a bad frame, sizes beyond the
-// bytes present, settings out of range, a non-finite z, negative,
-// fractional or non-finite visit counts), leaving t unchanged.
+// MarshalBinary. It returns an error wrapping ErrCorrupt for malformed
+// data (a bad frame, sizes beyond the bytes present, settings out of
+// range, a non-finite z or table value, negative, fractional or
+// non-finite visit counts), leaving t unchanged. Sizes are checked against
+// the bytes present before anything of their size is allocated.
 func (t *Tabular) UnmarshalBinary(data []byte) error {
 	d, err := fileio.Open("usf: load tabular", data, tabularMagic, binVersion)
 	if err != nil {
@@ -107,8 +120,11 @@ func (t *Tabular) UnmarshalBinary(data []byte) error {
 	if err != nil {
 		return d.Fail("sizes or z", "%v", err)
 	}
-	for _, tab := range n.Tables {
+	for k, tab := range n.Tables {
 		d.ReadFloat64s("tables", tab.Data)
+		if d.Err() == nil && !finite(tab.Data...) {
+			return d.Fail("tables", "table of z %d holds a NaN or an infinity", k)
+		}
 	}
 	var visits []float64
 	if power > 0 {

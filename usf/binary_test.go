@@ -241,6 +241,10 @@ func TestLoadOutOfRange(t *testing.T) {
 		{"tabular NaN visits", putFloat(tb, visits, math.NaN()), new(Tabular)},
 		{"tabular infinite visits", putFloat(tb, visits, math.Inf(1)), new(Tabular)},
 		{"tabular fractional visits", putFloat(tb, visits, 0.5), new(Tabular)},
+		// The tables start after 8 header words and K x d = 4 z values.
+		{"tabular NaN value", putFloat(tb, fileio.HeaderLen+8*(8+4)+8, math.NaN()), new(Tabular)},
+		{"tabular infinite value", putFloat(tb, fileio.HeaderLen+8*(8+4+23), math.Inf(-1)), new(Tabular)},
+		{"tabular NaN z", putFloat(tb, fileio.HeaderLen+8*8, math.NaN()), new(Tabular)},
 		{"replay capacity 2^31-1", putInt(rb, 0, 1<<31-1), new(Replay)},
 		{"replay size beyond capacity", putInt(rb, 24, 6), new(Replay)},
 		{"replay obs 2^31-1", putInt(rb, 8, 1<<31-1), new(Replay)},
@@ -312,6 +316,7 @@ func FuzzLoadNeural(f *testing.F) {
 	f.Add([]byte(neuralMagic))
 	f.Add(putInt(b, 0, 1<<31-1))               // obs
 	f.Add(putInt(b, 8*3+8*2+8+8+1+8, 1<<31-1)) // length of the network
+	f.Add(putInt(b, 8*3+8*2+8+8+1+8, math.MaxInt64))
 	f.Fuzz(fuzzRoundTrip[Neural])
 }
 
@@ -327,8 +332,9 @@ func FuzzLoadReplay(f *testing.F) {
 	f.Add(b)
 	f.Add([]byte(replayMagic))
 	f.Add(mustMarshal(f, indexReplay(f)))
-	f.Add(putInt(b, 0, 1<<31-1))  // capacity
-	f.Add(putInt(b, 24, 1<<31-1)) // size
+	f.Add(putInt(b, 0, 1<<31-1))                  // capacity
+	f.Add(putInt(b, 24, 1<<31-1))                 // size
+	f.Add(putInt(putInt(b, 8, 1<<28), 16, 1<<28)) // obs and d
 	f.Fuzz(fuzzRoundTrip[Replay])
 }
 
@@ -339,6 +345,8 @@ func FuzzLoadTabular(f *testing.F) {
 	f.Add(b)
 	f.Add(putInt(b, 0, 1<<31-1))  // states
 	f.Add(putInt(b, 24, 1<<31-1)) // K
+	f.Add(putInt(putInt(putInt(b, 0, 1<<32), 8, 1<<32), 16, 1<<32))
+	f.Add(putInt(putInt(b, 0, math.MaxInt64), 8, math.MaxInt64))
 	f.Fuzz(fuzzRoundTrip[Tabular])
 }
 

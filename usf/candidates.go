@@ -9,11 +9,14 @@ import (
 	"github.com/successor-go/successor/skills"
 )
 
+// MaxCandidates bounds CandidateConfig.N.
+const MaxCandidates = 1 << 20
+
 // CandidateConfig configures Candidates. A nil *CandidateConfig means the
 // zero value.
 type CandidateConfig struct {
-	// N is the number of vectors drawn around w (the set has N+1). 0 means
-	// none: the set is {w}.
+	// N is the number of vectors drawn around w (the set has N+1), at
+	// most MaxCandidates. 0 means none: the set is {w}.
 	N int
 	// Kappa is the von Mises-Fisher concentration (larger is closer to
 	// w; 0 is uniform on the sphere). Used unless Sigma > 0.
@@ -30,7 +33,8 @@ type CandidateConfig struct {
 // with cfg.Sigma > 0, by normal-then-normalise. The drawn vectors lie on
 // the unit sphere, where the policy of z is scale-free anyway (pi_z is
 // greedy in psi(s, ., z) . z). Errors wrap ErrDimension (empty w),
-// ErrNonFinite, ErrConfig (negative N, Kappa or Sigma) or ErrZeroVector
+// ErrNonFinite, ErrConfig (N negative or above MaxCandidates, negative
+// Kappa or Sigma) or ErrZeroVector
 // (w = 0 with N > 0).
 func Candidates(w []float64, cfg *CandidateConfig, rng *rand.Rand) ([][]float64, error) {
 	var c CandidateConfig
@@ -45,7 +49,7 @@ func Candidates(w []float64, cfg *CandidateConfig, rng *rand.Rand) ([][]float64,
 			return nil, fmt.Errorf("usf: candidates: w: %w", ErrNonFinite)
 		}
 	}
-	if c.N < 0 || !(c.Kappa >= 0) || !(c.Sigma >= 0) || math.IsInf(c.Kappa, 0) || math.IsInf(c.Sigma, 0) {
+	if c.N < 0 || c.N > MaxCandidates || !(c.Kappa >= 0) || !(c.Sigma >= 0) || math.IsInf(c.Kappa, 0) || math.IsInf(c.Sigma, 0) {
 		return nil, fmt.Errorf("usf: candidates: config %+v: %w", c, ErrConfig)
 	}
 	out := make([][]float64, 0, c.N+1)

@@ -44,13 +44,21 @@ type Replay struct {
 	x, nx, phi, z     []float64
 }
 
+// MaxReplayWords bounds the buffers of a Replay: capacity x (6 + 2 obs +
+// 2 dim) words of 8 bytes (the whole capacity is allocated up front),
+// 2^32 words or 32 GiB.
+const MaxReplayWords = 1 << 32
+
 // NewReplay returns an empty replay of the given capacity for observations
 // of dimension obs (0: the replay keeps integer states only) and features
 // of dimension dim (0: the replay keeps the set index K of each transition
-// instead of its features and z). Errors wrap ErrDimension.
+// instead of its features and z). Errors wrap ErrDimension: a capacity
+// outside 1..2^30, a negative obs or dim, or buffers of more than
+// MaxReplayWords words.
 func NewReplay(capacity, obs, dim int) (*Replay, error) {
-	if capacity <= 0 || obs < 0 || dim < 0 || capacity > 1<<30 {
-		return nil, fmt.Errorf("usf: replay: capacity %d, obs %d, dim %d: %w", capacity, obs, dim, ErrDimension)
+	if capacity <= 0 || obs < 0 || dim < 0 || capacity > 1<<30 || obs > 1<<28 || dim > 1<<28 ||
+		uint64(capacity)*uint64(6+2*obs+2*dim) > MaxReplayWords {
+		return nil, fmt.Errorf("usf: replay: capacity %d, obs %d, dim %d (at most %d words): %w", capacity, obs, dim, uint64(MaxReplayWords), ErrDimension)
 	}
 	r := &Replay{capacity: capacity, obs: obs, d: dim}
 	r.alloc()

@@ -360,7 +360,7 @@ func (t *Tabular) Update(b *Batch) (float64, error) {
 			}
 			nrow = tab.Row(next, an)
 		}
-		var sq float64
+		var sq, chk float64
 		for j := range row {
 			y := phi[j]
 			if nrow != nil {
@@ -368,9 +368,14 @@ func (t *Tabular) Update(b *Batch) (float64, error) {
 			}
 			delta := y - row[j]
 			sq += delta * delta
-			row[j] += step * delta
+			v := row[j] + step*delta
+			row[j] = v
+			chk += v - v // 0 for a finite v, NaN otherwise
 		}
-		if math.IsNaN(sq) || math.IsInf(sq, 0) {
+		// Both the deltas and the values written are checked: a finite
+		// delta times an infinite step (a visit count of -1 from a file
+		// gives 0^-power) writes Inf or NaN with sq finite.
+		if math.IsNaN(sq) || math.IsInf(sq, 0) || chk != 0 {
 			t.err = &sf.DivergenceError{Learner: "usf tabular", Step: t.steps, State: s, Action: a}
 			return 0, t.err
 		}

@@ -82,6 +82,7 @@ type options struct {
 	discOptim    skills.OptimMethod
 	skills       int
 	candidates   int
+	gpi          transfer.GPIMode
 	ckptDir      string
 }
 
@@ -100,15 +101,18 @@ func main() {
 
 func parseFlags(args []string, stderr io.Writer) (*options, error) {
 	fs := flag.NewFlagSet("depot", flag.ContinueOnError)
-	fs.SetOutput(stderr)
+	// The flag package's own messages would print each error twice (once
+	// here, once by main) and the usage after it; errors are returned and
+	// printed once, and the usage is printed for -h alone.
+	fs.SetOutput(io.Discard)
 	o := &options{}
-	var methods string
+	var methods, explore, discOptim, gpi string
 	var seed uint64
 	fs.IntVar(&o.budget, "budget", 1000, "labelled transitions per job (the table's budget; the curve uses smaller budgets too)")
 	fs.IntVar(&o.seeds, "seeds", 5, "number of seeds (runs), at least 2 for a standard error")
 	fs.Uint64Var(&seed, "seed", 1, "first seed; the runs use seed, seed+1, ...")
 	fs.StringVar(&methods, "methods", "vmf,categorical,random,given", "comma-separated pretraining methods: vmf, categorical, random, given")
-	fs.StringVar(&o.out, "out", "depot-out", "output folder (created if missing)")
+	fs.StringVar(&o.out, "out", "depot-out", "output folder (created if missing; checked to be writable before the runs start)")
 	fs.BoolVar(&o.quick, "quick", false, "a few seconds: fewer steps, 2 seeds, smaller budget (for CI)")
 	fs.IntVar(&o.workers, "workers", 0, "parallel runs (0: one per CPU); the figures do not depend on it")
 	fs.IntVar(&o.steps, "steps", 0, "pretraining steps per run (0: the default, 100000; -quick 8000)")
@@ -116,20 +120,21 @@ func parseFlags(args []string, stderr io.Writer) (*options, error) {
 	fs.BoolVar(&o.noPlots, "noplots", false, "skip the PNG and SVG figures (the NumPy arrays are still written)")
 	fs.IntVar(&o.dim, "dim", 0, "feature dimension d of the sphere methods vmf and random (0: the demo's default, 64); categorical's is skills+1, given's the number of place features")
 	fs.Float64Var(&o.discStepSize, "discrate", 0, "step size of the discriminator's Adam (0: transfer's default)")
-	fs.TextVar(&o.discOptim, "discoptim", skills.OptimAdam, "discriminator optimiser: adam, or sparse-adam (only the minibatch's states and the bias; faster, transferred worse on this depot)")
+	fs.StringVar(&discOptim, "discoptim", "adam", "discriminator optimiser: adam, or sparse-adam (only the minibatch's states and the bias; faster, transferred worse on this depot)")
 	fs.IntVar(&o.skills, "skills", 0, "number of skills K of every method (0: the demo's default, 128 for vmf, random and given, 64 for categorical)")
-	fs.IntVar(&o.candidates, "candidates", 0, "GPI candidates: the skills nearest the inferred task (0: transfer's default)")
+	fs.IntVar(&o.candidates, "candidates", 0, "GPI candidates: the number of skills nearest the inferred task that GPI chooses among (0: transfer's default); see -gpi")
+	fs.StringVar(&gpi, "gpi", "on", "GPI over the candidate skills: on, or off (act on the single nearest skill)")
 	fs.StringVar(&o.ckptDir, "checkpoints", "", "keep every pretraining run's checkpoint and result rows in folder `DIR` (created if missing), so a run that is\nstopped (Ctrl-C, kill, crash) continues where it stopped when started again with the same flags and folder; the figures are\nthe same as without a stop. Files of other settings are refused: use a new folder per setting. Default: off (nothing kept;\nthe files take tens of MB per run)")
-	fs.TextVar(&o.explore, "explore", transfer.ExploreSkills, "how the agent collects its labelled steps: skills (follow its skills), greedy (skills, then act on the task inferred so far), uniform (random actions)")
-	fs.Usage = func() {
-		fmt.Fprintf(fs.Output(), "usage: depot [flags]\n\nPretrain on the invented depot floor without reward, then adapt to held-out jobs.\n\n")
-		fs.PrintDefaults()
-	}
+	fs.StringVar(&explore, "explore", "skills", "how the agent collects its labelled steps: skills (follow its skills), greedy (skills, then act on the task inferred so far), uniform (random actions)")
+	fs.Usage = func() {} // printed below for -h only
 	if err := fs.Parse(args); err != nil {
 		if errors.Is(err, flag.ErrHelp) {
+			fmt.Fprintf(stderr, "usage: depot [flags]\n\nPretrain on the invented depot floor without reward, then adapt to held-out jobs.\n\n")
+			fs.SetOutput(stderr)
+			fs.PrintDefaults()
 			return nil, err
 		}
-		return nil, fmt.Errorf("%w: %v", errUsage, err)
+		return nil, fmt.Errorf("%w: %v (see -h)", errUsage, err)
 	}
 	if fs.NArg() > 0 {
 		return nil, fmt.Errorf("%w: unexpected argument %q (all settings are flags; see -h)", errUsage, fs.Arg(0))
@@ -151,40 +156,73 @@ func parseFlags(args []string, stderr io.Writer) (*options, error) {
 	if o.steps == 0 {
 		o.steps = 100000
 	}
-	for _, name := range strings.Split(methods, ",") {
-		if strings.TrimSpace(name) == "" {
-			continue
+	// One message per flag, in the style "-flag value: what is wanted".
+	usage := func(format string, args ...any) error {
+		return fmt.Errorf("%w: %s", errUsage, fmt.Sprintf(format, args...))
+	}
+	for i, name := range strings.Split(methods, ",") {
+		name = strings.TrimSpace(name)
+		if name == "" {
+			return nil, usage("-methods %q: method %d is empty (want a comma-separated list of vmf, categorical, random, given)", methods, i+1)
 		}
 		m, err := transfer.ParseMethod(name)
 		if err != nil {
-			return nil, fmt.Errorf("%w: -methods: unknown method %q (want vmf, categorical, random or given)", errUsage, strings.TrimSpace(name))
+			return nil, usage("-methods: unknown method %q (want vmf, categorical, random or given)", name)
 		}
 		if !slices.Contains(o.methods, m) {
 			o.methods = append(o.methods, m)
 		}
 	}
-	switch {
-	case len(o.methods) == 0:
-		return nil, fmt.Errorf("%w: -methods: no method given", errUsage)
-	case o.budget < 1:
-		return nil, fmt.Errorf("%w: -budget %d: must be at least 1", errUsage, o.budget)
-	case o.seeds < 1:
-		return nil, fmt.Errorf("%w: -seeds %d: must be at least 1", errUsage, o.seeds)
-	case o.steps < 1:
-		return nil, fmt.Errorf("%w: -steps %d: must be at least 1", errUsage, o.steps)
-	case o.workers < 0:
-		return nil, fmt.Errorf("%w: -workers %d: must not be negative", errUsage, o.workers)
-	case !(o.discStepSize >= 0) || o.discStepSize > 1e6:
-		return nil, fmt.Errorf("%w: -discrate %v: want 0 (default) or a positive step size", errUsage, o.discStepSize)
-	case o.dim < 0 || o.dim == 1 || o.skills < 0 || o.candidates < 0:
-		return nil, fmt.Errorf("%w: -dim %d, -skills %d, -candidates %d: want 0 (default) or at least 2, 1 and 1", errUsage, o.dim, o.skills, o.candidates)
-	case o.out == "":
-		return nil, fmt.Errorf("%w: -out: empty folder name", errUsage)
+	if err := o.explore.UnmarshalText([]byte(explore)); err != nil {
+		return nil, usage("-explore %q: want skills, greedy or uniform", explore)
 	}
-	if set["checkpoints"] && o.ckptDir == "" {
-		return nil, fmt.Errorf("%w: -checkpoints: empty folder name", errUsage)
+	if err := o.discOptim.UnmarshalText([]byte(discOptim)); err != nil {
+		return nil, usage("-discoptim %q: want adam or sparse-adam", discOptim)
+	}
+	if err := o.gpi.UnmarshalText([]byte(gpi)); err != nil {
+		return nil, usage("-gpi %q: want on or off", gpi)
+	}
+	switch {
+	case o.budget < 1:
+		return nil, usage("-budget %d: must be at least 1", o.budget)
+	case o.seeds < 1:
+		return nil, usage("-seeds %d: must be at least 1", o.seeds)
+	case o.steps < 1:
+		return nil, usage("-steps %d: must be at least 1", o.steps)
+	case o.workers < 0:
+		return nil, usage("-workers %d: must not be negative", o.workers)
+	case !(o.discStepSize >= 0) || o.discStepSize > 1e6:
+		return nil, usage("-discrate %v: want 0 (the default) or a positive step size", o.discStepSize)
+	case o.dim < 0 || o.dim == 1:
+		return nil, usage("-dim %d: want 0 (the default) or at least 2", o.dim)
+	case o.skills < 0:
+		return nil, usage("-skills %d: want 0 (the default) or at least 1", o.skills)
+	case o.candidates < 0:
+		return nil, usage("-candidates %d: want 0 (the default) or at least 1; to turn GPI off, use -gpi off", o.candidates)
+	case o.out == "":
+		return nil, usage("-out: empty folder name")
+	case set["checkpoints"] && o.ckptDir == "":
+		return nil, usage("-checkpoints: empty folder name")
 	}
 	return o, nil
+}
+
+// interrupted returns the error of a run stopped by Ctrl-C, saying how to
+// continue it (with a checkpoint folder) or how it could have been made
+// resumable (without one).
+func interrupted(ckptDir string, err error) error {
+	if ckptDir != "" {
+		return fmt.Errorf("interrupted; start again with the same flags to continue from %s: %w", ckptDir, err)
+	}
+	return fmt.Errorf("interrupted; nothing was kept (run with -checkpoints DIR to be able to continue a stopped run): %w", err)
+}
+
+// plural returns "n word", with an s for n other than 1.
+func plural(n int, word string) string {
+	if n == 1 {
+		return "1 " + word
+	}
+	return fmt.Sprintf("%d %ss", n, word)
 }
 
 // jobs returns the held-out jobs over the depot's place labels. They were
@@ -245,6 +283,10 @@ func run(args []string, stdout, stderr io.Writer) error {
 	if err := os.MkdirAll(o.out, 0o755); err != nil {
 		return fmt.Errorf("-out: %w", err)
 	}
+	// Found now rather than after the runs.
+	if err := fileio.CheckWritable(o.out); err != nil {
+		return fmt.Errorf("-out %s: cannot write there: %w", o.out, err)
+	}
 
 	g, err := mdp.Depot()
 	if err != nil {
@@ -277,7 +319,7 @@ func run(args []string, stdout, stderr io.Writer) error {
 		Budgets:    budgets(o.budget),
 		Baselines:  true,
 		TaskGamma:  0.95,
-		Adapt:      transfer.AdaptConfig{Explore: o.explore, Candidates: o.candidates},
+		Adapt:      transfer.AdaptConfig{Explore: o.explore, Candidates: o.candidates, GPI: o.gpi},
 		Workers:    o.workers,
 
 		CheckpointDir: o.ckptDir,
@@ -299,7 +341,7 @@ func run(args []string, stdout, stderr io.Writer) error {
 	if workers == 0 {
 		workers = runtime.GOMAXPROCS(0)
 	}
-	fmt.Fprintf(stderr, "depot: %d methods x %d seeds, %d pretraining steps each, %d workers\n", len(o.methods), len(seeds), o.steps, workers)
+	fmt.Fprintf(stderr, "depot: %s x %s, %d pretraining steps each, %s\n", plural(len(o.methods), "method"), plural(len(seeds), "seed"), o.steps, plural(workers, "worker"))
 	if o.ckptDir != "" {
 		fmt.Fprintf(stderr, "depot: checkpoints in %s (an interrupted run continues from them when started again with the same flags)\n", o.ckptDir)
 	}
@@ -315,8 +357,8 @@ func run(args []string, stdout, stderr io.Writer) error {
 	res, err := e.RunContext(ctx)
 	finish()
 	if err != nil {
-		if errors.Is(err, context.Canceled) && o.ckptDir != "" {
-			return fmt.Errorf("interrupted; start again with the same flags to continue from %s: %w", o.ckptDir, err)
+		if errors.Is(err, context.Canceled) {
+			return interrupted(o.ckptDir, err)
 		}
 		return err
 	}
@@ -445,7 +487,7 @@ func printResumed(w io.Writer, dir string, runs []experiment.ResumedRun) {
 	if len(runs) == 0 {
 		return
 	}
-	fmt.Fprintf(w, "Resumed %d pretraining runs from %s (their pretraining times cover only the part run now):\n", len(runs), dir)
+	fmt.Fprintf(w, "Resumed %s from %s (their pretraining times and steps per second cover only the part run now):\n", plural(len(runs), "pretraining run"), dir)
 	for _, r := range runs {
 		var how string
 		switch {

@@ -2,8 +2,10 @@ package main
 
 import (
 	"bytes"
+	"context"
 	"encoding/json"
 	"errors"
+	"flag"
 	"io"
 	"math"
 	"os"
@@ -17,6 +19,7 @@ import (
 
 	"github.com/successor-go/successor/experiment"
 	"github.com/successor-go/successor/internal/npytest"
+	"github.com/successor-go/successor/transfer"
 )
 
 func TestParseFlags(t *testing.T) {
@@ -39,6 +42,11 @@ func TestParseFlags(t *testing.T) {
 		{[]string{"-nosuchflag"}, false},
 		{[]string{"-checkpoints", "ck"}, true},
 		{[]string{"-checkpoints", ""}, false},
+		{[]string{"-gpi", "off"}, true},
+		{[]string{"-gpi", "on", "-candidates", "3"}, true},
+		{[]string{"-discoptim", "sparse-adam"}, true},
+		{[]string{"-explore", "greedy"}, true},
+		{[]string{"-methods", " vmf , given "}, true},
 	} {
 		o, err := parseFlags(tc.args, io.Discard)
 		if tc.ok && err != nil {
@@ -50,6 +58,103 @@ func TestParseFlags(t *testing.T) {
 		if tc.ok && len(tc.args) == 1 && tc.args[0] == "-quick" && (o.seeds != 2 || o.budget != 200 || o.steps != 8000) {
 			t.Errorf("-quick settings %+v", o)
 		}
+	}
+}
+
+// TestFlagMessages checks the messages of a bad command line: one per
+// flag, naming that flag and what it wants, in one style for every flag
+// (the text flags used to print the library's error, twice), and clear
+// for the cases a user meets: an empty entry in -methods (it used to be
+// dropped silently), -candidates -1 (the library's "GPI off", now -gpi
+// off).
+func TestFlagMessages(t *testing.T) {
+	for _, tc := range []struct {
+		args []string
+		want string
+	}{
+		{[]string{"-methods", "vmf,,given"}, `-methods "vmf,,given": method 2 is empty`},
+		{[]string{"-methods", "vmf,"}, `-methods "vmf,": method 2 is empty`},
+		{[]string{"-dim", "-2"}, "-dim -2: want 0 (the default) or at least 2"},
+		{[]string{"-dim", "1"}, "-dim 1: want 0 (the default) or at least 2"},
+		{[]string{"-skills", "-3"}, "-skills -3: want 0 (the default) or at least 1"},
+		{[]string{"-candidates", "-1"}, "-candidates -1: want 0 (the default) or at least 1; to turn GPI off, use -gpi off"},
+		{[]string{"-discoptim", "fast"}, `-discoptim "fast": want adam or sparse-adam`},
+		{[]string{"-explore", "sideways"}, `-explore "sideways": want skills, greedy or uniform`},
+		{[]string{"-gpi", "maybe"}, `-gpi "maybe": want on or off`},
+		{[]string{"-budget", "many"}, `invalid value "many" for flag -budget`},
+	} {
+		var stderr bytes.Buffer
+		_, err := parseFlags(tc.args, &stderr)
+		if !errors.Is(err, errUsage) || !strings.Contains(err.Error(), tc.want) {
+			t.Errorf("%q: error %v, want a usage error saying %q", tc.args, err, tc.want)
+			continue
+		}
+		msg := err.Error()
+		for _, other := range []string{"-dim", "-skills", "-candidates"} {
+			if other != tc.args[0] && strings.Contains(msg, other+" ") {
+				t.Errorf("%q: message %q also names %s", tc.args, msg, other)
+			}
+		}
+		for _, prefix := range []string{"transfer:", "skills:"} {
+			if strings.Contains(msg, prefix) {
+				t.Errorf("%q: message %q carries a library prefix", tc.args, msg)
+			}
+		}
+		if stderr.Len() != 0 {
+			t.Errorf("%q: parseFlags also printed %q (main prints the error once)", tc.args, stderr.String())
+		}
+	}
+	o, err := parseFlags([]string{"-gpi", "off"}, io.Discard)
+	if err != nil || o.gpi != transfer.GPIOff {
+		t.Errorf("-gpi off: %v, gpi %v", err, o.gpi)
+	}
+	var help bytes.Buffer
+	if _, err := parseFlags([]string{"-h"}, &help); !errors.Is(err, flag.ErrHelp) || !strings.Contains(help.String(), "-gpi") {
+		t.Errorf("-h: %v, printed %q", err, help.String())
+	}
+}
+
+func TestPlural(t *testing.T) {
+	for n, want := range map[int]string{0: "0 seeds", 1: "1 seed", 2: "2 seeds"} {
+		if got := plural(n, "seed"); got != want {
+			t.Errorf("plural(%d) = %q, want %q", n, got, want)
+		}
+	}
+}
+
+// TestInterruptedMessage checks that an interrupted run without
+// -checkpoints says how a run could have been continued (it used to say
+// nothing), and one with it says how to continue.
+func TestInterruptedMessage(t *testing.T) {
+	if msg := interrupted("", context.Canceled).Error(); !strings.Contains(msg, "-checkpoints DIR") || !errors.Is(interrupted("", context.Canceled), context.Canceled) {
+		t.Errorf("without checkpoints: %q", msg)
+	}
+	if msg := interrupted("ck", context.Canceled).Error(); !strings.Contains(msg, "continue from ck") {
+		t.Errorf("with checkpoints: %q", msg)
+	}
+}
+
+// TestOutNotWritable checks that an -out folder that exists but cannot be
+// written is refused before any run (it used to be found after the whole
+// experiment).
+func TestOutNotWritable(t *testing.T) {
+	dir := filepath.Join(t.TempDir(), "ro")
+	if err := os.Mkdir(dir, 0o555); err != nil {
+		t.Fatal(err)
+	}
+	defer os.Chmod(dir, 0o755)
+	if f, err := os.CreateTemp(dir, "x"); err == nil {
+		f.Close()
+		os.Remove(f.Name())
+		t.Skip("a read-only folder is writable here (running as root): the case cannot be checked")
+	}
+	var stderr bytes.Buffer
+	err := run([]string{"-quick", "-methods", "given", "-seeds", "1", "-out", dir}, io.Discard, &stderr)
+	if !errors.Is(err, os.ErrPermission) || !strings.Contains(err.Error(), "-out "+dir) {
+		t.Fatalf("error %v, want a permission error naming -out %s", err, dir)
+	}
+	if strings.Contains(stderr.String(), "pretraining") {
+		t.Errorf("the runs started before the check:\n%s", stderr.String())
 	}
 }
 
@@ -161,7 +266,27 @@ func withoutTimings(t *testing.T, path string) map[string]any {
 		delete(m, "seconds")
 		delete(m, "steps_per_second")
 	}
+	delete(res, "resumed") // which runs were read back: compared by the callers
 	return v
+}
+
+// resumedRuns returns the number of runs results.json at path lists as
+// resumed.
+func resumedRuns(t *testing.T, path string) int {
+	t.Helper()
+	data, err := os.ReadFile(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var v struct {
+		Results struct {
+			Resumed []experiment.ResumedRun `json:"resumed"`
+		} `json:"results"`
+	}
+	if err := json.Unmarshal(data, &v); err != nil {
+		t.Fatal(err)
+	}
+	return len(v.Results.Resumed)
 }
 
 // TestCheckpointsRestart runs the demo with -checkpoints twice into the
@@ -186,6 +311,10 @@ func TestCheckpointsRestart(t *testing.T) {
 		}
 		if !reflect.DeepEqual(withoutTimings(t, filepath.Join(out, "results.json")), withoutTimings(t, filepath.Join(plain, "results.json"))) {
 			t.Errorf("run %d: results.json differs from the run without checkpoints", i+1)
+		}
+		// results.json says which runs were read back (it used not to).
+		if n, want := resumedRuns(t, filepath.Join(out, "results.json")), 2*i; n != want {
+			t.Errorf("run %d: results.json lists %d resumed runs, want %d", i+1, n, want)
 		}
 	}
 	for _, f := range []string{"given-seed1.ckpt", "given-seed1.run", "given-seed2.ckpt", "given-seed2.run"} {

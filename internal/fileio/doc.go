@@ -12,9 +12,12 @@
 // file, and a failed write leaves an existing file untouched and no
 // temporary file behind.
 //
-// The temporary file is named "." + base + ".tmp" + a random suffix, so it
-// is hidden on Unix and cannot collide with the destination or with a
-// concurrent writer of the same path. Saved files get FileMode (0644).
+// The temporary file is named "." + base + ".tmp" + a random suffix of
+// decimal digits, so it is hidden on Unix and cannot collide with the
+// destination or with a concurrent writer of the same path. Saved files
+// get FileMode (0644). A process killed in the middle of a write (kill -9,
+// a machine stopped) leaves its temporary file behind; RemoveTemps
+// removes such files, and only those (TempDest recognises the names).
 //
 // # Framing
 //

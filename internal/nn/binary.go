@@ -39,7 +39,8 @@ func (m *MLP) MarshalBinary() ([]byte, error) {
 
 // UnmarshalBinary replaces m with the network encoded in data by
 // MarshalBinary, shape included. It returns an error wrapping ErrCorrupt
-// if data is malformed, in which case m is unchanged.
+// if data is malformed (a NaN or infinite parameter included), in which
+// case m is unchanged.
 func (m *MLP) UnmarshalBinary(data []byte) error {
 	d, err := fileio.Open("nn: load mlp", data, mlpMagic, binVersion)
 	if err != nil {
@@ -76,6 +77,11 @@ func (m *MLP) UnmarshalBinary(data []byte) error {
 	if err := d.Finish(); err != nil {
 		return err
 	}
+	for i, v := range n.params {
+		if math.IsNaN(v) || math.IsInf(v, 0) {
+			return d.Fail("parameters", "parameter %d is %v", i, v)
+		}
+	}
 	*m = *n
 	return nil
 }
@@ -101,7 +107,8 @@ func (o *Adam) MarshalBinary() ([]byte, error) {
 
 // UnmarshalBinary replaces o with the optimiser encoded in data by
 // MarshalBinary. It returns an error wrapping ErrCorrupt if data is
-// malformed, in which case o is unchanged.
+// malformed (a non-finite hyperparameter or moment, or a negative second
+// moment included), in which case o is unchanged.
 func (o *Adam) UnmarshalBinary(data []byte) error {
 	d, err := fileio.Open("nn: load adam", data, adamMagic, binVersion)
 	if err != nil {
@@ -124,6 +131,11 @@ func (o *Adam) UnmarshalBinary(data []byte) error {
 	a := &Adam{StepSize: lr, Beta1: b1, Beta2: b2, Eps: eps, T: t, M: d.Float64s("m", n), V: d.Float64s("v", n)}
 	if err := d.Finish(); err != nil {
 		return err
+	}
+	for i := range a.M {
+		if m, v := a.M[i], a.V[i]; math.IsNaN(m) || math.IsInf(m, 0) || !(v >= 0) || math.IsInf(v, 1) {
+			return d.Fail("moments", "moments %v, %v of parameter %d (want finite, the second >= 0)", m, v, i)
+		}
 	}
 	*o = *a
 	return nil

@@ -180,6 +180,7 @@ func FuzzLoadMLP(f *testing.F) {
 	f.Add([]byte("NNML"))
 	f.Add(giant(b, 8))  // layers
 	f.Add(giant(b, 16)) // first width
+	f.Add(giant(b, 0))  // max batch
 	f.Fuzz(func(t *testing.T, data []byte) {
 		mlpRoundTrip(t, data)
 		mlpRoundTrip(t, fileio.Reseal(data))
@@ -231,5 +232,40 @@ func adamRoundTrip(t *testing.T, data []byte) {
 	}
 	if !bytes.Equal(out, data) {
 		t.Fatal("accepted bytes do not round-trip")
+	}
+}
+
+// TestLoadNonFinite checks that a network with a NaN or infinite
+// parameter, and an optimiser with a non-finite moment or a negative
+// second moment, are refused as corrupt under a valid checksum (they used
+// to load, and the next forward pass or step gave NaN).
+func TestLoadNonFinite(t *testing.T) {
+	net, _ := New(&Config{Sizes: []int{2, 3, 1}}, rand.New(rand.NewPCG(1, 2)))
+	nb, _ := net.MarshalBinary()
+	o := NewAdam(3, nil)
+	o.Step([]float64{1, 2, 3}, []float64{0.1, -0.2, 0.3})
+	ob, _ := o.MarshalBinary()
+	put := func(b []byte, at int, v float64) []byte {
+		c := bytes.Clone(b)
+		binary.LittleEndian.PutUint64(c[at:], math.Float64bits(v))
+		return fileio.Reseal(c)
+	}
+	last := func(b []byte) int { return len(b) - fileio.TrailerLen - 8 } // the last float of the payload
+	for _, v := range []float64{math.NaN(), math.Inf(1)} {
+		var m MLP
+		if err := m.UnmarshalBinary(put(nb, last(nb), v)); !errors.Is(err, ErrCorrupt) {
+			t.Errorf("mlp parameter %v: error %v, want ErrCorrupt", v, err)
+		}
+		var a Adam
+		if err := a.UnmarshalBinary(put(ob, last(ob)-8*3, v)); !errors.Is(err, ErrCorrupt) {
+			t.Errorf("adam first moment %v: error %v, want ErrCorrupt", v, err)
+		}
+	}
+	var a Adam
+	if err := a.UnmarshalBinary(put(ob, last(ob), -1)); !errors.Is(err, ErrCorrupt) {
+		t.Errorf("adam negative second moment: error %v, want ErrCorrupt", err)
+	}
+	if err := a.UnmarshalBinary(ob); err != nil {
+		t.Errorf("unaltered adam: %v", err)
 	}
 }
